@@ -1,0 +1,284 @@
+"""Mode identity: degenerate groups, symmetry-adapted bases, and the labels engineers read.
+
+* Degenerate modes (equal cutoff within the error estimate) are grouped.  Inside a group of one
+  family the basis is rotated to be symmetry-adapted: first eigenvectors of the mirror maps
+  x -> -x and y -> -y (about the section's own axes) where the section has those symmetries, then
+  of the x-gradient energy int (d psi / dx)^2 dA.  A circle's TE11 pair thus comes out as the two
+  orthogonal polarisations, a square's TE10/TE01 as the two pure modes.
+* Rectangles: TE_mn / TM_mn with m half-wavelengths along the width (x) and n along the height,
+  read off the field: (m pi / a)^2 = kc^2 int (d psi/dx)^2 / int |grad psi|^2.
+* Circles and centred coax: TE_nm / TM_nm with n the dominant azimuthal harmonic of psi and m the
+  ordinal among modes of the same family and n (a degenerate pair counts once).
+* Other shapes: the ordinal within the family, with the parity of psi (E_z for TM, H_z for TE)
+  under the section's mirror symmetries, e.g. 'TE1 (x odd, y even)'.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+
+from .modes import Mode, ModeField, interpolation_matrices, reference_points_matrix
+
+_CENTROID = np.array([[1 / 3], [1 / 3]])
+_MAX_SAMPLES = 3000
+
+
+def _index_label(family, a, b):
+    sep = "," if (a > 9 or b > 9) else ""
+    return f"{family}{a}{sep}{b}"
+
+
+class _Analyser:
+    """Field-based measurements on one discretisation, in the section's own frame."""
+
+    def __init__(self, section, disc):
+        self.disc = disc
+        self.basis = disc.basis
+        self.frame = section.frame if section is not None else (0.0, 0.0, 0.0)
+        x0, y0, th = self.frame
+        self.section = section
+        canon = section.translated(-x0, -y0).rotated(-th) if section is not None else None
+        self.canon = canon
+        self.sym = {}
+        if canon is not None:
+            for ax in ("x", "y"):
+                if canon.is_symmetric(ax):
+                    self.sym[ax] = True
+        self._P = None
+        self._mirror = {}
+        self._energy = None
+
+    def _points(self):
+        """Element centroids (at most _MAX_SAMPLES, evenly picked) with area weights."""
+        if self._P is None:
+            P, xy = reference_points_matrix(self.basis, _CENTROID)
+            mesh = self.basis.mesh
+            p = mesh.p[:, mesh.t]
+            area = 0.5 * np.abs((p[0, 1] - p[0, 0]) * (p[1, 2] - p[1, 0]) - (p[0, 2] - p[0, 0]) * (p[1, 1] - p[1, 0]))
+            pick = np.linspace(0, len(area) - 1, min(len(area), _MAX_SAMPLES)).astype(int)
+            self._w = area[pick]
+            self._xy = xy.reshape(2, -1)[:, pick]
+            self._P = P[pick]
+        return self._P
+
+    def _to_local(self, xy):
+        x0, y0, th = self.frame
+        c, s = math.cos(th), math.sin(th)
+        dx, dy = xy[0] - x0, xy[1] - y0
+        return np.array([c * dx + s * dy, -s * dx + c * dy])
+
+    def _to_global(self, loc):
+        x0, y0, th = self.frame
+        c, s = math.cos(th), math.sin(th)
+        return np.array([x0 + c * loc[0] - s * loc[1], y0 + s * loc[0] + c * loc[1]])
+
+    def mirror_form(self, axis, X):
+        """Matrix  int psi_i(x) psi_j(R x) dA  for the columns of X (approximate quadrature)."""
+        P = self._points()
+        if axis not in self._mirror:
+            loc = self._to_local(self._xy)
+            if axis == "x":
+                loc = np.array([-loc[0], loc[1]])
+            else:
+                loc = np.array([loc[0], -loc[1]])
+            Pm, _, _, ok = interpolation_matrices(self.basis, self._to_global(loc))
+            self._mirror[axis] = (Pm, ok)
+        Pm, ok = self._mirror[axis]
+        w = self._w * ok
+        A = (P @ X) * w[:, None]
+        S = A.T @ (Pm @ X)
+        return 0.5 * (S + S.T)
+
+    def x_energy(self, X):
+        """Matrix int (d psi_i/dx')(d psi_j/dx') dA in the section's own x direction."""
+        if self._energy is None:
+            from skfem import BilinearForm
+
+            th = self.frame[2]
+            c, s = math.cos(th), math.sin(th)
+
+            @BilinearForm
+            def exx(u, v, w):
+                du = c * u.grad[0] + s * u.grad[1]
+                dv = c * v.grad[0] + s * v.grad[1]
+                return du * dv
+
+            self._energy = exx.assemble(self.basis).tocsr()
+        return X.T @ (self._energy @ X)
+
+    def parity(self, x):
+        out = {}
+        for ax in ("x", "y"):
+            if self.sym.get(ax):
+                v = float(self.mirror_form(ax, x[:, None])[0, 0])
+                nrm = float(np.sum(self._w * (self._points() @ x) ** 2))
+                r = v / nrm if nrm > 0 else 0.0
+                out[ax] = "even" if r > 0.5 else "odd" if r < -0.5 else "mixed"
+        return out
+
+    def azimuthal_order(self, x, center, r_lo, r_hi):
+        """Dominant angular harmonic n of psi on rings between r_lo and r_hi about center."""
+        nphi = 64
+        phis = np.linspace(0, 2 * np.pi, nphi, endpoint=False)
+        radii = np.linspace(r_lo, r_hi, 5)
+        pts = np.array([[center[0] + r * np.cos(p), center[1] + r * np.sin(p)] for r in radii for p in phis]).T
+        P, _, _, ok = interpolation_matrices(self.basis, pts)
+        v = (P @ x).reshape(len(radii), nphi)
+        spec = np.sum(np.abs(np.fft.rfft(v, axis=1)) ** 2, axis=0)
+        return int(np.argmax(spec))
+
+    def nodal_domains(self, x):
+        """Number of connected regions where psi keeps one sign (vertex values, mesh edges)."""
+        from scipy.sparse import coo_matrix
+        from scipy.sparse.csgraph import connected_components
+
+        mesh = self.basis.mesh
+        nv = mesh.t.max() + 1
+        v = x[:nv]  # Lagrange vertex dofs come first
+        tol = 1e-3 * np.max(np.abs(v))
+        sgn = np.where(v > tol, 1, np.where(v < -tol, -1, 0))
+        e = mesh.facets
+        same = (sgn[e[0]] == sgn[e[1]]) & (sgn[e[0]] != 0)
+        g = coo_matrix((np.ones(same.sum()), (e[0, same], e[1, same])), shape=(nv, nv))
+        _, lab = connected_components(g, directed=False)
+        labs, counts = np.unique(lab[sgn != 0], return_counts=True)
+        return int(np.sum(counts >= 3))
+
+
+def _symmetry_adapt(an, X):
+    """Rotate the columns of X (one degenerate group of one family) to a symmetry-adapted basis."""
+    blocks = [X]
+    for ax in ("x", "y"):
+        if not an.sym.get(ax):
+            continue
+        new = []
+        for B in blocks:
+            if B.shape[1] == 1:
+                new.append(B)
+                continue
+            S = an.mirror_form(ax, B)
+            w, V = np.linalg.eigh(S)
+            R = B @ V
+            new.extend([R[:, w < 0], R[:, w >= 0]])
+        blocks = [b for b in new if b.shape[1]]
+    out = []
+    for B in blocks:
+        if B.shape[1] > 1:
+            E = an.x_energy(B)
+            _, V = np.linalg.eigh(E)
+            B = B @ V[:, ::-1]  # strongest x-variation first
+        out.append(B)
+    return np.hstack(out)
+
+
+def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
+    """Turn merged eigen rows and TEM potentials into labelled Mode objects (ascending cutoff)."""
+    disc = fine["disc"]
+    an = _Analyser(section, disc)
+    M = disc.M
+    rows = list(merged)
+    lam = np.array([r[0] for r in rows])
+    err = np.array([r[1] for r in rows])
+    # degenerate groups: chains of neighbours closer than their combined error estimates
+    groups = []
+    for i in range(len(rows)):
+        if groups and abs(lam[i] - lam[groups[-1][-1]]) <= 2 * safety * (err[i] + err[groups[-1][-1]]) + 1e-10 * lam[i]:
+            groups[-1].append(i)
+        else:
+            groups.append([i])
+    vectors = [fine[r[2]][1][:, r[3]].copy() for r in rows]
+    for g in groups:
+        for fam in ("TE", "TM"):
+            idx = [i for i in g if rows[i][2] == fam]
+            if len(idx) > 1:
+                X = np.column_stack([vectors[i] for i in idx])
+                Y = _symmetry_adapt(an, X)
+                for k, i in enumerate(idx):
+                    vectors[i] = Y[:, k]
+    modes = []
+    for phi, energy in tem:
+        fld = ModeField(disc.basis, phi, "TEM", 0.0)
+        fld.__dict__["_tem_scale"] = 1.0 / math.sqrt(energy)
+        modes.append(dict(family="TEM", lam=0.0, err=0.0, field=fld, res=0.0, vec=phi))
+    for i, r in enumerate(rows):
+        x = vectors[i]
+        x = x / math.sqrt(float(x @ (M @ x)))
+        # fix the sign: largest vertex value positive (deterministic figures)
+        j = int(np.argmax(np.abs(x)))
+        x = x if x[j] > 0 else -x
+        modes.append(dict(family=r[2], lam=r[0], err=r[1], res=r[4], vec=x,
+                          field=ModeField(disc.basis, x, r[2], math.sqrt(r[0]))))
+    modes = modes[:n_modes]
+    # identities
+    ordinals = {}
+    group_of = {}
+    offset = len([m for m in modes if m["family"] == "TEM"])
+    for gi, g in enumerate(groups):
+        for i in g:
+            group_of[i + offset] = gi
+    kind = section.kind if section is not None else "mesh"
+    params = section.params if section is not None else {}
+    out = []
+    azim_counts = {}
+    azim_seen = {}
+    for k, m in enumerate(modes):
+        fam = m["family"]
+        ordinals[fam] = ordinals.get(fam, 0) + 1
+        kc = math.sqrt(m["lam"])
+        info = dict(indices=None, symmetry={}, nodal_domains=None)
+        if fam == "TEM":
+            n_tem = sum(1 for q in modes if q["family"] == "TEM")
+            label = "TEM" if n_tem == 1 else f"TEM{ordinals[fam]}"
+        else:
+            x = m["vec"]
+            info["symmetry"] = an.parity(x)
+            info["nodal_domains"] = an.nodal_domains(x)
+            label = None
+            if kind == "rectangle":
+                a, b = params["width"], params["height"]
+                ex = float(an.x_energy(x[:, None])[0, 0]) / m["lam"]
+                mm = round(math.sqrt(max(ex, 0.0) * m["lam"]) * a / math.pi)
+                nn = round(math.sqrt(max(1 - ex, 0.0) * m["lam"]) * b / math.pi)
+                info["indices"] = (mm, nn)
+                label = _index_label(fam, mm, nn)
+            elif kind in ("circle", "coaxial") and "offset_x" not in params and "offset_y" not in params:
+                R = params.get("radius", params.get("outer_radius"))
+                ri = params.get("inner_radius", 0.0)
+                center = an._to_global(np.array([[0.0], [0.0]]))[:, 0]
+                n_az = an.azimuthal_order(x, center, ri + 0.15 * (R - ri), ri + 0.85 * (R - ri))
+                gkey = group_of.get(k)
+                key = (fam, n_az)
+                seen = azim_seen.setdefault(key, set())
+                if gkey not in seen or n_az == 0:
+                    azim_counts[key] = azim_counts.get(key, 0) + 1
+                    seen.add(gkey)
+                mr = azim_counts[key]
+                info["indices"] = (n_az, mr)
+                label = _index_label(fam, n_az, mr)
+            if label is None:
+                label = f"{fam}{ordinals[fam]}"
+                sym = info["symmetry"]
+                if sym:
+                    label += " (" + ", ".join(f"{ax} {sym[ax]}" for ax in ("x", "y") if ax in sym) + ")"
+        out.append(Mode(family=fam, kc=kc, kc_error=safety * m["err"] / (2 * kc) if kc > 0 else 0.0,
+                        eps_r=eps_r, mu_r=mu_r, label=label, index=k, ordinal=ordinals[fam],
+                        indices=info["indices"], symmetry=info["symmetry"],
+                        nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"]))
+    # degeneracy links (TEM modes form one group at kc = 0)
+    tem_idx = tuple(i for i, m in enumerate(out) if m.family == "TEM")
+    final = []
+    for k, m in enumerate(out):
+        if m.family == "TEM":
+            others = tuple(i for i in tem_idx if i != k)
+        else:
+            g = group_of[k]
+            others = tuple(i for i in range(len(out)) if i != k and group_of.get(i) == g)
+        final.append(replace(m, degenerate_with=others))
+    for k, m in enumerate(final):
+        same = [i for i in m.degenerate_with if final[i].family == m.family]
+        if len(same) == 1:
+            object.__setattr__(m, "partner", final[same[0]])
+    return final
