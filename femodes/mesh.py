@@ -72,7 +72,7 @@ class Mesh:
         """
         from skfem import MeshTri1, MeshTri2
 
-        m1 = MeshTri1(self.points, self.triangles)
+        m1 = MeshTri1(np.ascontiguousarray(self.points), np.ascontiguousarray(self.triangles))
         if not self.is_curved:
             return m1
         m2 = MeshTri2.from_mesh(m1)
@@ -368,7 +368,8 @@ def _mesh_from_connectivity(coords, conn) -> Mesh:
     area = 0.5 * ((p[0, 1] - p[0, 0]) * (p[1, 2] - p[1, 0]) - (p[0, 2] - p[0, 0]) * (p[1, 1] - p[1, 0]))
     if np.any(np.abs(area) == 0):
         raise FemodesError("the mesh has triangles of zero area; check the file or the geometry")
-    return Mesh(points, t_sorted.astype(np.int64), ce.astype(np.int64), cm)
+    return Mesh(np.ascontiguousarray(points), np.ascontiguousarray(t_sorted, dtype=np.int64),
+                np.ascontiguousarray(ce, dtype=np.int64), np.ascontiguousarray(cm))
 
 
 def read_mesh(path, scale=1.0) -> Mesh:
@@ -382,7 +383,13 @@ def read_mesh(path, scale=1.0) -> Mesh:
     if not os.path.exists(path):
         raise FemodesError(f"mesh file not found: {path}")
     try:
-        m = meshio.read(path)
+        if str(path).lower().endswith(".msh"):
+            try:
+                m = meshio.read(path, file_format="gmsh")
+            except Exception:  # not a gmsh file: let meshio try the other .msh formats
+                m = meshio.read(path)
+        else:
+            m = meshio.read(path)
     except Exception as exc:  # meshio raises many types for unreadable files
         raise FemodesError(f"could not read mesh file {path}: {exc}") from None
     blocks = [c for c in m.cells if c.type in ("triangle", "triangle6")]
@@ -417,4 +424,6 @@ def write_mesh(mesh: Mesh, path, point_data=None):
     else:
         cells = [("triangle", tri.T)]
         xyz = np.vstack([pts, np.zeros(pts.shape[1])]).T
-    meshio.write(str(path), meshio.Mesh(xyz, cells, point_data=point_data or {}))
+    fmt = "gmsh22" if str(path).lower().endswith(".msh") else None  # .msh: gmsh, not ANSYS
+    kw = {"file_format": fmt, "binary": False} if fmt else {}
+    meshio.write(str(path), meshio.Mesh(xyz, cells, point_data=point_data or {}), **kw)

@@ -184,15 +184,15 @@ class Loop:
 
     segments: tuple
 
-    def polyline(self, per_segment=64):
-        """Sampled points (2, n) of the closed loop, last point not repeated."""
-        pts = [seg.samples(per_segment)[:, :-1] for seg in self.segments]
+    def polyline(self, per_segment=64, line_pieces=1):
+        """Sampled points (2, n) of the closed loop, last point not repeated: ``line_pieces``
+        pieces along each straight segment, and ``per_segment`` pieces along each arc."""
+        pts = [seg.samples(line_pieces if isinstance(seg, Line) else per_segment)[:, :-1] for seg in self.segments]
         return np.hstack(pts)
 
     def signed_area(self):
-        p = self.polyline(128)
-        x, y = p
-        return 0.5 * float(np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y))
+        """Enclosed area (m^2), positive for counter-clockwise loops (exact for lines and arcs)."""
+        return sum(_gauss_area(s) for s in self.segments)
 
     def reversed(self):
         return Loop(tuple(s.reversed() for s in reversed(self.segments)))
@@ -311,6 +311,21 @@ def _polyline_self_intersects(pts, scale):
     return False
 
 
+def _polylines_cross(pa, pb):
+    """True if an edge of closed polyline pa properly crosses an edge of closed polyline pb."""
+    a0, b0 = pa.T, pb.T
+    a1, b1 = np.roll(a0, -1, axis=0), np.roll(b0, -1, axis=0)
+
+    def orient(p, q, r):
+        return (q[..., 0] - p[..., 0]) * (r[..., 1] - p[..., 1]) - (q[..., 1] - p[..., 1]) * (r[..., 0] - p[..., 0])
+
+    P, Q = a0[:, None, :], a1[:, None, :]
+    R, S = b0[None, :, :], b1[None, :, :]
+    d1, d2 = orient(R, S, P), orient(R, S, Q)
+    d3, d4 = orient(P, Q, R), orient(P, Q, S)
+    return bool(np.any((d1 * d2 < 0) & (d3 * d4 < 0)))
+
+
 def _point_in_polygon(pt, poly):
     x, y = pt
     px, py = poly
@@ -326,20 +341,48 @@ def _point_in_polygon(pt, poly):
     return inside
 
 
-def _min_distance(pa, pb):
-    """Smallest distance between the vertices of one closed polyline and the edges of another."""
+def _point_edge_distances(pa, pb):
+    """For each vertex of polyline pa (2, n): its distance to the nearest edge of closed polyline pb."""
     a = pa.T
     b0 = pb.T
     b1 = np.roll(b0, -1, axis=0)
     d = b1 - b0
     L2 = np.maximum(np.sum(d * d, axis=1), 1e-300)
-    best = np.inf
+    out = []
     for chunk in np.array_split(a, max(1, len(a) // 256)):
         w = chunk[:, None, :] - b0[None, :, :]
         t = np.clip(np.sum(w * d[None], axis=2) / L2[None], 0, 1)
         proj = b0[None] + t[..., None] * d[None]
-        best = min(best, float(np.sqrt(np.min(np.sum((chunk[:, None, :] - proj) ** 2, axis=2)))))
-    return best
+        out.append(np.sqrt(np.min(np.sum((chunk[:, None, :] - proj) ** 2, axis=2), axis=1)))
+    return np.concatenate(out)
+
+
+def _min_distance(pa, pb):
+    """Smallest distance between the vertices of one closed polyline and the edges of another."""
+    return float(np.min(_point_edge_distances(pa, pb)))
+
+
+def _max_distance(pa, pb):
+    """Largest vertex-to-nearest-edge distance (one-sided Hausdorff distance of pa from pb)."""
+    return float(np.max(_point_edge_distances(pa, pb)))
+
+
+def _gauss_area(seg, n=24):
+    """(1/2) int (x dy - y dx) along one segment, Gauss-Legendre (exact to rounding for arcs <= pi/2)."""
+    if isinstance(seg, Line):
+        (x0, y0), (x1, y1) = seg.start, seg.end
+        return 0.5 * (x0 * y1 - x1 * y0)
+    s, w = np.polynomial.legendre.leggauss(n)
+    total = 0.0
+    for piece in seg.split(math.pi / 4):
+        t = piece.t0 + (piece.t1 - piece.t0) * 0.5 * (s + 1)
+        c, sn = math.cos(piece.rotation), math.sin(piece.rotation)
+        u, v = piece.rx * np.cos(t), piece.ry * np.sin(t)
+        du, dv = -piece.rx * np.sin(t), piece.ry * np.cos(t)
+        x, y = piece.center[0] + c * u - sn * v, piece.center[1] + sn * u + c * v
+        dx, dy = c * du - sn * dv, sn * du + c * dv
+        total += 0.5 * float(np.sum(w * (x * dy - y * dx))) * 0.5 * (piece.t1 - piece.t0)
+    return total
 
 
 # ----------------------------------------------------------------------------- section
@@ -380,12 +423,12 @@ class Section:
         scale = float(np.max(np.ptp(po, axis=1)))
         if not np.all(np.isfinite(po)) or scale <= 0:
             raise FemodesError("the outline has no extent: give at least three distinct vertices")
+        if _polyline_self_intersects(self.outer.polyline(8), scale):
+            raise FemodesError("the outline crosses itself: list the vertices in order around the boundary")
         area = abs(self.outer.signed_area())
         if area < 1e-9 * scale * scale:
             raise FemodesError(f"the outline encloses (almost) zero area ({area:.3g} m^2): "
                                "its vertices must not all lie on one line")
-        if _polyline_self_intersects(self.outer.polyline(8), scale):
-            raise FemodesError("the outline crosses itself: list the vertices in order around the boundary")
         for k, h in enumerate(self.holes):
             ph = h.polyline(48)
             if abs(h.signed_area()) < 1e-12 * scale * scale:
@@ -393,7 +436,8 @@ class Section:
             if _polyline_self_intersects(h.polyline(8), scale):
                 raise FemodesError(f"hole {k + 1} crosses itself: list its vertices in order")
             if not all(_point_in_polygon(p, po) for p in ph.T[:: max(1, ph.shape[1] // 16)]) \
-                    or not _point_in_polygon(ph[:, 0], po):
+                    or not _point_in_polygon(ph[:, 0], po) or _polylines_cross(ph, po) \
+                    or any(_point_in_polygon(p, ph) for p in po.T):
                 raise FemodesError(f"hole {k + 1} (inner conductor) is not inside the outer wall: "
                                    "move or shrink it so that it lies wholly inside")
             gap = min(_min_distance(ph, po), _min_distance(po, ph))
@@ -402,7 +446,7 @@ class Section:
                                    "leave a gap between inner conductor and wall")
             for j in range(k):
                 pj = self.holes[j].polyline(48)
-                if _point_in_polygon(ph[:, 0], pj) or _point_in_polygon(pj[:, 0], ph) or \
+                if _point_in_polygon(ph[:, 0], pj) or _point_in_polygon(pj[:, 0], ph) or _polylines_cross(ph, pj) or \
                         min(_min_distance(ph, pj), _min_distance(pj, ph)) < 1e-6 * scale:
                     raise FemodesError(f"holes {j + 1} and {k + 1} touch or overlap: keep inner conductors apart")
 
@@ -446,8 +490,8 @@ class Section:
         other = self.mirrored(axis)
         scale = self.size
         for a, b in zip(sorted(self.loops, key=_loop_key), sorted(other.loops, key=_loop_key)):
-            pa, pb = a.polyline(64), b.polyline(64)
-            if max(_min_distance(pa, pb), _min_distance(pb, pa)) > 1e-7 * scale:
+            pa, pb = a.polyline(64, line_pieces=16), b.polyline(64, line_pieces=16)
+            if max(_max_distance(pa, pb), _max_distance(pb, pa)) > 1e-7 * scale:
                 return False
         return len(self.loops) == len(other.loops)
 
