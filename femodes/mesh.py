@@ -258,10 +258,12 @@ def _gmsh_arc_curves(gmsh, section):
 
 
 def mesh_section(section: Section, h_max: float, order: int = 3, grading: float = 1.0,
-                 curved: bool = True) -> Mesh:
+                 curved: bool = True, graded: bool = True) -> Mesh:
     """Mesh ``section`` with maximum element size ``h_max`` (m), graded for elements of ``order``.
 
     Returns a :class:`Mesh`; with ``curved`` (default) edges on arcs carry their true mid-points.
+    ``graded=False`` gives a uniform mesh (for comparisons); ``grading`` scales the corner
+    exponent (1 = equidistributing).
     """
     if not (h_max > 0):
         raise FemodesError(f"mesh size must be positive, got {h_max!r}")
@@ -282,7 +284,8 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
         gmsh.option.setNumber("Mesh.RandomFactor", 1e-9)
         gmsh.option.setNumber("Mesh.MeshSizeMax", float(h_max))
         gmsh.option.setNumber("Mesh.MeshSizeMin", 0.0)
-        _size_fields(gmsh, section, h_max, order, grading)
+        if graded:
+            _size_fields(gmsh, section, h_max, order, grading)
         gmsh.model.mesh.generate(2)
         if curved:
             gmsh.model.mesh.setOrder(2)

@@ -240,7 +240,8 @@ class Mode:
 
     @property
     def cutoff_wavelength(self):
-        """Cutoff wavelength 2 pi / kc (m) in the filling material's terms (free-space at fc)."""
+        """Cutoff wavelength 2 pi / kc (m): the wavelength in the filling at the cutoff frequency
+        (equal to the free-space wavelength c0 / fc for an air-filled guide)."""
         return 2 * math.pi / self.kc if self.kc > 0 else math.inf
 
     # -- propagation at a frequency ------------------------------------------
@@ -335,7 +336,8 @@ def _transverse(family, kc, field, gx, gy):
 class ModeSet(tuple):
     """The modes of one solve, ascending in cutoff: a tuple of :class:`Mode` with extras.
 
-    Attributes: section, mesh (the mesh used), eps_r, mu_r, accuracy (asked), n_dofs, order.
+    Attributes: section, mesh (the mesh used), eps_r, mu_r, accuracy (asked), n_dofs, order,
+    mesh_size, family (None, or 'TE'/'TM' for a one-family solve).
     """
 
     def __new__(cls, modes, **info):
@@ -357,11 +359,15 @@ class ModeSet(tuple):
         return hits
 
     def single_mode_band(self):
-        """(f_low, f_high): from the lowest non-zero cutoff to the next distinct cutoff (Hz).
-
-        For a guide with a TEM mode the band starts at 0 Hz.  Degenerate partners count once.
-        """
-        fcs = sorted({round(m.fc, 3) for m in self})
-        if len(fcs) < 2:
-            raise FemodesError("solve for at least two distinct modes to find the single-mode band")
-        return fcs[0], fcs[1]
+        """(f_low, f_high): from the lowest cutoff to the next cutoff of a mode that is not
+        degenerate with the lowest (Hz).  For a guide with a TEM mode the band starts at 0 Hz.
+        With a one-family solve (``family='TE'``) the band is among that family only."""
+        if not self:
+            raise FemodesError("no modes: solve for at least two modes to find the single-mode band")
+        first = self[0]
+        same = set(first.degenerate_with) | {first.index}
+        rest = [m for m in self if m.index not in same]
+        if not rest:
+            raise FemodesError("solve for more modes: all modes found share the lowest cutoff, "
+                               "so the upper edge of the single-mode band is not known")
+        return first.fc, rest[0].fc

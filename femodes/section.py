@@ -618,7 +618,10 @@ def rectangular_coax(width, height, inner_width, inner_height, offset=(0.0, 0.0)
     b = check_positive("height", height)
     w = check_positive("inner_width", inner_width)
     h = check_positive("inner_height", inner_height)
-    dx, dy = float(offset[0]), float(offset[1])
+    try:
+        dx, dy = (float(offset[0]), float(offset[1]))
+    except (TypeError, IndexError, ValueError):
+        raise FemodesError(f"offset must be a pair (dx, dy) in metres, got {offset!r}") from None
     if abs(dx) + w / 2 >= a / 2 or abs(dy) + h / 2 >= b / 2:
         raise FemodesError(f"the inner conductor ({w * 1e3:.6g} x {h * 1e3:.6g} mm at offset "
                            f"({dx * 1e3:.6g}, {dy * 1e3:.6g}) mm) does not fit inside the "
@@ -626,8 +629,10 @@ def rectangular_coax(width, height, inner_width, inner_height, offset=(0.0, 0.0)
     inner = _polygon_loop([(dx - w / 2, dy - h / 2), (dx + w / 2, dy - h / 2),
                            (dx + w / 2, dy + h / 2), (dx - w / 2, dy + h / 2)])
     outer = _polygon_loop([(-a / 2, -b / 2), (a / 2, -b / 2), (a / 2, b / 2), (-a / 2, b / 2)])
-    return Section(outer, (inner,), "rectangular_coax",
-                   {"width": a, "height": b, "inner_width": w, "inner_height": h})
+    params = {"width": a, "height": b, "inner_width": w, "inner_height": h}
+    if dx or dy:
+        params.update(offset_x=dx, offset_y=dy)
+    return Section(outer, (inner,), "rectangular_coax", params)
 
 
 def ridged(width, height, ridge_width, gap, ridges=2, ridge_corner_radius=0.0, base_radius=0.0):

@@ -124,12 +124,13 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
                    f"worst estimate {worst:.2e} trusted={trusted}")
             if mesh_size is not None or (worst <= accuracy and trusted) or not merged:
                 break
-            if fine["n_dofs"] * 2 > MAX_DOFS:
-                break
             shrink = min(0.72, max(0.3, (0.6 * accuracy / worst) ** (1.0 / _rate(fine, p))))
             if not trusted:
                 shrink = min(shrink, _KH_MAX[p] / (math.sqrt(merged[-1][0]) * h))
-            h *= max(shrink, 0.25)
+            shrink = max(shrink, 0.25)
+            if fine["n_dofs"] / shrink ** 2 > MAX_DOFS:
+                break  # the next mesh would be too large: report what was reached
+            h *= shrink
             coarse, fine = fine, _discrete_solve(section, h, p, fams, counts, shifts)
         else:
             merged = _merge(fine, coarse, p, want)
@@ -142,7 +143,7 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
 
     mode_list = build_modes(section, fine, merged, tem, eps_r, mu_r, SAFETY, n_modes)
     return ModeSet(mode_list, section=section, mesh=fine["mesh"], eps_r=eps_r, mu_r=mu_r,
-                   accuracy=accuracy, n_dofs=fine["n_dofs"], order=p, mesh_size=h)
+                   accuracy=accuracy, n_dofs=fine["n_dofs"], order=p, mesh_size=h, family=family)
 
 
 def _debug(msg):
@@ -322,7 +323,7 @@ def _solve_fixed_mesh(mesh, n_modes, eps_r, mu_r, accuracy, family, p):
         tem = _tem_modes(fine, None) if n_tem else []
     mode_list = build_modes(None, fine, merged, tem, eps_r, mu_r, 1.0, n_modes)
     return ModeSet(mode_list, section=None, mesh=mesh, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy,
-                   n_dofs=fine["n_dofs"], order=p, mesh_size=None)
+                   n_dofs=fine["n_dofs"], order=p, mesh_size=None, family=family)
 
 
 def _areas(mesh):

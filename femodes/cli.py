@@ -1,0 +1,130 @@
+"""The ``femodes`` command-line program: a thin layer over femodes.case and femodes.export.
+
+    femodes solve CASE.toml [--json] [--csv PATH] [--figures DIR | --no-figures] [--format FMT]
+                            [--modes N] [--accuracy X]
+    femodes shapes
+    femodes --version
+
+Errors a user can cause are printed as one line, ``femodes: error: <message>``, on stderr, and the
+exit status is 2.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+import warnings
+
+from .errors import FemodesError
+
+__all__ = ["main"]
+
+EXIT_USAGE = 2
+
+
+class _UsageError(Exception):
+    pass
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse, but usage errors come back as one line, like every other error."""
+
+    def error(self, message):
+        raise _UsageError(f"{message} (see '{self.prog} --help')")
+
+
+def _parser():
+    from . import __version__
+    from .case import FORMATS
+
+    p = _Parser(prog="femodes", description="Cutoffs and mode labels of hollow metal waveguides "
+                "(finite elements), from a TOML case file.",
+                epilog="Run 'femodes shapes' for the shapes and keys of [guide].  Errors are printed as "
+                "one line and exit with status 2.")
+    p.add_argument("--version", action="version", version=f"femodes {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    s = sub.add_parser("solve", help="solve a case file and print its modes",
+                       description="Solve the guide described by a TOML case file and print a table of "
+                       "its modes (GHz, mm).  Options override the case file.")
+    s.add_argument("case", metavar="CASE.toml", help="the case file")
+    s.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
+    s.add_argument("--csv", metavar="PATH", help="also write the modes to a CSV file (SI units)")
+    s.add_argument("--figures", metavar="DIR", help="write figures into DIR (turns figures on; overrides "
+                   "[output] directory)")
+    s.add_argument("--no-figures", action="store_true", help="write no figures, whatever the case file asks")
+    s.add_argument("--format", choices=FORMATS, help="figure file format (overrides [output] format)")
+    s.add_argument("--modes", metavar="N", help="number of modes (overrides [solve] modes)")
+    s.add_argument("--accuracy", metavar="X", help="relative accuracy of the cutoffs, e.g. 1e-6 "
+                   "(overrides [solve] accuracy)")
+    sub.add_parser("shapes", help="list the shapes a case file can use and their keys",
+                   description="List the shapes of the [guide] table and the keys each one takes.")
+    return p
+
+
+def main(argv=None) -> int:
+    """Run the program with ``argv`` (default: sys.argv[1:]); returns the exit status."""
+    if hasattr(sys.stdout, "reconfigure"):
+        try:
+            sys.stdout.reconfigure(errors="replace")
+        except (ValueError, OSError):  # a stream that cannot be reconfigured
+            pass
+    parser = _parser()
+    try:
+        args = parser.parse_args(argv)
+    except _UsageError as exc:
+        return _fail(str(exc))
+    except SystemExit as exc:  # --help, --version
+        return int(exc.code or 0)
+    try:
+        if args.command == "solve":
+            return _solve(args)
+        if args.command == "shapes":
+            from .case import shapes_help
+
+            print(shapes_help())
+            return 0
+        return _fail("choose a command: solve or shapes (see 'femodes --help')")
+    except FemodesError as exc:
+        return _fail(str(exc))
+    except KeyboardInterrupt:
+        print("femodes: interrupted", file=sys.stderr)
+        return 130
+
+
+def _fail(message):
+    print(f"femodes: error: {message}", file=sys.stderr)
+    return EXIT_USAGE
+
+
+def _solve(args):
+    from .case import load_case, run_case
+    from .export import check_figures, modes_document, modes_table, write_csv, write_figures
+
+    case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
+                                             fmt=args.format, no_figures=args.no_figures)
+    if case.output.figures:
+        os.environ.setdefault("MPLBACKEND", "Agg")
+        check_figures(case.output)  # fail before a long solve, not after it
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        modeset = run_case(case)
+    for w in caught:
+        if issubclass(w.category, (RuntimeWarning, UserWarning)):
+            msg = str(w.message)
+            print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
+                  file=sys.stderr)
+    csv_path = write_csv(modeset, args.csv) if args.csv else None
+    figures = write_figures(modeset, case.output)
+    if args.json:
+        doc = modes_document(modeset, title=case.title)
+        doc["files"] = {"csv": csv_path, "figures": figures}
+        print(json.dumps(doc, indent=2, allow_nan=False))
+        return 0
+    sys.stdout.write(modes_table(modeset, title=case.title, family=case.solve.get("family")))
+    if csv_path:
+        print(f"wrote {csv_path}")
+    for p in figures:
+        print(f"wrote {p}")
+    return 0
