@@ -177,14 +177,14 @@ def _build_geometry(gmsh, section: Section):
     geo.synchronize()
 
 
-def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: float):
+def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: float, radius=None):
     """Install the element-size field as gmsh fields (evaluated in C++, so meshing stays fast).
 
     Re-entrant corner of exponent lambda: h = h_max (r / L)^e with e = 1 - grading lambda / (p + 1),
     r the distance to the corner and L the section size (floored at 1e-7 L).
     """
     fld = gmsh.model.mesh.field
-    L = section.size
+    L = section.size if radius is None else min(float(radius), section.size)
     ids = []
     pts = {}
     for tag in (t for _, t in gmsh.model.getEntities(0)):
@@ -258,7 +258,7 @@ def _gmsh_arc_curves(gmsh, section):
 
 
 def mesh_section(section: Section, h_max: float, order: int = 3, grading: float = 1.0,
-                 curved: bool = True, graded: bool = True) -> Mesh:
+                 curved: bool = True, graded: bool = True, grading_radius=None) -> Mesh:
     """Mesh ``section`` with maximum element size ``h_max`` (m), graded for elements of ``order``.
 
     Returns a :class:`Mesh`; with ``curved`` (default) edges on arcs carry their true mid-points.
@@ -285,7 +285,7 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
         gmsh.option.setNumber("Mesh.MeshSizeMax", float(h_max))
         gmsh.option.setNumber("Mesh.MeshSizeMin", 0.0)
         if graded:
-            _size_fields(gmsh, section, h_max, order, grading)
+            _size_fields(gmsh, section, h_max, order, grading, grading_radius)
         gmsh.model.mesh.generate(2)
         if curved:
             gmsh.model.mesh.setOrder(2)
@@ -429,4 +429,8 @@ def write_mesh(mesh: Mesh, path, point_data=None):
         xyz = np.vstack([pts, np.zeros(pts.shape[1])]).T
     fmt = "gmsh22" if str(path).lower().endswith(".msh") else None  # .msh: gmsh, not ANSYS
     kw = {"file_format": fmt, "binary": False} if fmt else {}
-    meshio.write(str(path), meshio.Mesh(xyz, cells, point_data=point_data or {}), **kw)
+    cell_data = {}
+    if fmt:  # gmsh wants physical and geometrical tags: one surface, tag 1
+        n = len(cells[0][1])
+        cell_data = {"gmsh:physical": [np.ones(n, dtype=int)], "gmsh:geometrical": [np.ones(n, dtype=int)]}
+    meshio.write(str(path), meshio.Mesh(xyz, cells, point_data=point_data or {}, cell_data=cell_data), **kw)
