@@ -140,7 +140,7 @@ def modes_table(modeset, title=None, family=None) -> str:
             str(m.index + 1), m.label, m.family, format_ghz(m.fc, m.fc_error), _err_text(m.fc_error),
             _significant(wl * 1e3, sig) if math.isfinite(wl) else "-",
             _significant(m.kc, sig) if m.kc > 0 else "0",
-            " ".join(f"#{i + 1}" for i in m.degenerate_with) or "-",
+            _degenerate_text(m),
             _symmetry_text(m.symmetry),
         ])
     widths = [max(len(r[j]) for r in rows + [head]) for j in range(len(head))]
@@ -163,8 +163,19 @@ def modes_table(modeset, title=None, family=None) -> str:
         if ratio is None:
             lines.append(f"single-mode band{only}: {text} (TEM only below the first higher-order cutoff)")
         else:
-            lines.append(f"single-mode band{only}: {text} (ratio {ratio:.3f}:1, {m1.label} alone)")
+            who = (f"only the degenerate {m1.label} pair" if (m1.degenerate_with or m1.multiplicity > 1)
+                   else f"{m1.label} alone")
+            lines.append(f"single-mode band{only}: {text} (ratio {ratio:.3f}:1, {who})")
     return "\n".join(lines) + "\n"
+
+
+def _degenerate_text(m):
+    """'#2 #3', plus how many partners lie beyond the modes listed ('+1 not listed')."""
+    text = " ".join(f"#{i + 1}" for i in m.degenerate_with)
+    extra = m.multiplicity - 1 - len(m.degenerate_with)
+    if extra > 0:
+        text = (text + " " if text else "") + f"+{extra} not listed"
+    return text or "-"
 
 
 # ----------------------------------------------------------------------------- JSON
@@ -200,6 +211,7 @@ def modes_document(modeset, title=None) -> dict:
             "fc_error": _finite(m.fc_error),
             "cutoff_wavelength": _finite(m.cutoff_wavelength),
             "degenerate_with": [int(i) for i in m.degenerate_with],
+            "multiplicity": int(m.multiplicity),
             "symmetry": dict(m.symmetry),
             "nodal_domains": None if m.nodal_domains is None else int(m.nodal_domains),
             "indices": None if m.indices is None else [int(i) for i in m.indices],

@@ -200,8 +200,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
                     vectors[i] = Y[:, k]
     modes = []
     for phi, energy in tem:
-        fld = ModeField(disc.basis, phi, "TEM", 0.0)
-        fld.__dict__["_tem_scale"] = 1.0 / math.sqrt(energy)
+        fld = ModeField(disc.basis, phi, "TEM", 0.0, 1.0 / math.sqrt(energy))
         modes.append(dict(family="TEM", lam=0.0, err=0.0, field=fld, res=0.0, vec=phi))
     for i, r in enumerate(rows):
         x = vectors[i]
@@ -210,7 +209,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
         j = int(np.argmax(np.abs(x)))
         x = x if x[j] > 0 else -x
         modes.append(dict(family=r[2], lam=r[0], err=r[1], res=r[4], vec=x,
-                          field=ModeField(disc.basis, x, r[2], math.sqrt(r[0]))))
+                          field=ModeField(disc.basis, x, r[2], math.sqrt(r[0]), 1.0 / math.sqrt(r[0]))))
     modes = modes[:n_modes]
     # identities
     ordinals = {}
@@ -267,16 +266,19 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
                         eps_r=eps_r, mu_r=mu_r, label=label, index=k, ordinal=ordinals[fam],
                         indices=info["indices"], symmetry=info["symmetry"],
                         nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"]))
-    # degeneracy links (TEM modes form one group at kc = 0)
+    # degeneracy links (TEM modes form one group at kc = 0); multiplicity also counts group
+    # members computed beyond the number of modes asked for
     tem_idx = tuple(i for i, m in enumerate(out) if m.family == "TEM")
     final = []
     for k, m in enumerate(out):
         if m.family == "TEM":
             others = tuple(i for i in tem_idx if i != k)
+            mult = len(tem_idx)
         else:
             g = group_of[k]
             others = tuple(i for i in range(len(out)) if i != k and group_of.get(i) == g)
-        final.append(replace(m, degenerate_with=others))
+            mult = len(groups[g])
+        final.append(replace(m, degenerate_with=others, multiplicity=mult))
     for k, m in enumerate(final):
         same = [i for i in m.degenerate_with if final[i].family == m.family]
         if len(same) == 1:

@@ -37,6 +37,7 @@ class ModeField:
     coeffs: np.ndarray
     kind: str  # 'TE', 'TM' or 'TEM'
     kc: float
+    scale: float = 1.0  # grad psi -> e_t factor: 1 / kc for TE and TM, 1 / sqrt(int |grad psi|^2) for TEM
 
     def sample(self, subdivisions=3):
         """Values on a refined plotting triangulation.
@@ -44,8 +45,6 @@ class ModeField:
         Returns (x, y, triangles, psi, grad_x, grad_y): points are mapped reference points of every
         element (so curved edges are followed), triangles index into them.
         """
-        from skfem.quadrature import get_quadrature  # noqa: F401 (imported for side effects)
-
         n = int(subdivisions)
         ij = [(i, j) for j in range(n + 1) for i in range(n + 1 - j)]
         ref = np.array([[i / n, j / n] for i, j in ij]).T
@@ -202,6 +201,7 @@ class Mode:
     symmetry  : parity of psi under x -> -x and y -> -y about the section's own axes,
                 e.g. {'x': 'odd', 'y': 'even'}; empty if the section has no such symmetry
     degenerate_with : indices of the other modes with the same cutoff (within the error estimate)
+    multiplicity : how many modes share this cutoff, counting partners beyond the ``modes`` asked
     potential : the finite-element potential psi (:class:`ModeField`)
     partner   : for a two-fold degenerate pair of the same family (a circle's TE11, a square's
                 TE10/TE01), the other member; else None
@@ -219,6 +219,7 @@ class Mode:
     symmetry: dict = _dcfield(default_factory=dict)
     nodal_domains: int | None = None
     degenerate_with: tuple = ()
+    multiplicity: int = 1
     residual: float = 0.0
     potential: ModeField | None = _dcfield(default=None, repr=False)
     partner: "Mode | None" = _dcfield(default=None, repr=False)
@@ -317,10 +318,8 @@ class Mode:
 
 
 def transverse_scale(family, kc, field):
-    """Factor turning grad psi into e_t with int |e_t|^2 = 1."""
-    if family == "TEM":
-        return field.__dict__.get("_tem_scale", 1.0)
-    return 1.0 / kc
+    """Factor turning grad psi into e_t with int |e_t|^2 = 1 (the ModeField's ``scale``)."""
+    return field.scale
 
 
 def _transverse(family, kc, field, gx, gy):

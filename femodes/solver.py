@@ -265,6 +265,13 @@ def _merge(fine, coarse, p, want, same_mesh=False):
             top = fine[f][0][-1]
             if keep[-1][0] > top * (1 - 1e-9) and len([r for r in keep if r[2] == f]) == len(fine[f][0]):
                 raise RuntimeError("internal: not enough eigenpairs computed for family " + f)
+    # carry on past the count through a degenerate group the count cuts, so that the kept member
+    # is symmetry-adapted with its partner (the extra rows are dropped after labelling)
+    k = len(keep)
+    while keep and k < len(rows) and abs(rows[k][0] - keep[-1][0]) <= \
+            2 * SAFETY * (rows[k][1] + keep[-1][1]) + 1e-10 * rows[k][0]:
+        keep.append(rows[k])
+        k += 1
     return keep
 
 
