@@ -287,6 +287,7 @@ def _grid(xmin, xmax, ymin, ymax, density):
             axes.append((np.array([lo + 0.5 * ext]), d))
             continue
         n = max(2, int(round((ext - 1.2 * d) / d)) + 1)
+        n += 1 - n % 2      # an odd count puts a row on the centre line (centred ridge gaps, septa)
         step = (ext - 1.2 * d) / (n - 1)
         axes.append((lo + 0.6 * d + step * np.arange(n), step))
     (xs, sx), (ys, sy) = axes
@@ -350,8 +351,10 @@ def _draw_panel(ax, data, comp, outer, holes, *, arrows, lines, density, cmap, v
         if arrows:
             A = np.hypot(U.filled(0.0), V.filled(0.0))
             L = 0.75 * d
-            keep = inside & (A > 0.15)
-            length = L * np.minimum(A, 1.0)                         # clip lengths where the colours clip
+            keep = inside & (A > 0.02)
+            # length grows like sqrt(|E|): weak-field regions still show their direction, and the
+            # colour map carries the magnitude; lengths clip where the colours clip
+            length = L * np.sqrt(np.minimum(A, 1.0))
             # an arrow whose tip would come closer than a tenth of a cell to a wall is shortened to
             # fit (narrow gaps keep their arrows), or left out if it would lose over half its length
             room = np.full(A.shape, np.inf)
@@ -413,7 +416,7 @@ def field_pattern(mode, path=None, *, show="E", section=None, mesh=None, modeset
 
     arrows : direction arrows on a regular grid (about ``density`` along the larger extent),
              length proportional to the local magnitude (the longest 0.75 cell), weak-field
-             arrows (< 15 % of the colour scale) left out; an arrow whose tip would come within
+             arrows (< 2 % of the colour scale) left out, lengths grow like sqrt(|E|); an arrow whose tip would come within
              a tenth of a cell of a wall is shortened to fit (so narrow gaps keep theirs) or
              left out if it would lose more than half its length.  Values come from the
              plotting triangulation by linear interpolation.
@@ -668,7 +671,8 @@ def mode_chart(modeset, path=None, *, f_max=None, dpi=200):
     fill = "" if eps_r == 1.0 and mu_r == 1.0 else f", filled eps_r = {eps_r:g}, mu_r = {mu_r:g}"
     title = f"Cutoff frequencies: {name}{fill}"
     if len(title) > 80:
-        title = f"Cutoff frequencies\n{name}{fill}"
+        import textwrap
+        title = "Cutoff frequencies\n" + "\n".join(textwrap.wrap(f"{name}{fill}", 72))
     ax.set_title(title, fontsize=10.5)
     families = []
     for g in shown:
