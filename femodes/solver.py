@@ -290,15 +290,12 @@ def _rate(fine, p):
     return 2 * p if not mesh.is_curved else min(2 * p, p + 1)
 
 
-def _tem_modes(fine, section):
-    """Electrostatic TEM potentials: 1 V on inner conductor i, 0 on all other conductors."""
-    from scipy.sparse.csgraph import connected_components
+def _conductors(mesh):
+    """Boundary facets grouped by conductor (connected boundary pieces), outer wall first
+    (the piece of largest extent)."""
     from scipy.sparse import coo_matrix
-    from scipy.sparse.linalg import spsolve
+    from scipy.sparse.csgraph import connected_components
 
-    disc = fine["disc"]
-    basis = disc.basis
-    mesh = basis.mesh
     bf = mesh.boundary_facets()
     fv = mesh.facets[:, bf]
     nv = mesh.t.max() + 1
@@ -306,20 +303,31 @@ def _tem_modes(fine, section):
     _, lab = connected_components(g, directed=False)
     comp = lab[fv[0]]
     groups = [bf[comp == c] for c in np.unique(comp)]
-    # the outer wall is the component with the largest extent
     ext = [np.ptp(mesh.doflocs[:, mesh.facets[:, gr].ravel()], axis=1).max() for gr in groups]
-    order = np.argsort(ext)[::-1]
-    groups = [groups[i] for i in order]
+    return [groups[i] for i in np.argsort(ext)[::-1]]
+
+
+def _tem_modes(fine, section):
+    """Electrostatic TEM potentials: 1 V on inner conductor i, 0 on all other conductors.
+
+    Returns (phi, int |grad phi|^2 dA) per inner conductor; e_t = -grad phi / sqrt(energy).
+    """
+    from scipy.sparse.linalg import spsolve
+
+    disc = fine["disc"]
+    basis = disc.basis
+    groups = _conductors(basis.mesh)
     cond_dofs = [np.unique(basis.get_dofs(facets=gr).flatten()) for gr in groups]
     boundary = disc.boundary
     interior = disc.interior()
     K = disc.K
+    K_ii = K[interior][:, interior].tocsc()
+    K_ib = K[interior][:, boundary]
     out = []
     for i in range(1, len(groups)):
         phi = np.zeros(disc.n_dofs)
         phi[cond_dofs[i]] = 1.0
-        rhs = -(K[interior][:, boundary] @ phi[boundary])
-        phi[interior] = spsolve(K[interior][:, interior].tocsc(), rhs)
+        phi[interior] = spsolve(K_ii, -(K_ib @ phi[boundary]))
         energy = float(phi @ (K @ phi))  # int |grad phi|^2 = C / eps
         out.append((phi, energy))
     return out
@@ -354,12 +362,4 @@ def _areas(mesh):
 
 
 def _count_conductors(fine):
-    from scipy.sparse import coo_matrix
-    from scipy.sparse.csgraph import connected_components
-
-    mesh = fine["disc"].basis.mesh
-    fv = mesh.facets[:, mesh.boundary_facets()]
-    nv = mesh.t.max() + 1
-    g = coo_matrix((np.ones(fv.shape[1]), (fv[0], fv[1])), shape=(nv, nv))
-    _, lab = connected_components(g, directed=False)
-    return len(np.unique(lab[fv[0]]))
+    return len(_conductors(fine["disc"].basis.mesh))

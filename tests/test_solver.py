@@ -286,3 +286,30 @@ def test_bad_requests_say_what_to_fix(kwargs, words):
 def test_read_mesh_missing_file():
     with pytest.raises(FemodesError, match="not found"):
         fm.read_mesh("/nonexistent/guide.msh")
+
+
+def test_labels_take_a_comma_past_nine():
+    # a 20 x 1 guide: TE_m0 for m = 1..10 lie below TE01 (kc = m pi / 20 < pi); Pozar sec. 3.3
+    modes = fm.solve(fm.rectangle(20.0, 1.0), modes=10, accuracy=1e-5)
+    assert [m.label for m in modes] == [f"TE{m}0" for m in range(1, 10)] + ["TE10,0"]
+    assert modes[-1].indices == (10, 0)
+
+
+def test_builtin_l_shape_matches_the_benchmark():
+    # l_shape(2, 2, 1, 1) is the benchmark region of three unit squares (moved): same spectrum;
+    # first Dirichlet eigenvalue 9.6397238440219 (Fox, Henrici & Moler 1967)
+    m = fm.solve(fm.l_shape(2.0, 2.0, 1.0, 1.0), modes=1, family="TM", accuracy=1e-8)[0]
+    assert m.kc ** 2 == pytest.approx(9.6397238440219, rel=2e-8)
+
+
+def test_rectangular_coax_has_one_tem_mode_and_symmetry():
+    modes = fm.solve(fm.rectangular_coax(20e-3, 10e-3, 6e-3, 2e-3), modes=3)
+    assert [m.family for m in modes].count("TEM") == 1
+    assert modes[0].label == "TEM" and modes[0].kc == 0.0
+    assert modes[1].family == "TE" and set(modes[1].symmetry) == {"x", "y"}
+
+
+def test_pair_cut_by_the_mode_count_still_knows_it_is_a_pair():
+    modes = fm.solve(fm.circle(1.0), modes=1)
+    assert modes[0].label == "TE11" and modes[0].multiplicity == 2
+    assert modes[0].symmetry in ({"x": "odd", "y": "even"}, {"x": "even", "y": "odd"})
