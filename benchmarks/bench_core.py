@@ -142,7 +142,7 @@ def main(argv=None):
     if args.big:
         print()
         print("3. about a million unknowns (target: within 24 GB)")
-        (ms, t) = timed(fm.solve, wr90, modes=10, mesh_size=0.0000355, order=4)
+        (ms, t) = timed(fm.solve, wr90, modes=10, mesh_size=6.5e-5, order=4)
         rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024 ** 2  # kB -> GB on Linux
         print(f"  WR-90, {ms.n_dofs} unknowns (fine mesh): {t:.1f} s, peak resident memory {rss:.2f} GB")
     return 0
