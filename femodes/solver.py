@@ -112,7 +112,9 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
         if not h > 0:
             raise FemodesError(f"mesh_size must be positive (m), got {mesh_size!r}")
     shifts = {"TM": 0.9 * math.pi * _J01 ** 2 / A, "TE": -0.1 * math.pi * _J01 ** 2 / A}
-    counts = {f: want + 1 for f in fams}
+    # at most half of the lowest modes are TM: the k-th Dirichlet eigenvalue lies above the first
+    # k + 1 Neumann ones (Friedlander, Arch. Rational Mech. Anal. 116, 1991)
+    counts = {f: (want // 2 + 1 if (f == "TM" and family is None) else want + 1) for f in fams}
     # corner grading reaches out to about 3 / kc: beyond that the smooth part of the field, not the
     # corner singularity, sets the error (kept fixed through the refinement, so Richardson holds)
     radius = min(section.size, GRADING_REACH / kc_max)
@@ -126,8 +128,23 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
         else:
             h_coarse = 1.5 * h
         coarse = _discrete_solve(section, h_coarse, p, fams, counts, shifts, radius)
+        short = _short_families(coarse, want)
+        while short:  # rare: a family had all its computed modes among the wanted ones
+            counts = {f: c + (max(3, c // 2) if f in short else 0) for f, c in counts.items()}
+            coarse = _discrete_solve(section, h_coarse, p, fams, counts, shifts, radius)
+            short = _short_families(coarse, want)
+        if family is None and want:
+            # ask each family for what the coarse solve found of it among the wanted, plus margin
+            seen = _families_of_lowest(coarse, want)
+            counts = {f: min(c, seen.get(f, 0) + 2) for f, c in counts.items()}
         fine = _discrete_solve(section, h, p, fams, counts, shifts, radius)
         for it in range(max_iterations):
+            short = _short_families(fine, want)
+            if short:
+                counts = {f: c + (3 if f in short else 0) for f, c in counts.items()}
+                coarse = _discrete_solve(section, coarse["h"], p, fams, counts, shifts, radius)
+                fine = _discrete_solve(section, h, p, fams, counts, shifts, radius)
+                continue
             merged = _merge(fine, coarse, p, want)
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
             trusted = (fine["n_dofs"] >= _MIN_DOF_RATIO * coarse["n_dofs"]
@@ -266,13 +283,7 @@ def _merge(fine, coarse, p, want, same_mesh=False):
         rel = np.array([r[1] for r in rows]) / lam
         trend = np.array([np.max(rel[j:] * (lam[j] / lam[j:]) ** (rate / 2)) for j in range(len(rows))])
         rows = [(r[0], float(max(r[1], t * r[0])), *r[2:]) for r, t in zip(rows, trend)]
-    # completeness: the last kept mode must lie below the largest computed value of each family
     keep = rows[:want]
-    for f in ("TE", "TM"):
-        if f in fine and keep:
-            top = fine[f][0][-1]
-            if keep[-1][0] > top * (1 - 1e-9) and len([r for r in keep if r[2] == f]) == len(fine[f][0]):
-                raise RuntimeError("internal: not enough eigenpairs computed for family " + f)
     # carry on past the count through a degenerate group the count cuts, so that the kept member
     # is symmetry-adapted with its partner (the extra rows are dropped after labelling)
     k = len(keep)
@@ -281,6 +292,23 @@ def _merge(fine, coarse, p, want, same_mesh=False):
         keep.append(rows[k])
         k += 1
     return keep
+
+
+def _families_of_lowest(result, want):
+    """How many of the ``want`` lowest computed modes belong to each family."""
+    vals = sorted((lam, f) for f in ("TE", "TM") if f in result for lam in result[f][0])
+    out = {}
+    for _, f in vals[:want]:
+        out[f] = out.get(f, 0) + 1
+    return out
+
+
+def _short_families(result, want):
+    """Families whose computed modes all fall among the ``want`` lowest: a mode of that family
+    just above them could still be lower than the last wanted one, so more must be computed."""
+    seen = _families_of_lowest(result, want)
+    return {f for f in ("TE", "TM") if f in result and seen.get(f, 0) >= len(result[f][0])
+            and len(result[f][0]) < result["disc"].n_dofs // 4}
 
 
 def _rate(fine, p):
