@@ -130,8 +130,8 @@ def modes_table(modeset, title=None, family=None) -> str:
     lines.append("")
 
     head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
-            "degenerate with", "symmetry"]
-    right = {0, 3, 4, 5, 6}
+            "degenerate with", "symmetry", "nodal regions"]
+    right = {0, 3, 4, 5, 6, 9}
     rows = []
     for m in modeset:
         sig = _sig_digits(m.fc, m.fc_error)
@@ -142,6 +142,7 @@ def modes_table(modeset, title=None, family=None) -> str:
             _significant(m.kc, sig) if m.kc > 0 else "0",
             _degenerate_text(m),
             _symmetry_text(m.symmetry),
+            "-" if m.nodal_domains is None else str(m.nodal_domains),
         ])
     widths = [max(len(r[j]) for r in rows + [head]) for j in range(len(head))]
 
