@@ -266,25 +266,28 @@ class Mode:
         return out if np.any(out.imag != 0) else out.real
 
     def propagates(self, f):
+        """True where the frequency f (Hz) is above cutoff."""
         return np.asarray(self._k(f)) > self.kc
+
+    def _beta_real(self, f):
+        """beta where the mode propagates, 0 at or below cutoff (array)."""
+        k = np.asarray(self._k(f), dtype=float)
+        return np.sqrt(np.maximum(k * k - self.kc ** 2, 0.0))
 
     def guide_wavelength(self, f):
         """Guide wavelength 2 pi / beta (m); inf at or below cutoff."""
-        b = np.real(self.beta(f)) if np.all(self.propagates(f)) else np.where(self.propagates(f),
-                                                                               np.real(self.beta(f)), 0.0)
+        b = self._beta_real(f)
         with np.errstate(divide="ignore"):
-            return np.where(b > 0, 2 * np.pi / np.maximum(b, 1e-300), np.inf)[()]
+            return np.where(b > 0, 2 * np.pi / np.where(b > 0, b, 1.0), np.inf)[()]
 
     def phase_velocity(self, f):
         """omega / beta (m/s); inf at or below cutoff."""
-        return (2 * np.pi * np.asarray(f, float) * self.guide_wavelength(f) / (2 * np.pi))[()]
+        return (np.asarray(f, float) * self.guide_wavelength(f))[()]
 
     def group_velocity(self, f):
         """d omega / d beta = (c^2 / (eps_r mu_r)) beta / omega (m/s); 0 at or below cutoff."""
         v = C0 / math.sqrt(self.eps_r * self.mu_r)
-        f = np.asarray(f, float)
-        b = np.where(self.propagates(f), np.real(self.beta(f)), 0.0)
-        return (v * v * b / (2 * np.pi * f))[()]
+        return (v * v * self._beta_real(f) / (2 * np.pi * np.asarray(f, float)))[()]
 
     def wave_impedance(self, f):
         """Transverse wave impedance E_t / H_t (ohm): TE omega mu / beta, TM beta / (omega eps),
