@@ -5,7 +5,8 @@
   x -> -x and y -> -y (about the section's own axes) where the section has those symmetries, then
   of the x-gradient energy int (d psi / dx)^2 dA.  A circle's TE11 pair thus comes out as the two
   orthogonal polarisations, a square's TE10/TE01 as the two pure modes.
-* Rectangles: TE_mn / TM_mn with m half-wavelengths along the width (x) and n along the height,
+* Rectangles (sharp or with rounded corners): TE_mn / TM_mn with m half-wavelengths along the
+  width (x) and n along the height,
   read off the field: (m pi / a)^2 = kc^2 int (d psi/dx)^2 / int |grad psi|^2.
 * Circles and centred coax: TE_nm / TM_nm with n the dominant azimuthal harmonic of psi and m the
   ordinal among modes of the same family and n (a degenerate pair counts once).
@@ -236,7 +237,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
             info["symmetry"] = an.parity(x)
             info["nodal_domains"] = an.nodal_domains(x)
             label = None
-            if kind == "rectangle":
+            if kind in ("rectangle", "rounded_rectangle"):
                 a, b = params["width"], params["height"]
                 ex = float(an.x_energy(x[:, None])[0, 0]) / m["lam"]
                 mm = round(math.sqrt(max(ex, 0.0) * m["lam"]) * a / math.pi)
