@@ -40,6 +40,8 @@ class Mesh:
     curved_midpoints : (2, k) the true mid-point of those edges
     curves    : (q, 5) the exact curves (cx, cy, rx, ry, rotation) of the section's arcs
     edge_curve: (k,) which curve each curved edge lies on (-1: unknown, e.g. a mesh file)
+    regions   : (m,) material region of each triangle: 0 the background fill, i the i-th of the
+                section's materials (empty for a homogeneous section)
     """
 
     points: np.ndarray
@@ -48,6 +50,7 @@ class Mesh:
     curved_midpoints: np.ndarray
     curves: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))
     edge_curve: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    regions: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
 
     @property
     def n_triangles(self):
@@ -177,6 +180,46 @@ def _build_geometry(gmsh, section: Section):
     geo.synchronize()
 
 
+def _build_geometry_occ(gmsh, section: Section):
+    """Guide and material regions in OpenCASCADE, fragmented so the mesh conforms to every
+    material interface; region parts outside the guide are removed."""
+    occ = gmsh.model.occ
+
+    def loop_tag(loop):
+        segs = []
+        for s in loop.segments:
+            segs.extend(s.split(math.pi / 2) if isinstance(s, Arc) else [s])
+        pts = [occ.addPoint(s.start[0], s.start[1], 0.0) for s in segs]
+        curves = []
+        for i, s in enumerate(segs):
+            a, b = pts[i], pts[(i + 1) % len(segs)]
+            if isinstance(s, Line):
+                curves.append(occ.addLine(a, b))
+            else:
+                c = occ.addPoint(s.center[0], s.center[1], 0.0)
+                if s.is_circular:
+                    curves.append(occ.addCircleArc(a, c, b))
+                else:
+                    cr, sr = math.cos(s.rotation), math.sin(s.rotation)
+                    if s.rx >= s.ry:
+                        mx, my = s.center[0] + cr * s.rx, s.center[1] + sr * s.rx
+                    else:
+                        mx, my = s.center[0] - sr * s.ry, s.center[1] + cr * s.ry
+                    curves.append(occ.addEllipseArc(a, c, occ.addPoint(mx, my, 0.0), b))
+        return occ.addCurveLoop(curves)
+
+    guide = occ.addPlaneSurface([loop_tag(section.outer)] + [loop_tag(h) for h in section.holes])
+    regions = [occ.addPlaneSurface([loop_tag(m.region)] + [loop_tag(h) for h in m.holes])
+               for m in section.materials]
+    _, pieces = occ.fragment([(2, guide)], [(2, r) for r in regions])
+    keep = set(pieces[0])  # the pieces the guide was cut into
+    drop = [dt for dt in occ.getEntities(2) if dt not in keep]
+    if drop:
+        occ.remove(drop, recursive=True)
+    occ.removeAllDuplicates()
+    occ.synchronize()
+
+
 def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: float, radius=None):
     """Install the element-size field as gmsh fields (evaluated in C++, so meshing stays fast).
 
@@ -192,7 +235,20 @@ def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: floa
         x, y, _ = gmsh.model.getValue(0, tag, [])
         pts[(round(x / L0, 9), round(y / L0, 9))] = tag
     by_exponent = {}  # corners of one angle share one Distance field (fewer fields: faster meshing)
-    for c in section.reentrant_corners():
+    # corners of material regions: the field is singular there too; graded like a 270-degree
+    # conducting corner (exponent 2/3), a conservative choice for any contrast
+    from .section import Corner
+    # A right-angled region corner standing on a straight wall is regular (its image in the wall
+    # is a straight interface) and is not graded.
+    from .section import _point_edge_distances
+    walls = np.hstack([l.polyline(64, line_pieces=1) for l in section.loops])
+    material_corners = []
+    for l in _material_loops(section):
+        for c in l.corners():
+            on_wall = _point_edge_distances(np.array([[c.point[0]], [c.point[1]]]), walls)[0] < 1e-9 * L0
+            if not (on_wall and abs(c.angle - 0.5 * math.pi) < 1e-6):
+                material_corners.append(Corner(c.point, 1.5 * math.pi))
+    for c in section.reentrant_corners() + material_corners:
         tag = pts.get((round(c.point[0] / L0, 9), round(c.point[1] / L0, 9)))
         if tag is not None:
             by_exponent.setdefault(round(1.0 - grading * c.exponent / (order + 1), 12), []).append(tag)
@@ -244,7 +300,7 @@ def _gmsh_arc_curves(gmsh, section):
         lo, hi = gmsh.model.getParametrizationBounds(1, t)
         x, y, _ = gmsh.model.getValue(1, t, [0.5 * (lo[0] + hi[0])])
         mids[t] = (x, y)
-    for loop in section.loops:
+    for loop in list(section.loops) + _material_loops(section):
         for s in loop.segments:
             if not isinstance(s, Arc):
                 continue
@@ -278,7 +334,10 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
         gmsh.option.setNumber("General.Verbosity", 1)
         gmsh.option.setNumber("General.NumThreads", 1)
         gmsh.model.add("femodes")
-        _build_geometry(gmsh, section)
+        if section.materials:
+            _build_geometry_occ(gmsh, section)
+        else:
+            _build_geometry(gmsh, section)
         gmsh.option.setNumber("Mesh.MeshSizeExtendFromBoundary", 0)
         gmsh.option.setNumber("Mesh.MeshSizeFromPoints", 0)
         gmsh.option.setNumber("Mesh.MeshSizeFromCurvature", 0)
@@ -297,13 +356,30 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
         gmsh.model.remove()
         if initialized_here:
             gmsh.finalize()
-    return _attach_curves(mesh, section)
+    mesh = _attach_curves(mesh, section)
+    if section.materials:
+        mesh = replace(mesh, regions=_triangle_regions(mesh, section))
+    return mesh
+
+
+def _material_loops(section):
+    return [l for m in section.materials for l in (m.region,) + tuple(m.holes)]
+
+
+def _triangle_regions(mesh: Mesh, section: Section) -> np.ndarray:
+    """Material index of each triangle from its centroid (the mesh conforms to the interfaces,
+    so each triangle lies in one region); the last region containing it wins."""
+    c = mesh.points[:, mesh.triangles].mean(axis=1)
+    out = np.zeros(mesh.n_triangles, dtype=np.int64)
+    for i, mat in enumerate(section.materials, start=1):
+        out[mat.contains(c[0], c[1])] = i
+    return out
 
 
 def _attach_curves(mesh: Mesh, section: Section) -> Mesh:
     """Record on which of the section's arcs each curved edge lies (for exact high-order nodes)."""
     curves = []
-    for loop in section.loops:
+    for loop in list(section.loops) + _material_loops(section):
         for s in loop.segments:
             if isinstance(s, Arc):
                 key = (s.center[0], s.center[1], s.rx, s.ry, s.rotation % (2 * math.pi))

@@ -21,7 +21,7 @@ import numpy as np
 from .errors import FemodesError, check_nonnegative, check_positive
 
 __all__ = [
-    "Line", "Arc", "Loop", "Corner", "Section",
+    "Line", "Arc", "Loop", "Corner", "Section", "Material",
     "rectangle", "circle", "ellipse", "coaxial", "rectangular_coax", "ridged", "single_ridge",
     "double_ridge", "l_shape", "sector", "polygon",
 ]
@@ -388,6 +388,58 @@ def _gauss_area(seg, n=24):
 # ----------------------------------------------------------------------------- section
 
 @dataclass(frozen=True)
+class Material:
+    """A region of the cross-section filled with a material other than the background fill.
+
+    region : Loop           counter-clockwise outline of the region
+    holes  : tuple of Loop  parts of the region left out (a dielectric ring around a conductor)
+    eps_r, mu_r : relative permittivity and permeability (real, > 0)
+    """
+
+    region: Loop
+    holes: tuple = ()
+    eps_r: float = 1.0
+    mu_r: float = 1.0
+
+    def contains(self, x, y):
+        """Boolean mask of the points (arrays x, y) inside the region (outside its holes)."""
+        inside = _points_in_polygon(x, y, self.region.polyline(64))
+        for h in self.holes:
+            inside &= ~_points_in_polygon(x, y, h.polyline(64))
+        return inside
+
+    def transformed(self, kind, arg):
+        return Material(self.region.transformed(kind, arg), tuple(h.transformed(kind, arg) for h in self.holes),
+                        self.eps_r, self.mu_r)
+
+
+def _material_value(name, v):
+    try:
+        x = float(v)
+    except (TypeError, ValueError):
+        raise FemodesError(f"{name} must be a real number, got {v!r}") from None
+    if not (x > 0 and math.isfinite(x)):
+        raise FemodesError(f"{name} must be a positive finite number (relative to vacuum), got {v!r}")
+    return x
+
+
+def _points_in_polygon(x, y, poly):
+    """Vectorised even-odd test of points (x, y) against a closed polyline (2, n)."""
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    px, py = poly
+    qx, qy = np.roll(px, -1), np.roll(py, -1)
+    inside = np.zeros(np.broadcast(x, y).shape, dtype=bool)
+    for x0, y0, x1, y1 in zip(px, py, qx, qy):
+        if y0 == y1:
+            continue
+        cond = (y0 > y) != (y1 > y)
+        xc = x0 + (y - y0) * (x1 - x0) / (y1 - y0)
+        inside ^= cond & (x < xc)
+    return inside
+
+
+@dataclass(frozen=True)
 class Section:
     """A waveguide cross-section: outer PEC wall, PEC inner conductors (holes), homogeneous fill.
 
@@ -398,6 +450,8 @@ class Section:
     kind : str              'rectangle', 'circle', 'coaxial', 'polygon', ... (for mode labels)
     params : dict           shape parameters in metres/radians (for labels and reports)
     frame : (x0, y0, angle) where the shape's own centre and x axis lie after moves
+    materials : tuple of Material, in the order given (a later one wins where two overlap);
+                everywhere else the guide holds the background fill given to ``solve``
     """
 
     outer: Loop
@@ -405,6 +459,7 @@ class Section:
     kind: str = "polygon"
     params: dict = field(default_factory=dict, compare=False)
     frame: tuple = (0.0, 0.0, 0.0)
+    materials: tuple = ()
 
     def __post_init__(self):
         trusted = self.params.pop("_valid", False) if isinstance(self.params, dict) else False
@@ -489,11 +544,20 @@ class Section:
         """True if the section is unchanged by the mirror x -> -x (axis='x') or y -> -y (axis='y')."""
         other = self.mirrored(axis)
         scale = self.size
-        for a, b in zip(sorted(self.loops, key=_loop_key), sorted(other.loops, key=_loop_key)):
+        def close(a, b):
             pa, pb = a.polyline(64, line_pieces=16), b.polyline(64, line_pieces=16)
-            if max(_max_distance(pa, pb), _max_distance(pb, pa)) > 1e-7 * scale:
+            return max(_max_distance(pa, pb), _max_distance(pb, pa)) <= 1e-7 * scale
+
+        if len(self.loops) != len(other.loops) or len(self.materials) != len(other.materials):
+            return False
+        for a, b in zip(sorted(self.loops, key=_loop_key), sorted(other.loops, key=_loop_key)):
+            if not close(a, b):
                 return False
-        return len(self.loops) == len(other.loops)
+        for m in self.materials:  # every region must map onto a region of the same material
+            if not any(close(m.region, n.region) and (m.eps_r, m.mu_r) == (n.eps_r, n.mu_r)
+                       for n in other.materials):
+                return False
+        return True
 
     # -- rigid motions ---------------------------------------------------------
     def _moved(self, kind, arg):
@@ -508,7 +572,8 @@ class Section:
             ang = -ang
         # a rigid motion of a valid section is valid: skip the checks
         return Section(self.outer.transformed(kind, arg), tuple(h.transformed(kind, arg) for h in self.holes),
-                       self.kind, dict(self.params, _valid=True), (nx, ny, ang))
+                       self.kind, dict(self.params, _valid=True), (nx, ny, ang),
+                       tuple(m.transformed(kind, arg) for m in self.materials))
 
     def translated(self, dx, dy):
         """The same section moved by (dx, dy) metres."""
@@ -535,15 +600,67 @@ class Section:
         params = {k: (v * s if k not in _ANGLE_KEYS and isinstance(v, (int, float)) else v)
                   for k, v in self.params.items()}
         x0, y0, ang = self.frame
-        return Section(Loop(tuple(seg(x) for x in self.outer.segments)),
-                       tuple(Loop(tuple(seg(x) for x in h.segments)) for h in self.holes),
-                       self.kind, params, (x0 * s, y0 * s, ang))
+
+        def loop(l):
+            return Loop(tuple(seg(x) for x in l.segments))
+        mats = tuple(Material(loop(m.region), tuple(loop(h) for h in m.holes), m.eps_r, m.mu_r)
+                     for m in self.materials)
+        return Section(loop(self.outer), tuple(loop(h) for h in self.holes),
+                       self.kind, params, (x0 * s, y0 * s, ang), mats)
+
+    # -- materials -------------------------------------------------------------
+    def with_material(self, shape, eps_r=1.0, mu_r=1.0):
+        """A new section in which the part inside ``shape`` (any shape, placed with
+        ``.translated`` / ``.rotated``; its holes are left out of the region) is filled with a
+        material of relative permittivity ``eps_r`` and permeability ``mu_r``.  A later call wins
+        where two regions overlap; parts of ``shape`` outside the guide are ignored."""
+        if not isinstance(shape, Section):
+            raise FemodesError(f"with_material needs a shape (e.g. femodes.rectangle(...).translated(...)), "
+                               f"got {type(shape).__name__}")
+        eps, mu = _material_value("eps_r", eps_r), _material_value("mu_r", mu_r)
+        mat = Material(shape.outer, tuple(shape.holes), eps, mu)
+        # the region must reach into the guide: test sample points of both outlines
+        guide_pts = np.hstack([l.polyline(32, line_pieces=8) for l in self.loops])
+        reg_pts = np.hstack([mat.region.polyline(32, line_pieces=8)] + [h.polyline(32, 8) for h in mat.holes])
+        inner = 0.999 * (reg_pts - reg_pts.mean(axis=1, keepdims=True)) + reg_pts.mean(axis=1, keepdims=True)
+        hits = np.any(self.contains(inner[0], inner[1])) or np.any(mat.contains(guide_pts[0], guide_pts[1]))
+        if not hits:
+            raise FemodesError("the material region lies wholly outside the guide: move it inside "
+                               "(shapes are centred at the origin; use .translated(dx, dy))")
+        return Section(self.outer, self.holes, self.kind, dict(self.params, _valid=True), self.frame,
+                       self.materials + (mat,))
+
+    def contains(self, x, y):
+        """Boolean mask of points (arrays x, y) inside the guide (inside the wall, outside holes)."""
+        inside = _points_in_polygon(x, y, self.outer.polyline(64))
+        for h in self.holes:
+            inside &= ~_points_in_polygon(x, y, h.polyline(64))
+        return inside
+
+    def material_at(self, x, y, eps_r=1.0, mu_r=1.0):
+        """(eps_r, mu_r) arrays at points (x, y): the last material region containing each point,
+        else the background values given."""
+        x = np.asarray(x, dtype=float)
+        eps = np.full(x.shape, float(eps_r))
+        mu = np.full(x.shape, float(mu_r))
+        for m in self.materials:
+            inside = m.contains(x, y)
+            eps[inside], mu[inside] = m.eps_r, m.mu_r
+        return eps, mu
+
+    @property
+    def is_homogeneous(self):
+        return not self.materials
 
     def describe(self):
         """One line for reports, in millimetres."""
         bits = ", ".join(f"{k}={v * 1e3:.6g} mm" if k not in _ANGLE_KEYS else f"{k}={math.degrees(v):.6g} deg"
                          for k, v in self.params.items() if isinstance(v, (int, float)))
-        return f"{self.kind}({bits})" if bits else self.kind
+        text = f"{self.kind}({bits})" if bits else self.kind
+        if self.materials:
+            text += " with " + ", ".join(f"a region of eps_r = {m.eps_r:g}" + (f", mu_r = {m.mu_r:g}" if m.mu_r != 1 else "")
+                                         for m in self.materials)
+        return text
 
 
 _ANGLE_KEYS = {"angle"}

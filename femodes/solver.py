@@ -98,6 +98,10 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
         return _solve_fixed_mesh(section, n_modes, eps_r, mu_r, accuracy, family, p)
     if not isinstance(section, Section):
         raise FemodesError(f"solve() needs a section (e.g. femodes.rectangle(...)) or a mesh, got {type(section).__name__}")
+    if section.materials:
+        raise FemodesError("this section has material regions (with_material): its modes are hybrid and need "
+                           "the full-vector solver, which solve() does not reach yet; for a guide filled "
+                           "with one material give eps_r and mu_r to solve() instead")
 
     fams = ("TE", "TM") if family is None else (family,)
     n_tem = len(section.holes) if family is None else 0

@@ -63,3 +63,31 @@ def test_mesh_file_written_and_read(tmp_path):
         import meshio
         meshio.write(str(tmp_path / "l.vtu"), meshio.Mesh(np.zeros((2, 3)), [("line", np.array([[0, 1]]))]))
         fm.read_mesh(str(tmp_path / "l.vtu"))
+
+
+def test_mesh_conforms_to_material_interfaces():
+    g = fm.rectangle(22.86e-3, 10.16e-3)
+    s = g.with_material(fm.rectangle(22.86e-3, 3e-3).translated(0, -3.58e-3), eps_r=2.25)
+    m = mesh_section(s, 2e-3, order=3)
+    p = m.points[:, m.triangles]
+    y_face = -5.08e-3 + 3e-3
+    # every triangle lies on one side of the slab face (the face is made of mesh edges)
+    assert np.all(p[1][:, m.regions == 1] <= y_face + 1e-12)
+    assert np.all(p[1][:, m.regions == 0] >= y_face - 1e-12)
+    assert abs(np.sum(_sizes(p)[m.regions == 1] ** 2) / 2 - 22.86e-3 * 3e-3) < 1e-12
+
+
+def test_curved_material_interface_nodes_on_the_arc():
+    s = fm.rectangle(20e-3, 10e-3).with_material(fm.circle(2e-3).translated(3e-3, 0), eps_r=6.0)
+    m = mesh_section(s, 2e-3, order=4)
+    on = np.abs(np.hypot(m.curved_midpoints[0] - 3e-3, m.curved_midpoints[1]) - 2e-3) < 1e-12
+    assert on.sum() >= 8 and np.all(m.edge_curve[on] >= 0)
+    c = m.points[:, m.triangles].mean(axis=1)
+    inside = np.hypot(c[0] - 3e-3, c[1]) < 2e-3
+    assert np.array_equal(inside, m.regions == 1)
+
+
+def test_scalar_solve_refuses_loaded_sections():
+    s = fm.rectangle(1.0, 0.5).with_material(fm.rectangle(1.0, 0.2).translated(0, -0.15), eps_r=4)
+    with pytest.raises(fm.FemodesError, match="full-vector"):
+        fm.solve(s)

@@ -100,3 +100,29 @@ def test_polygon_with_circular_hole():
     assert s.area == pytest.approx(1 - math.pi * 0.04, rel=1e-6)
     loops = np.hstack([l.polyline(8) for l in s.loops])
     assert np.all(np.isfinite(loops))
+
+
+def test_material_regions_later_wins_and_moves_with_the_section():
+    g = fm.rectangle(22.86e-3, 10.16e-3)
+    slab = fm.rectangle(22.86e-3, 5.08e-3).translated(0, -2.54e-3)
+    s = g.with_material(slab, eps_r=2.25).with_material(fm.circle(1e-3).translated(0, -2e-3), eps_r=9.8)
+    eps, mu = s.material_at([0.0, 5e-3, 0.0], [-2e-3, -4e-3, 4e-3])
+    assert list(eps) == [9.8, 2.25, 1.0] and list(mu) == [1.0, 1.0, 1.0]
+    assert s.is_symmetric("x") and not s.is_symmetric("y")  # the slab breaks the y mirror
+    moved = s.translated(1e-3, 0)
+    assert moved.material_at([1e-3], [-2e-3])[0][0] == 9.8
+    assert s.scaled(2).material_at([0.0], [-4e-3])[0][0] == 9.8
+    assert "eps_r = 2.25" in s.describe()
+
+
+@pytest.mark.parametrize("kwargs, words", [
+    ({"eps_r": -1}, "eps_r"), ({"eps_r": "glass"}, "eps_r"), ({"mu_r": 0}, "mu_r"),
+])
+def test_bad_materials_are_refused(kwargs, words):
+    with pytest.raises(FemodesError, match=words):
+        fm.rectangle(1, 1).with_material(fm.circle(0.1), **kwargs)
+
+
+def test_material_region_outside_the_guide_is_refused():
+    with pytest.raises(FemodesError, match="outside the guide"):
+        fm.rectangle(1, 1).with_material(fm.circle(0.1).translated(3, 3), eps_r=4)
