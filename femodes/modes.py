@@ -316,6 +316,26 @@ class Mode:
             raise FemodesError("this mode carries no field data")
         return self.potential.evaluate(points)[0]
 
+    # -- engineering quantities (femodes.quantities) ----------------------------
+    def attenuation(self, f, conductivity=5.8e7, roughness=0.0, tan_delta=0.0):
+        """Attenuation (Np/m) at f (Hz): wall loss by the power-loss method (conductivity in S/m
+        or a metal name, rms roughness in m via the Hammerstad-Jensen factor) plus the loss of
+        the fill with loss tangent tan_delta.  See :func:`femodes.quantities.attenuation`."""
+        from .quantities import attenuation
+        return attenuation(self, f, conductivity, roughness, tan_delta)
+
+    def impedance(self, f, kind="PV", path=None, section=None):
+        """Characteristic impedance (ohm) at f (Hz): kind 'PV', 'PI' or 'VI'; TEM modes from the
+        electrostatic capacitance.  See :func:`femodes.quantities.impedance`."""
+        from .quantities import impedance
+        return impedance(self, f, kind, path=path, section=section)
+
+    def power_handling(self, f, breakdown_field=3e6, safety_factor=2.0, section=None):
+        """Peak field per sqrt(W) and breakdown power at f (Hz), with the cautions that must be
+        shown with them.  See :func:`femodes.quantities.power_handling`."""
+        from .quantities import power_handling
+        return power_handling(self, f, breakdown_field, safety_factor, section=section)
+
     def summary(self):
         return f"{self.label}: fc = {self.fc / 1e9:.6f} GHz (+/- {self.fc_error / 1e9:.1e})"
 
