@@ -266,7 +266,8 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
         out.append(Mode(family=fam, kc=kc, kc_error=safety * m["err"] / (2 * kc) if kc > 0 else 0.0,
                         eps_r=eps_r, mu_r=mu_r, label=label, index=k, ordinal=ordinals[fam],
                         indices=info["indices"], symmetry=info["symmetry"],
-                        nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"]))
+                        nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"],
+                        section=section))
     # degeneracy links (TEM modes form one group at kc = 0); multiplicity also counts group
     # members computed beyond the number of modes asked for
     tem_idx = tuple(i for i, m in enumerate(out) if m.family == "TEM")

@@ -167,7 +167,6 @@ def _locate(basis, pts):
         best[better] = score[better]
         cells[better] = c[better]
         ref[0, better], ref[1, better] = X[better], Y[better]
-    size = np.sqrt(np.abs(det)).max() if nt else 1.0
     cells[best < -0.25] = -1
     if type(mesh).__name__ == "MeshTri2":
         ok = np.flatnonzero(cells >= 0)
@@ -182,7 +181,6 @@ def _locate(basis, pts):
     r = ref
     in_ref = (r[0] >= -1e-9) & (r[1] >= -1e-9) & (r[0] + r[1] <= 1 + 1e-9)
     cells[~(inside | in_ref)] = -1
-    del size
     return cells, ref
 
 
@@ -203,6 +201,7 @@ class Mode:
     degenerate_with : indices of the other modes with the same cutoff (within the error estimate)
     multiplicity : how many modes share this cutoff, counting partners beyond the ``modes`` asked
     potential : the finite-element potential psi (:class:`ModeField`)
+    section   : the Section it was solved on (None for a mesh file)
     partner   : for a two-fold degenerate pair of the same family (a circle's TE11, a square's
                 TE10/TE01), the other member; else None
     """
@@ -223,6 +222,7 @@ class Mode:
     residual: float = 0.0
     potential: ModeField | None = _dcfield(default=None, repr=False)
     partner: "Mode | None" = _dcfield(default=None, repr=False)
+    section: object = _dcfield(default=None, repr=False, compare=False)
 
     # -- cutoff -------------------------------------------------------------
     @property
@@ -248,7 +248,7 @@ class Mode:
     # -- propagation at a frequency ------------------------------------------
     def _k(self, f):
         f = np.asarray(f, dtype=float)
-        if np.any(f <= 0):
+        if not np.all(f > 0) or not np.all(np.isfinite(f)):
             raise FemodesError(f"frequency must be positive (Hz), got {f!r}")
         return 2 * np.pi * f * np.sqrt(self.eps_r * self.mu_r) / C0
 

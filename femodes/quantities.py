@@ -690,8 +690,14 @@ def losses(mode, f, conductivity=5.8e7, roughness=0.0, tan_delta=0.0):
 
 # ----------------------------------------------------------------------------- 5. impedance
 
+def _section_of(mode, section):
+    """The section given, else the one the mode was solved on (None for a mesh file)."""
+    return section if section is not None else getattr(mode, "section", None)
+
+
 def _frame(mode, section):
     """(centre (2,), unit direction 'up' (2,)) of the default voltage path."""
+    section = _section_of(mode, section)
     if section is not None:
         x0, y0, th = section.frame
         c, s = math.cos(th), math.sin(th)
@@ -1016,6 +1022,7 @@ def power_handling(mode, f, breakdown_field=DRY_AIR_BREAKDOWN, safety_factor=2.0
     basis = fld.basis
     mesh = basis.mesh
     size = float(np.max(np.ptp(mesh.p, axis=1)))
+    section = _section_of(mode, section)
     if section is not None:
         corners = [tuple(float(v) for v in c.point) for c in section.reentrant_corners()]
         size = section.size
