@@ -160,7 +160,7 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
                    f"worst estimate {worst:.2e} trusted={trusted}")
             if mesh_size is not None or (worst <= accuracy and trusted) or not merged:
                 break
-            shrink = min(0.72, max(0.3, (0.3 * accuracy / worst) ** (1.0 / _rate(fine, p))))
+            shrink = min(0.85, max(0.3, (0.3 * accuracy / worst) ** (1.0 / _rate(fine, p))))
             if not trusted:
                 shrink = min(shrink, _KH_MAX[p] / (math.sqrt(merged[-1][0]) * h))
             shrink = max(shrink, 0.25)
