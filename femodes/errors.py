@@ -9,6 +9,30 @@ class FemodesError(ValueError):
     """
 
 
+def _number(name, value, unit):
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        raise FemodesError(f"{name} must be a number{' in ' + unit if unit else ''}, got {value!r}") from None
+
+
+def positive_number(name, value, unit=""):
+    """``value`` as float if it is finite and > 0, else FemodesError naming ``name``."""
+    x = _number(name, value, unit)
+    if not (x > 0 and x < float("inf")):
+        raise FemodesError(f"{name} must be a positive finite number{' in ' + unit if unit else ''}, got {value!r}")
+    return x
+
+
+def nonnegative_number(name, value, unit=""):
+    """``value`` as float if it is finite and >= 0, else FemodesError naming ``name``."""
+    x = _number(name, value, unit)
+    if not (x >= 0 and x < float("inf")):
+        raise FemodesError(f"{name} must be zero or a positive finite number{' in ' + unit if unit else ''}, "
+                           f"got {value!r}")
+    return x
+
+
 def check_positive(name, value, unit="m"):
     """Return ``value`` as float if it is finite and > 0, else raise FemodesError."""
     try:

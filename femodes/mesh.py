@@ -150,33 +150,37 @@ def _gmsh():
     return gmsh
 
 
+def _add_loop(kernel, loop):
+    """Add one closed loop of lines and (elliptic) arcs to a gmsh CAD kernel (``gmsh.model.geo``
+    or ``gmsh.model.occ``, which share these calls); arcs are split below pi as gmsh needs.
+    Returns the curve-loop tag."""
+    segs = []
+    for s in loop.segments:
+        segs.extend(s.split(math.pi / 2) if isinstance(s, Arc) else [s])
+    pts = [kernel.addPoint(s.start[0], s.start[1], 0.0) for s in segs]
+    curves = []
+    for i, s in enumerate(segs):
+        a, b = pts[i], pts[(i + 1) % len(segs)]
+        if isinstance(s, Line):
+            curves.append(kernel.addLine(a, b))
+            continue
+        c = kernel.addPoint(s.center[0], s.center[1], 0.0)
+        if s.is_circular:
+            curves.append(kernel.addCircleArc(a, c, b))
+            continue
+        cr, sr = math.cos(s.rotation), math.sin(s.rotation)
+        if s.rx >= s.ry:
+            mx, my = s.center[0] + cr * s.rx, s.center[1] + sr * s.rx
+        else:
+            mx, my = s.center[0] - sr * s.ry, s.center[1] + cr * s.ry
+        curves.append(kernel.addEllipseArc(a, c, kernel.addPoint(mx, my, 0.0), b))
+    return kernel.addCurveLoop(curves)
+
+
 def _build_geometry(gmsh, section: Section):
+    """A homogeneous section in gmsh's built-in kernel: one plane surface with holes."""
     geo = gmsh.model.geo
-    loops = []
-    for loop in section.loops:
-        segs = []
-        for s in loop.segments:
-            segs.extend(s.split(math.pi / 2) if isinstance(s, Arc) else [s])
-        pts = [geo.addPoint(s.start[0], s.start[1], 0.0) for s in segs]
-        curves = []
-        for i, s in enumerate(segs):
-            a, b = pts[i], pts[(i + 1) % len(segs)]
-            if isinstance(s, Line):
-                curves.append(geo.addLine(a, b))
-            else:
-                c = geo.addPoint(s.center[0], s.center[1], 0.0)
-                if s.is_circular:
-                    curves.append(geo.addCircleArc(a, c, b))
-                else:
-                    cr, sr = math.cos(s.rotation), math.sin(s.rotation)
-                    if s.rx >= s.ry:
-                        mx, my = s.center[0] + cr * s.rx, s.center[1] + sr * s.rx
-                    else:
-                        mx, my = s.center[0] - sr * s.ry, s.center[1] + cr * s.ry
-                    m = geo.addPoint(mx, my, 0.0)
-                    curves.append(geo.addEllipseArc(a, c, m, b))
-        loops.append(geo.addCurveLoop(curves))
-    geo.addPlaneSurface(loops)
+    geo.addPlaneSurface([_add_loop(geo, l) for l in section.loops])
     geo.synchronize()
 
 
@@ -184,30 +188,7 @@ def _build_geometry_occ(gmsh, section: Section):
     """Guide and material regions in OpenCASCADE, fragmented so the mesh conforms to every
     material interface; region parts outside the guide are removed."""
     occ = gmsh.model.occ
-
-    def loop_tag(loop):
-        segs = []
-        for s in loop.segments:
-            segs.extend(s.split(math.pi / 2) if isinstance(s, Arc) else [s])
-        pts = [occ.addPoint(s.start[0], s.start[1], 0.0) for s in segs]
-        curves = []
-        for i, s in enumerate(segs):
-            a, b = pts[i], pts[(i + 1) % len(segs)]
-            if isinstance(s, Line):
-                curves.append(occ.addLine(a, b))
-            else:
-                c = occ.addPoint(s.center[0], s.center[1], 0.0)
-                if s.is_circular:
-                    curves.append(occ.addCircleArc(a, c, b))
-                else:
-                    cr, sr = math.cos(s.rotation), math.sin(s.rotation)
-                    if s.rx >= s.ry:
-                        mx, my = s.center[0] + cr * s.rx, s.center[1] + sr * s.rx
-                    else:
-                        mx, my = s.center[0] - sr * s.ry, s.center[1] + cr * s.ry
-                    curves.append(occ.addEllipseArc(a, c, occ.addPoint(mx, my, 0.0), b))
-        return occ.addCurveLoop(curves)
-
+    loop_tag = lambda loop: _add_loop(occ, loop)  # noqa: E731
     guide = occ.addPlaneSurface([loop_tag(section.outer)] + [loop_tag(h) for h in section.holes])
     regions = [occ.addPlaneSurface([loop_tag(m.region)] + [loop_tag(h) for h in m.holes])
                for m in section.materials]

@@ -33,7 +33,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import FemodesError
+from .errors import FemodesError, nonnegative_number, positive_number
 from .modes import C0, EPS0, MU0, _transverse
 
 __all__ = [
@@ -102,28 +102,8 @@ def _freq(f, name="frequency"):
     return a
 
 
-def _in(unit):
-    return f" in {unit}" if unit else ""
-
-
-def _positive(name, v, unit):
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        raise FemodesError(f"{name} must be a number{_in(unit)}, got {v!r}") from None
-    if not (x > 0 and math.isfinite(x)):
-        raise FemodesError(f"{name} must be a positive finite number{_in(unit)}, got {v!r}")
-    return x
-
-
-def _nonnegative(name, v, unit):
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        raise FemodesError(f"{name} must be a number{_in(unit)}, got {v!r}") from None
-    if not (x >= 0 and math.isfinite(x)):
-        raise FemodesError(f"{name} must be zero or a positive finite number{_in(unit)}, got {v!r}")
-    return x
+_positive = positive_number
+_nonnegative = nonnegative_number
 
 
 def _field(mode):
@@ -447,6 +427,18 @@ def _gauss01(n):
 _REF_VERTICES = np.array([[0.0, 0.0], [1.0, 0.0], [0.0, 1.0]])
 
 
+def _wall_edges(mesh):
+    """Boundary facets, the element owning each, and the reference coordinates (2, n) of each
+    facet's two end vertices in that element."""
+    facets = mesh.boundary_facets()
+    tind = mesh.f2t[0, facets]
+    tv = mesh.t[:, tind]
+    fv = mesh.facets[:, facets]
+    i0 = np.argmax(tv == fv[0][None, :], axis=0)
+    i1 = np.argmax(tv == fv[1][None, :], axis=0)
+    return facets, tind, _REF_VERTICES[i0].T, _REF_VERTICES[i1].T
+
+
 def _boundary_rule(basis, n=10):
     """A Gauss rule along every boundary facet of the mode's own mesh, in the reference
     coordinates of the element that owns the facet.
@@ -458,14 +450,8 @@ def _boundary_rule(basis, n=10):
     """
     mesh = basis.mesh
     mapping = basis.mapping
-    facets = mesh.boundary_facets()
-    tind = mesh.f2t[0, facets]
-    fv = mesh.facets[:, facets]
-    tv = mesh.t[:, tind]  # (3, m)
-    i0 = np.argmax(tv == fv[0][None, :], axis=0)
-    i1 = np.argmax(tv == fv[1][None, :], axis=0)
+    facets, tind, A, B = _wall_edges(mesh)  # A, B: (2, m)
     s, w = _gauss01(n)
-    A, B = _REF_VERTICES[i0].T, _REF_VERTICES[i1].T  # (2, m)
     X = A[:, :, None] + (B - A)[:, :, None] * s[None, None, :]
     xy = mapping.F(X, tind=tind)
     DF = mapping.DF(X, tind=tind)  # (2, 2, m, n)
@@ -726,14 +712,8 @@ def voltage_path(mode, section=None):
     nrm = np.array([d[1], -d[0]])
     basis = fld.basis
     mesh = basis.mesh
-    facets = mesh.boundary_facets()
-    tind = mesh.f2t[0, facets]
-    tv = mesh.t[:, tind]
-    fv = mesh.facets[:, facets]
-    i0 = np.argmax(tv == fv[0][None, :], axis=0)
-    i1 = np.argmax(tv == fv[1][None, :], axis=0)
+    facets, tind, A, B = _wall_edges(mesh)
     s = np.linspace(0.0, 1.0, 33)
-    A, B = _REF_VERTICES[i0].T, _REF_VERTICES[i1].T
     X = A[:, :, None] + (B - A)[:, :, None] * s[None, None, :]
     xy = basis.mapping.F(X, tind=tind)  # (2, m, 33) points along each curved boundary edge
     sd = nrm[0] * (xy[0] - c[0]) + nrm[1] * (xy[1] - c[1])
@@ -944,13 +924,7 @@ def _mesh_reentrant_corners(basis, min_excess=math.radians(20)):
     ``min_excess`` (interior angle above pi + min_excess)."""
     mesh = basis.mesh
     mapping = basis.mapping
-    facets = mesh.boundary_facets()
-    tind = mesh.f2t[0, facets]
-    tv = mesh.t[:, tind]
-    fv = mesh.facets[:, facets]
-    i0 = np.argmax(tv == fv[0][None, :], axis=0)
-    i1 = np.argmax(tv == fv[1][None, :], axis=0)
-    A, B = _REF_VERTICES[i0].T, _REF_VERTICES[i1].T
+    facets, tind, A, B = _wall_edges(mesh)
     X = A[:, :, None] + (B - A)[:, :, None] * np.array([0.0, 1.0])[None, None, :]
     DF = mapping.DF(X, tind=tind)
     d = B - A

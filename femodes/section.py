@@ -18,7 +18,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .errors import FemodesError, check_nonnegative, check_positive
+from .errors import FemodesError, check_nonnegative, check_positive, positive_number
 
 __all__ = [
     "Line", "Arc", "Loop", "Corner", "Section", "Material",
@@ -413,16 +413,6 @@ class Material:
                         self.eps_r, self.mu_r)
 
 
-def _material_value(name, v):
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        raise FemodesError(f"{name} must be a real number, got {v!r}") from None
-    if not (x > 0 and math.isfinite(x)):
-        raise FemodesError(f"{name} must be a positive finite number (relative to vacuum), got {v!r}")
-    return x
-
-
 def _points_in_polygon(x, y, poly):
     """Vectorised even-odd test of points (x, y) against a closed polyline (2, n)."""
     x = np.asarray(x, dtype=float)
@@ -617,7 +607,7 @@ class Section:
         if not isinstance(shape, Section):
             raise FemodesError(f"with_material needs a shape (e.g. femodes.rectangle(...).translated(...)), "
                                f"got {type(shape).__name__}")
-        eps, mu = _material_value("eps_r", eps_r), _material_value("mu_r", mu_r)
+        eps, mu = positive_number("eps_r", eps_r), positive_number("mu_r", mu_r)
         mat = Material(shape.outer, tuple(shape.holes), eps, mu)
         # the region must reach into the guide: test sample points of both outlines
         guide_pts = np.hstack([l.polyline(32, line_pieces=8) for l in self.loops])

@@ -26,7 +26,7 @@ import numpy as np
 
 from .discretise import ELEMENT_ORDERS, discretise
 from .eigen import lowest_eigenpairs, restrict, single_thread
-from .errors import FemodesError
+from .errors import FemodesError, positive_number
 from .mesh import Mesh, mesh_section
 from .modes import Mode, ModeField, ModeSet
 from .section import Section
@@ -52,16 +52,6 @@ _J01 = 2.404825557695773
 MAX_DOFS = 3_000_000
 
 
-def _check_material(name, v):
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        raise FemodesError(f"{name} must be a number, got {v!r}") from None
-    if not (x > 0 and math.isfinite(x)):
-        raise FemodesError(f"{name} must be a positive finite number, got {v!r}")
-    return x
-
-
 def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, order=None,
           mesh_size=None, max_iterations=6):
     """The ``modes`` lowest-cutoff modes of a homogeneously filled guide.
@@ -79,8 +69,8 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     Returns a :class:`ModeSet` (a tuple of :class:`Mode`, ascending in cutoff).
     """
     n_modes = _check_count(modes)
-    eps_r = _check_material("eps_r", eps_r)
-    mu_r = _check_material("mu_r", mu_r)
+    eps_r = positive_number("eps_r", eps_r)
+    mu_r = positive_number("mu_r", mu_r)
     try:
         accuracy = float(accuracy)
     except (TypeError, ValueError):
