@@ -44,6 +44,8 @@ Top level::
 
     eps_r       relative permittivity, real, > 0 (default 1)
     mu_r        relative permeability, real, > 0 (default 1)
+    tan_delta   loss tangent of the filling, >= 0 and < 1 (default 0); used only for the
+                dielectric part of the attenuation in [analysis] (the modes are solved lossless)
 
 ``[solve]`` (optional):
 
@@ -59,6 +61,37 @@ Top level::
     format      png, svg or pdf (default png)
     directory   where figures go, relative to the current directory (default "femodes-out")
     field_count how many modes get a field pattern, a whole number >= 1 (default: all)
+
+    figures may also list "attenuation" (attenuation against frequency over the [analysis]
+    band; needs `band`) and "band" (the bands of the guide on a frequency axis, with the
+    [analysis] band and frequency when given).  Turning figures on from the command line
+    without a list in the case file writes "fields" and "chart", plus "band" with an
+    [analysis] table and "attenuation" with a band.
+
+``[analysis]`` (optional) -- engineering quantities at a frequency or over a band (computed after
+the solve; see :mod:`femodes.quantities`).  It needs ``frequency`` or ``band`` (or both):
+
+    frequency        the frequency of the quantity table, a number in `frequency_units`
+                     (default: the centre (f1 + f2) / 2 of `band`)
+    band             [f1, f2], 0 < f1 < f2, in `frequency_units`: attenuation is swept over it
+                     and the figures "attenuation" and "band" show it
+    points           frequencies in the band sweep, a whole number 2 .. 2001 (default 41);
+                     only with `band`
+    frequency_units  Hz, kHz, MHz or GHz (default GHz)
+    conductor        the wall metal: a name (copper, silver, gold, aluminium, brass, stainless
+                     steel; a few aliases such as "aluminum" or "cu") or a conductivity in S/m
+                     (default copper, 5.8e7 S/m)
+    roughness_um     rms surface roughness of the walls in micrometres (default 0: smooth);
+                     applied with the Hammerstad-Jensen factor
+    breakdown_field  peak field at which the filling breaks down, V/m (default 3e6: dry air at
+                     sea level, common practice)
+    safety_factor    divisor applied to the breakdown power, >= 1 (default 2: a choice, not a
+                     standard)
+    impedance        "PV", "PI" or "VI": which characteristic impedance the table shows first
+                     (default "PV"; all three are computed)
+
+The frequency and the band must lie below the highest cutoff computed (solve for more modes
+otherwise): modes that were not computed could propagate there.
 
 Anything else -- an unknown table or key, a wrong type, a missing key -- is an error that says
 what was wrong, the value given and what would be valid.
@@ -80,15 +113,26 @@ try:  # Python >= 3.11
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10 with the tomli back-port
     import tomli as _toml
 
-__all__ = ["Case", "OutputSettings", "load_case", "parse_case", "run_case", "SHAPES", "UNITS",
-           "FIGURE_KINDS", "FORMATS", "shapes_help"]
+__all__ = ["Case", "OutputSettings", "AnalysisSettings", "load_case", "parse_case", "run_case", "SHAPES",
+           "UNITS", "FREQUENCY_UNITS", "FIGURE_KINDS", "FORMATS", "IMPEDANCE_KINDS", "shapes_help"]
 
 # ----------------------------------------------------------------------------- vocabulary
 
 #: length units accepted in [guide] -> metres per unit (exact by definition; 1 in = 25.4 mm, NIST)
 UNITS = {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "um": 1e-6, "in": 0.0254, "mil": 0.0254e-3}
 DEFAULT_UNITS = "mm"
-FIGURE_KINDS = ("fields", "chart")
+FIGURE_KINDS = ("fields", "chart", "attenuation", "band")
+#: figure kinds that need an [analysis] band ("attenuation") -- the others always apply
+_BAND_FIGURES = ("attenuation",)
+#: frequency units accepted in [analysis] -> hertz per unit (SI prefixes)
+FREQUENCY_UNITS = {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6, "GHz": 1e9}
+DEFAULT_FREQUENCY_UNITS = "GHz"
+IMPEDANCE_KINDS = ("PV", "PI", "VI")
+DEFAULT_POINTS = 41
+MAX_POINTS = 2001
+DEFAULT_CONDUCTOR = "copper"
+DEFAULT_BREAKDOWN_FIELD = 3.0e6   # V/m, dry air at sea level (common practice)
+DEFAULT_SAFETY_FACTOR = 2.0
 FORMATS = ("png", "svg", "pdf")
 FAMILIES = ("TE", "TM")
 ORDERS = (1, 2, 3, 4)
@@ -186,8 +230,14 @@ SHAPES = {
 }
 
 # the other tables: key -> (type check, default)
-_TOP_KEYS = ("title", "guide", "fill", "solve", "output")
-_FILL_KEYS = ("eps_r", "mu_r")
+_TOP_KEYS = ("title", "guide", "fill", "solve", "analysis", "output")
+_FILL_KEYS = ("eps_r", "mu_r", "tan_delta")
+_ANALYSIS_KEYS = ("frequency", "band", "points", "frequency_units", "conductor", "roughness_um",
+                  "breakdown_field", "safety_factor", "impedance")
+#: keys that belong to another table, with where they go (for the error message)
+_ELSEWHERE = {"tan_delta": "[fill]", "eps_r": "[fill]", "mu_r": "[fill]", "modes": "[solve]",
+              "roughness": "[analysis] as roughness_um (micrometres)",
+              "conductivity": "[analysis] as conductor = <S/m>"}
 _SOLVE_KEYS = ("modes", "accuracy", "family", "order")
 _OUTPUT_KEYS = ("figures", "format", "directory", "field_count")
 
@@ -205,24 +255,96 @@ class OutputSettings:
 
 
 @dataclass(frozen=True)
+class AnalysisSettings:
+    """What the [analysis] table asks for, in SI units (Hz, S/m, m, V/m).
+
+    frequency      the frequency of the quantity table (Hz), or None: the centre of ``band``
+    band           (f1, f2) in Hz for the attenuation sweep, or None
+    points         frequencies in the sweep
+    conductor      the name of the wall metal as given, or None when given as a number
+    conductivity   S/m
+    roughness      rms wall roughness (m)
+    tan_delta      loss tangent of the filling (from [fill])
+    breakdown_field, safety_factor : for power handling (V/m; divisor of the power)
+    impedance      'PV', 'PI' or 'VI': the impedance shown first
+    """
+
+    frequency: float | None = None
+    band: tuple | None = None
+    points: int = DEFAULT_POINTS
+    conductor: str | None = DEFAULT_CONDUCTOR
+    conductivity: float = 5.8e7
+    roughness: float = 0.0
+    tan_delta: float = 0.0
+    breakdown_field: float = DEFAULT_BREAKDOWN_FIELD
+    safety_factor: float = DEFAULT_SAFETY_FACTOR
+    impedance: str = "PV"
+
+    @property
+    def table_frequency(self):
+        """The frequency of the quantity table (Hz): ``frequency``, else the band centre."""
+        if self.frequency is not None:
+            return self.frequency
+        return 0.5 * (self.band[0] + self.band[1])
+
+    @property
+    def frequency_role(self):
+        """How the table frequency was chosen: 'given' or 'band centre'."""
+        return "given" if self.frequency is not None else "band centre"
+
+    @property
+    def conductor_text(self):
+        """'copper (5.8e+07 S/m)' or '3.5e+07 S/m'."""
+        if self.conductor:
+            return f"{self.conductor} ({self.conductivity:.3g} S/m)"
+        return f"{self.conductivity:.4g} S/m"
+
+
+@dataclass(frozen=True)
 class Case:
     """A checked case: ``section`` is a Section or a Mesh (metres); ``solve`` holds the keyword
-    arguments for :func:`femodes.solve`; ``output`` the figure settings; ``path`` the source file."""
+    arguments for :func:`femodes.solve`; ``output`` the figure settings; ``analysis`` the
+    [analysis] settings or None; ``tan_delta`` the loss tangent of the fill; ``path`` the source
+    file."""
 
     title: str | None
     section: object
     solve: dict = field(default_factory=dict)
     output: OutputSettings = OutputSettings()
     path: str | None = None
+    analysis: AnalysisSettings | None = None
+    tan_delta: float = 0.0
 
-    def with_options(self, modes=None, accuracy=None, figures_dir=None, fmt=None, no_figures=False):
+    def with_options(self, modes=None, accuracy=None, figures_dir=None, fmt=None, no_figures=False,
+                     frequency=None, band=None, conductor=None):
         """A copy with command-line overrides (strings are parsed; None keeps the case value).
 
-        ``figures_dir`` sets the figure directory and turns figures on (all kinds if the case
-        file asked for none); ``no_figures`` turns them off.
+        ``figures_dir`` sets the figure directory and turns figures on (every kind that applies
+        if the case file asked for none); ``no_figures`` turns them off.  ``frequency`` (GHz)
+        sets the table frequency, ``band`` (two values in GHz) the sweep band (and, unless
+        ``frequency`` is given too, moves the table frequency to its centre); ``conductor`` a
+        metal name or a conductivity in S/m.  Any of the three turns the analysis on.
         """
         if no_figures and figures_dir is not None:
             raise FemodesError("--figures and --no-figures contradict each other; give one of them")
+        an = self.analysis
+        if frequency is not None or band is not None or conductor is not None:
+            if an is None:
+                if frequency is None and band is None:
+                    raise FemodesError("--conductor needs a frequency: give --frequency F or --band F1 F2 "
+                                       "(GHz), or an [analysis] table in the case file")
+                an = AnalysisSettings(tan_delta=self.tan_delta)
+            if band is not None:
+                if not isinstance(band, (list, tuple)) or len(band) != 2:
+                    raise FemodesError(f"--band needs two frequencies F1 F2 in GHz, got {band!r}")
+                vals = [_parse_number(b, "--band", "two frequencies in GHz, e.g. --band 8.2 12.4") for b in band]
+                an = replace(an, band=_band_value("--band", vals, "GHz", 1e9), frequency=None)
+            if frequency is not None:
+                v = _parse_number(frequency, "--frequency", "a frequency in GHz (number), e.g. 10")
+                an = replace(an, frequency=_frequency_value("--frequency", v, "GHz", 1e9))
+            if conductor is not None:
+                name, sigma = _conductor_value("--conductor", _parse_conductor(conductor))
+                an = replace(an, conductor=name, conductivity=sigma)
         solve = dict(self.solve)
         if modes is not None:
             solve["modes"] = _count("--modes", _parse_number(modes, "--modes", "a whole number >= 1", whole=True))
@@ -235,10 +357,28 @@ class Case:
         if figures_dir is not None:
             if not isinstance(figures_dir, str) or not figures_dir.strip():
                 raise FemodesError(f"--figures needs a directory name, got {figures_dir!r}")
-            out = replace(out, directory=figures_dir, figures=out.figures or FIGURE_KINDS)
+            out = replace(out, directory=figures_dir, figures=out.figures or figure_kinds_for(an))
         if no_figures:
             out = replace(out, figures=())
-        return replace(self, solve=solve, output=out)
+        _check_figures_apply(out, an, "with the options given")
+        return replace(self, solve=solve, output=out, analysis=an)
+
+
+def figure_kinds_for(analysis):
+    """The figure kinds that apply to a case with these analysis settings: field patterns and
+    the mode chart always, the band chart with an analysis, the attenuation figure with a band."""
+    if analysis is None:
+        return ("fields", "chart")
+    if analysis.band is None:
+        return tuple(k for k in FIGURE_KINDS if k not in _BAND_FIGURES)
+    return FIGURE_KINDS
+
+
+def _check_figures_apply(output, analysis, where):
+    for k in output.figures:
+        if k in _BAND_FIGURES and (analysis is None or analysis.band is None):
+            raise FemodesError(f"the figure {k!r} needs a band: add band = [f1, f2] to [analysis] (or give "
+                               f"--band F1 F2), or leave {k!r} out of figures in [output] ({where})")
 
 
 def load_case(path) -> Case:
@@ -299,12 +439,18 @@ def _build_case(data, base_dir, path):
     solve = {}
     fill = _table(data, "fill")
     _check_keys(fill, _FILL_KEYS, "[fill]")
-    for k in _FILL_KEYS:
+    tan_delta = 0.0
+    if "tan_delta" in fill:
+        tan_delta = _number("tan_delta in [fill]", fill["tan_delta"], "a loss tangent (number), e.g. 2e-4")
+        if not 0 <= tan_delta < 1:
+            raise FemodesError(f"tan_delta in [fill] is a loss tangent and must lie in 0 <= tan_delta < 1 "
+                               f"(e.g. 2e-4 for a good plastic), got {_show(fill['tan_delta'])}")
+    for k in ("eps_r", "mu_r"):
         if k in fill:
             v = _number(f"{k} in [fill]", fill[k])
             if not (v > 0 and math.isfinite(v)):
-                raise FemodesError(f"{k} in [fill] must be a positive finite number (a real, lossless "
-                                   f"material; 1 for air), got {_show(fill[k])}")
+                raise FemodesError(f"{k} in [fill] must be a positive finite number (the real part; "
+                                   f"1 for air; losses go in tan_delta), got {_show(fill[k])}")
             solve[k] = v
 
     sv = _table(data, "solve")
@@ -344,7 +490,130 @@ def _build_case(data, base_dir, path):
         out = replace(out, directory=d)
     if "field_count" in ov:
         out = replace(out, field_count=_count("field_count in [output]", ov["field_count"]))
-    return Case(title=title, section=section, solve=solve, output=out, path=path)
+
+    analysis = None
+    if "analysis" in data:
+        analysis = _build_analysis(_table(data, "analysis"), tan_delta)
+    _check_figures_apply(out, analysis, "in the case file")
+    return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
+                tan_delta=tan_delta)
+
+
+def _build_analysis(an, tan_delta):
+    for k, v in an.items():
+        if k not in _ANALYSIS_KEYS and k in _ELSEWHERE:
+            raise FemodesError(f"key {k!r} does not belong in [analysis]: it goes in {_ELSEWHERE[k]} "
+                               f"(valid in [analysis]: {', '.join(_ANALYSIS_KEYS)})")
+    _check_keys(an, _ANALYSIS_KEYS, "[analysis]")
+    if "frequency" not in an and "band" not in an:
+        raise FemodesError("[analysis] needs frequency = F or band = [F1, F2] (or both), in frequency_units "
+                           f"(default {DEFAULT_FREQUENCY_UNITS})")
+    units = an.get("frequency_units", DEFAULT_FREQUENCY_UNITS)
+    if not isinstance(units, str) or units not in FREQUENCY_UNITS:
+        sug = ""
+        if isinstance(units, str):
+            low = [u for u in FREQUENCY_UNITS if u.lower() == units.lower()]
+            sug = f"; did you mean {low[0]!r}?" if low else _suggest(units, FREQUENCY_UNITS)
+        raise FemodesError(f"frequency_units in [analysis] must be one of {', '.join(FREQUENCY_UNITS)}, "
+                           f"got {_show(units)}{sug}")
+    scale = FREQUENCY_UNITS[units]
+    s = AnalysisSettings(tan_delta=tan_delta)
+    if "frequency" in an:
+        s = replace(s, frequency=_frequency_value("frequency in [analysis]", an["frequency"], units, scale))
+    if "band" in an:
+        s = replace(s, band=_band_value("band in [analysis]", an["band"], units, scale))
+    if "points" in an:
+        if "band" not in an:
+            raise FemodesError("points in [analysis] is the number of frequencies in the band sweep; it needs "
+                               "band = [F1, F2]")
+        p = an["points"]
+        if isinstance(p, bool) or not isinstance(p, int) or not 2 <= p <= MAX_POINTS:
+            raise FemodesError(f"points in [analysis] must be a whole number from 2 to {MAX_POINTS}, got {_show(p)}")
+        s = replace(s, points=p)
+    if "conductor" in an:
+        name, sigma = _conductor_value("conductor in [analysis]", an["conductor"])
+        s = replace(s, conductor=name, conductivity=sigma)
+    if "roughness_um" in an:
+        r = _number("roughness_um in [analysis]", an["roughness_um"], "an rms roughness in micrometres (number)")
+        if r < 0:
+            raise FemodesError(f"roughness_um in [analysis] is an rms roughness in micrometres and must be >= 0 "
+                               f"(0 for smooth walls), got {_show(an['roughness_um'])}")
+        s = replace(s, roughness=_decimal_scale(r, 1e-6))
+    if "breakdown_field" in an:
+        e = _number("breakdown_field in [analysis]", an["breakdown_field"], "a field strength in V/m (number), "
+                    "e.g. 3e6")
+        if e <= 0:
+            raise FemodesError(f"breakdown_field in [analysis] must be a positive field strength in V/m "
+                               f"(3e6 for dry air at sea level), got {_show(an['breakdown_field'])}")
+        s = replace(s, breakdown_field=e)
+    if "safety_factor" in an:
+        k = _number("safety_factor in [analysis]", an["safety_factor"], "a number >= 1")
+        if k < 1:
+            raise FemodesError(f"safety_factor in [analysis] divides the breakdown power and must be >= 1 "
+                               f"(1 for none), got {_show(an['safety_factor'])}")
+        s = replace(s, safety_factor=k)
+    if "impedance" in an:
+        v = an["impedance"]
+        s = replace(s, impedance=_choice("impedance in [analysis]", v.upper() if isinstance(v, str) and
+                                         v.upper() in IMPEDANCE_KINDS else v, IMPEDANCE_KINDS))
+    return s
+
+
+def _decimal_scale(value, scale):
+    """value x scale for a power-of-ten scale, rounded as the decimal product would be (8.2 GHz ->
+    exactly 8.2e9 Hz, not 8199999999.999999)."""
+    from decimal import Decimal
+
+    exp = round(math.log10(scale))
+    if 10.0 ** exp != scale:
+        return float(value) * scale
+    return float(Decimal(repr(float(value))).scaleb(exp))
+
+
+def _frequency_value(where, value, units, scale):
+    v = _number(where, value, f"a frequency in {units} (number)")
+    if v <= 0:
+        raise FemodesError(f"{where} must be a positive frequency in {units}, got {_show(value)}")
+    return _decimal_scale(v, scale)
+
+
+def _band_value(where, value, units, scale):
+    if (not isinstance(value, (list, tuple)) or len(value) != 2 or not all(_is_number(v) for v in value)):
+        raise FemodesError(f"{where} must be a pair [f1, f2] of frequencies in {units}, e.g. [8.2, 12.4], "
+                           f"got {_show(list(value) if isinstance(value, tuple) else value)}")
+    f1, f2 = (float(v) for v in value)
+    if not (math.isfinite(f1) and math.isfinite(f2) and 0 < f1 < f2):
+        raise FemodesError(f"{where} must be [f1, f2] with 0 < f1 < f2 ({units}), got [{value[0]!r}, {value[1]!r}]")
+    return (_decimal_scale(f1, scale), _decimal_scale(f2, scale))
+
+
+def _parse_conductor(text):
+    """A --conductor argument: a number (S/m) if it reads as one, else a metal name."""
+    if isinstance(text, str):
+        try:
+            return float(text)
+        except ValueError:
+            return text
+    return text
+
+
+def _conductor_value(where, value):
+    """(name or None, conductivity in S/m) from a metal name or a number in S/m."""
+    from .quantities import METALS, conductivity_of
+
+    if isinstance(value, str):
+        try:
+            sigma = conductivity_of(value)
+        except FemodesError:
+            names = list(METALS)
+            raise FemodesError(f"{where}: unknown metal {value!r}{_suggest(value.lower(), names)} (known: "
+                               f"{', '.join(names)}; or give the conductivity in S/m as a number)") from None
+        return next(k for k, v in METALS.items() if v == sigma), sigma
+    v = _number(where, value, "a metal name or a conductivity in S/m")
+    if v <= 0:
+        raise FemodesError(f"{where} must be a metal name or a positive conductivity in S/m (5.8e7 for "
+                           f"copper), got {_show(value)}")
+    return None, v
 
 
 def _build_guide(guide, base_dir):

@@ -2,6 +2,7 @@
 
     femodes solve CASE.toml [--json] [--csv PATH] [--figures DIR | --no-figures] [--format FMT]
                             [--modes N] [--accuracy X]
+                            [--frequency F] [--band F1 F2] [--conductor NAME|S/m]
     femodes shapes
     femodes --version
 
@@ -47,7 +48,9 @@ def _parser():
     sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     s = sub.add_parser("solve", help="solve a case file and print its modes",
                        description="Solve the guide described by a TOML case file and print a table of "
-                       "its modes (GHz, mm).  Options override the case file.")
+                       "its modes (GHz, mm); with an [analysis] table (or --frequency / --band) also the "
+                       "propagation, loss (dB/m), impedance (ohm) and power handling (kW, MW) of the modes, "
+                       "with the cautions that go with power figures.  Options override the case file.")
     s.add_argument("case", metavar="CASE.toml", help="the case file")
     s.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
     s.add_argument("--csv", metavar="PATH", help="also write the modes to a CSV file (SI units)")
@@ -58,6 +61,12 @@ def _parser():
     s.add_argument("--modes", metavar="N", help="number of modes (overrides [solve] modes)")
     s.add_argument("--accuracy", metavar="X", help="relative accuracy of the cutoffs, e.g. 1e-6 "
                    "(overrides [solve] accuracy)")
+    s.add_argument("--frequency", metavar="F", help="print the engineering quantities (loss, impedance, "
+                   "power handling) at F GHz (overrides [analysis] frequency)")
+    s.add_argument("--band", nargs=2, metavar=("F1", "F2"), help="sweep the attenuation from F1 to F2 GHz; the "
+                   "quantities are printed at the band centre unless --frequency is given (overrides [analysis] band)")
+    s.add_argument("--conductor", metavar="NAME|S/m", help="wall metal (copper, silver, gold, aluminium, brass, "
+                   "stainless steel) or its conductivity in S/m (overrides [analysis] conductor)")
     sub.add_parser("shapes", help="list the shapes a case file can use and their keys",
                    description="List the shapes of the [guide] table and the keys each one takes.")
     return p
@@ -100,10 +109,12 @@ def _fail(message):
 
 def _solve(args):
     from .case import load_case, run_case
-    from .export import check_figures, modes_document, modes_table, write_csv, write_figures
+    from .export import (analyse, analysis_table, check_figures, modes_document, modes_table, write_csv,
+                         write_figures)
 
     case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
-                                             fmt=args.format, no_figures=args.no_figures)
+                                             fmt=args.format, no_figures=args.no_figures, frequency=args.frequency,
+                                             band=args.band, conductor=args.conductor)
     if case.output.figures:
         os.environ.setdefault("MPLBACKEND", "Agg")
         check_figures(case.output)  # fail before a long solve, not after it
@@ -115,14 +126,18 @@ def _solve(args):
             msg = str(w.message)
             print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
                   file=sys.stderr)
+    family = case.solve.get("family")
+    analysis = analyse(modeset, case.analysis, family=family) if case.analysis is not None else None
     csv_path = write_csv(modeset, args.csv) if args.csv else None
-    figures = write_figures(modeset, case.output)
+    figures = write_figures(modeset, case.output, analysis)
     if args.json:
-        doc = modes_document(modeset, title=case.title)
+        doc = modes_document(modeset, title=case.title, analysis=analysis)
         doc["files"] = {"csv": csv_path, "figures": figures}
         print(json.dumps(doc, indent=2, allow_nan=False))
         return 0
-    sys.stdout.write(modes_table(modeset, title=case.title, family=case.solve.get("family")))
+    sys.stdout.write(modes_table(modeset, title=case.title, family=family))
+    if analysis is not None:
+        sys.stdout.write("\n" + analysis_table(analysis))
     if csv_path:
         print(f"wrote {csv_path}")
     for p in figures:

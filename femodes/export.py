@@ -5,6 +5,12 @@ mode's error estimate justifies.  The JSON document and the CSV file are for pro
 units throughout (Hz, m, rad/m), stated in the document's "units" entry and the CSV header.
 Values that do not exist (the cutoff wavelength of a TEM mode, the ratio of a band starting at
 0 Hz) are null in JSON and empty in CSV, never NaN or infinity.
+
+Engineering quantities (the [analysis] table of a case file): :func:`analyse` computes them once
+from a solved mode set (:mod:`femodes.quantities`, SI units) into an :class:`Analysis`;
+:func:`analysis_table` prints it (GHz, mm, dB/m, ohm, kW / MW) and :func:`analysis_document`
+makes its JSON form (SI).  Both carry the power-handling cautions of
+:data:`femodes.quantities.CAUTIONS` with the numbers.
 """
 
 from __future__ import annotations
@@ -12,10 +18,16 @@ from __future__ import annotations
 import csv
 import math
 import os
+import textwrap
+from dataclasses import dataclass
+
+import numpy as np
 
 from .errors import FemodesError
 
-__all__ = ["modes_table", "modes_document", "write_csv", "write_json", "write_figures", "check_figures", "DOCUMENT_UNITS"]
+__all__ = ["modes_table", "modes_document", "write_csv", "write_json", "write_figures", "check_figures",
+           "DOCUMENT_UNITS", "ANALYSIS_UNITS", "Analysis", "ModeQuantities", "Sweep", "analyse",
+           "analysis_table", "analysis_document", "power_text", "reliable_attenuation", "PERTURBATION_LIMIT"]
 
 #: units of the numbers in :func:`modes_document` and :func:`write_csv`
 DOCUMENT_UNITS = {"length": "m", "angle": "rad", "kc": "rad/m", "kc_error": "rad/m", "fc": "Hz",
@@ -186,8 +198,9 @@ def _finite(x):
     return x if math.isfinite(x) else None
 
 
-def modes_document(modeset, title=None) -> dict:
-    """A JSON-ready dict of the solve, SI units (see the "units" entry); no NaN or infinity."""
+def modes_document(modeset, title=None, analysis=None) -> dict:
+    """A JSON-ready dict of the solve, SI units (see the "units" entry); no NaN or infinity.
+    With an :class:`Analysis` it has an "analysis" object too (:func:`analysis_document`)."""
     from . import __version__
 
     band = _band(modeset)
@@ -218,6 +231,8 @@ def modes_document(modeset, title=None) -> dict:
             "indices": None if m.indices is None else [int(i) for i in m.indices],
         } for m in modeset],
     }
+    if analysis is not None:
+        doc["analysis"] = analysis_document(analysis)
     return _clean(doc)
 
 
@@ -295,9 +310,13 @@ def check_figures(output):
         _figures_module(output)
 
 
-def write_figures(modeset, output):
+def write_figures(modeset, output, analysis=None):
     """Write the figures asked for in ``output`` (a :class:`femodes.case.OutputSettings`);
-    returns the paths written.  Raises FemodesError if figure support is not installed."""
+    returns the paths written.  Raises FemodesError if figure support is not installed.
+
+    ``analysis`` (an :class:`Analysis`) feeds the "attenuation" figure (its band, conductor,
+    roughness and fill loss; needed for that figure) and marks its band and frequency on the
+    "band" figure."""
     if not output.figures:
         return []
     figures = _figures_module(output)
@@ -314,4 +333,512 @@ def write_figures(modeset, output):
         path = os.path.join(directory, f"mode_chart.{output.format}")
         got = figures.mode_chart(modeset, path)
         paths.append(str(got) if isinstance(got, (str, os.PathLike)) else path)
+    st = analysis.settings if analysis is not None else None
+    if "attenuation" in output.figures:
+        if st is None or st.band is None or analysis.sweep is None:
+            raise FemodesError("the figure 'attenuation' needs an analysis band: add band = [f1, f2] to [analysis] "
+                               "or give --band F1 F2")
+        path = os.path.join(directory, f"attenuation.{output.format}")
+        figures.attenuation_chart(modeset, analysis.sweep.frequencies, conductivity=st.conductivity,
+                                  roughness=st.roughness, tan_delta=st.tan_delta, conductor=st.conductor, path=path)
+        paths.append(path)
+    if "band" in output.figures:
+        path = os.path.join(directory, f"band_chart.{output.format}")
+        figures.band_chart(modeset, path, band=None if st is None else st.band,
+                           frequency=None if st is None else analysis.frequency)
+        paths.append(path)
     return paths
+
+
+# ----------------------------------------------------------------------------- engineering quantities
+
+#: units of the numbers in the "analysis" object of :func:`analysis_document`
+ANALYSIS_UNITS = {
+    "frequency": "Hz", "beta": "rad/m", "alpha": "Np/m (decay below cutoff; 0 above)", "guide_wavelength": "m",
+    "phase_velocity": "m/s", "group_velocity": "m/s", "wave_impedance": "ohm", "impedances": "ohm",
+    "attenuation_np_per_m": "Np/m", "attenuation_db_per_m": "dB/m", "conductivity": "S/m", "roughness": "m (rms)",
+    "surface_resistance": "ohm", "skin_depth": "m", "peak_field_per_sqrt_watt": "V/m per sqrt(W)",
+    "peak_location": "m", "breakdown_field": "V/m", "breakdown_power": "W", "rated_power": "W",
+    "corner_exclusion": "m",
+}
+
+#: a propagating mode whose loss is not small against its phase constant (alpha / beta above this)
+#: is too close to cutoff for the power-loss (perturbation) method, which assumes alpha << beta
+PERTURBATION_LIMIT = 0.01
+
+
+def reliable_attenuation(mode, f, conductivity, roughness=0.0, tan_delta=0.0):
+    """Attenuation (Np/m, array like ``f``) of ``mode`` at the frequencies ``f`` (Hz) where the
+    power-loss method holds: NaN below cutoff and where alpha / beta > :data:`PERTURBATION_LIMIT`
+    (just above cutoff, where beta -> 0 and the method is not valid)."""
+    from . import quantities as Q
+
+    fs = np.atleast_1d(np.asarray(f, dtype=float))
+    on = np.ones(fs.shape, dtype=bool) if mode.family == "TEM" else np.asarray(mode.propagates(fs))
+    a = np.full(fs.shape, np.nan)
+    if np.any(on):
+        a[on] = np.asarray(Q.attenuation(mode, fs[on], conductivity, roughness, tan_delta), dtype=float)
+        beta = np.asarray(Q.wave_quantities(mode, fs[on]).beta, dtype=float)
+        bad = np.zeros(fs.shape, dtype=bool)
+        bad[on] = a[on] > PERTURBATION_LIMIT * beta
+        a[bad] = np.nan
+    return a
+
+
+@dataclass(frozen=True)
+class ModeQuantities:
+    """The quantities of one mode at the analysis frequency (SI; see :mod:`femodes.quantities`).
+
+    waves      :class:`~femodes.quantities.WaveQuantities` (every mode)
+    losses     :class:`~femodes.quantities.Losses` (propagating modes only, else None)
+    impedances {'PV': ohm, 'PI': ohm, 'VI': ohm} for the dominant mode and TEM modes, else None
+    power      :class:`~femodes.quantities.PowerHandling` (propagating modes only, else None)
+    notes      what limits the numbers of this mode
+    """
+
+    mode: object
+    waves: object
+    losses: object = None
+    impedances: dict | None = None
+    voltage_path: tuple | None = None
+    power: object = None
+    notes: tuple = ()
+
+    @property
+    def propagates(self):
+        return bool(self.waves.propagates)
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """Attenuation over the analysis band: ``frequencies`` (Hz, array) and, per mode index that
+    propagates somewhere in the band, ``attenuation`` (Np/m; NaN below cutoff and just above it,
+    where alpha / beta > PERTURBATION_LIMIT and the power-loss method does not hold) and, for TE
+    and TEM modes with a power-handling result, ``rated_power`` (W, NaN where the attenuation is)."""
+
+    frequencies: np.ndarray
+    attenuation: dict
+    rated_power: dict
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """Everything :func:`analysis_table` and :func:`analysis_document` report (SI units)."""
+
+    settings: object
+    frequency: float
+    modes: tuple
+    band: object
+    sweep: Sweep | None
+    family: str | None
+    top_cutoff: float
+    cautions: tuple
+
+    @property
+    def propagating(self):
+        return tuple(q for q in self.modes if q.propagates)
+
+    @property
+    def evanescent(self):
+        return tuple(q for q in self.modes if not q.propagates)
+
+    @property
+    def warnings(self):
+        """The power-handling warnings of every mode, each once."""
+        out = []
+        for q in self.modes:
+            for w in (q.power.warnings if q.power is not None else ()):
+                if w not in out:
+                    out.append(w)
+        return tuple(out)
+
+
+def _check_below_top(what, f, modeset):
+    top = max(m.fc for m in modeset)
+    if f >= top:
+        raise FemodesError(f"the analysis {what} reaches {f / 1e9:.6g} GHz, at or above the highest cutoff computed "
+                           f"({top / 1e9:.6g} GHz, {modeset[-1].label}): modes that were not computed could "
+                           "propagate there; solve for more modes (modes in [solve] or --modes) or lower the frequency")
+    return top
+
+
+def _voltage_cancels(mode, path, rel=1e-6):
+    """True if int e_t . dl along ``path`` is zero by cancellation: below ``rel`` times the
+    integral of |e_t . dl| (sampled on 400 points)."""
+    from . import quantities as Q
+
+    (x0, y0), (x1, y1) = path
+    t = np.linspace(0.0, 1.0, 401)
+    s = 0.5 * (t[1:] + t[:-1])
+    pts = np.array([x0 + (x1 - x0) * s, y0 + (y1 - y0) * s])
+    ex, ey, _, _ = mode.fields(pts)
+    along = np.abs(ex * (x1 - x0) + ey * (y1 - y0)) / (t.size - 1)
+    total = float(np.nansum(along))
+    return total > 0 and abs(Q.path_voltage(mode, path)) < rel * total
+
+
+def analyse(modeset, settings, family=None) -> Analysis:
+    """The engineering quantities of ``modeset`` asked for by ``settings`` (a
+    :class:`femodes.case.AnalysisSettings`): wave quantities of every mode, losses and power handling
+    of the propagating ones and the characteristic impedances of the dominant (and any TEM) mode at
+    the table frequency, the single-mode and recommended bands, and the attenuation over the band.
+
+    Power handling is computed at the table frequency only (it searches the field for its peak);
+    over the band, the rated power of TE and TEM modes follows from it exactly, since their electric
+    field is purely transverse and its peak per sqrt(W) scales as sqrt(Z_w):
+    P(f) = P(f0) Z_w(f0) / Z_w(f).
+    """
+    from . import quantities as Q
+
+    if not len(modeset):
+        raise FemodesError("the mode set is empty: nothing to analyse")
+    f = float(settings.table_frequency)
+    top = _check_below_top("frequency", f, modeset)
+    if settings.band is not None:
+        _check_below_top("band", settings.band[1], modeset)
+    sigma, rough, td = settings.conductivity, settings.roughness, settings.tan_delta
+    first = modeset[0]
+    rows = []
+    for m in modeset:
+        wq = Q.wave_quantities(m, f)
+        if not wq.propagates:
+            rows.append(ModeQuantities(m, wq))
+            continue
+        notes = []
+        ls = Q.losses(m, f, sigma, rough, td)
+        beta = float(wq.beta)
+        if beta > 0 and float(ls.total) / beta > PERTURBATION_LIMIT:
+            notes.append(f"loss is not small against beta (alpha / beta = {float(ls.total) / beta:.2g}): too close to "
+                         "cutoff for the power-loss method; the loss figure is not reliable")
+        z, path = None, None
+        if m.family == "TEM" or m.index == first.index:
+            z = {}
+            for kind in ("PV", "PI", "VI"):
+                try:
+                    z[kind] = float(m.impedance(f, kind))
+                except FemodesError as exc:
+                    z[kind] = None
+                    notes.append(f"Z_{kind} not available: {exc}")
+            if m.family != "TEM":
+                try:
+                    path = tuple(Q.voltage_path(m))
+                except FemodesError:
+                    path = None
+                if path is not None and _voltage_cancels(m, path):
+                    z["PV"] = z["VI"] = None
+                    notes.append("the voltage along the default path (through the centre, wall to wall) cancels for "
+                                 "this mode (a field null, e.g. by symmetry): Z_PV and Z_VI are not defined for it")
+                if m.degenerate_with:
+                    notes.append("one member of a degenerate pair: its impedances depend on the orientation the "
+                                 "solver gave it")
+        ph = m.power_handling(f, settings.breakdown_field, settings.safety_factor)
+        rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes)))
+    try:
+        band = Q.band(modeset)
+    except (FemodesError, StopIteration):
+        band = None
+    sweep = None
+    if settings.band is not None:
+        fs = np.linspace(settings.band[0], settings.band[1], int(settings.points))
+        att, rated = {}, {}
+        for q in rows:
+            m = q.mode
+            a = reliable_attenuation(m, fs, sigma, rough, td)
+            if not np.any(np.isfinite(a)):
+                continue
+            on = np.isfinite(a)
+            att[m.index] = a
+            if q.power is not None and m.family in ("TE", "TEM"):
+                p = np.full(fs.shape, np.nan)
+                z0 = float(Q.wave_quantities(m, f).wave_impedance)
+                p[on] = q.power.rated_power * z0 / np.asarray(Q.wave_quantities(m, fs[on]).wave_impedance, dtype=float)
+                rated[m.index] = p
+        sweep = Sweep(fs, att, rated)
+    return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=sweep, family=family,
+                    top_cutoff=top, cautions=tuple(Q.CAUTIONS))
+
+
+# -- text
+
+def power_text(watts):
+    """A power in W, kW, MW or GW, 4 significant digits: 32.45 kW."""
+    w = float(watts)
+    if not math.isfinite(w):
+        return "-"
+    for unit, scale in (("GW", 1e9), ("MW", 1e6), ("kW", 1e3)):
+        if abs(w) >= scale:
+            return f"{w / scale:.4g} {unit}"
+    return f"{w:.4g} W"
+
+
+def _g(x, sig=5):
+    """A number with ``sig`` significant digits, plain notation where sensible."""
+    x = float(x)
+    if not math.isfinite(x):
+        return "-"
+    if x == 0:
+        return "0"
+    if 1e-4 <= abs(x) < 1e7:
+        return _significant(x, sig)
+    return f"{x:.{sig - 1}e}"
+
+
+def _mm(x):
+    """A coordinate (m) in mm to the micrometre: -3.884, 0.768, 0."""
+    v = round(float(x) * 1e3, 3)
+    return f"{v + 0.0:g}"
+
+
+def _f_ghz(f):
+    return f"{f / 1e9:.6g}"
+
+
+def _grid(head, rows, right):
+    widths = [max(len(r[j]) for r in rows + [head]) for j in range(len(head))]
+
+    def fmt(r):
+        return "  ".join(c.rjust(w) if j in right else c.ljust(w) for j, (c, w) in enumerate(zip(r, widths))).rstrip()
+
+    return [fmt(head), "  ".join("-" * w for w in widths)] + [fmt(r) for r in rows]
+
+
+def _wrap(text, first, rest, width=100):
+    return textwrap.wrap(text, width=width, initial_indent=first, subsequent_indent=rest) or [first.rstrip()]
+
+
+def _walls_text(an):
+    s = an.settings
+    rough = "smooth" if s.roughness == 0 else f"rms roughness {s.roughness * 1e6:.4g} um (Hammerstad-Jensen)"
+    fill = "lossless" if s.tan_delta == 0 else f"tan_delta = {s.tan_delta:.3g}"
+    return f"walls: {s.conductor_text}, {rough}; fill: {fill}"
+
+
+def analysis_table(an) -> str:
+    """The quantities of an :class:`Analysis` as text (GHz, mm, dB/m, ohm, kW/MW), ending with
+    the band lines and the power-handling cautions."""
+    from .modes import C0
+    from .quantities import NP_TO_DB
+
+    s = an.settings
+    f = an.frequency
+    fg = _f_ghz(f)
+    where = (f"centre of the analysis band {_f_ghz(s.band[0])} - {_f_ghz(s.band[1])} GHz"
+             if s.frequency is None else "as asked")
+    lines = [f"at f = {fg} GHz ({where})", _walls_text(an)]
+    if an.family:
+        lines.append(f"({an.family} modes only: the other family was not solved for)")
+    lines.append("")
+
+    prop = an.propagating
+    if prop:
+        lines.append(f"propagating at {fg} GHz:")
+        rows = []
+        for q in prop:
+            w, ls = q.waves, q.losses
+            rows.append([str(q.mode.index + 1), q.mode.label, _g(w.beta), _g(w.guide_wavelength * 1e3),
+                         f"{w.phase_velocity / C0:.4f}", f"{w.group_velocity / C0:.4f}",
+                         _g(float(np.real(w.wave_impedance))),
+                         _g(ls.conductor_db, 4), _g(ls.dielectric_db, 4), _g(ls.total_db, 4)])
+        lines += _grid(["#", "label", "beta [rad/m]", "guide wl [mm]", "v_p/c", "v_g/c", "Z_wave [ohm]",
+                        "walls [dB/m]", "fill [dB/m]", "loss [dB/m]"], rows, {0, 2, 3, 4, 5, 6, 7, 8, 9})
+        lines.append("")
+        for q in prop:
+            if q.impedances is None:
+                continue
+            z = q.impedances
+            if q.mode.family == "TEM":
+                val = z.get("PV")
+                lines.append(f"line impedance of {q.mode.label} (#{q.mode.index + 1}): Z0 = {_g(val, 5)} ohm "
+                             "(from the electrostatic capacitance; the same for PV, PI and VI)")
+                continue
+            order = [s.impedance] + [k for k in ("PV", "PI", "VI") if k != s.impedance]
+            parts = [f"Z_{k} = {_g(z[k], 5)} ohm" if z[k] is not None else f"Z_{k} = n/a" for k in order]
+            lines.append(f"impedance of {q.mode.label} (#{q.mode.index + 1}): {parts[0]}  (also {parts[1]}, {parts[2]})")
+            if q.voltage_path is not None:
+                (x0, y0), (x1, y1) = q.voltage_path
+                lines += _wrap(f"V along ({_mm(x0)}, {_mm(y0)}) -> ({_mm(x1)}, {_mm(y1)}) mm "
+                               "(through the centre, wall to wall); I: the longitudinal wall current on the half "
+                               "of the walls above the centre", "  ", "  ", width=110)
+        lines.append("")
+        ref = prop[0].power
+        lines += _wrap(f"power handling at {fg} GHz (matched travelling wave; breakdown taken at a peak field of "
+                       f"{ref.breakdown_field / 1e6:.4g} MV/m; rated = that power / safety factor "
+                       f"{ref.safety_factor:g}):", "", "  ", width=110)
+        rows = []
+        for q in prop:
+            p = q.power
+            x, y = p.peak_location
+            rows.append([str(q.mode.index + 1), q.mode.label, _g(p.peak_field_per_sqrt_watt, 4),
+                         f"({_mm(x)}, {_mm(y)})", power_text(p.breakdown_power), power_text(p.rated_power)])
+        lines += _grid(["#", "label", "peak |E| at 1 W [V/m]", "peak at (x, y) [mm]", "power at breakdown",
+                        "rated power"],
+                       rows, {0, 2, 4, 5})
+        lines.append("")
+    else:
+        lines += [f"no mode propagates at {fg} GHz (below the lowest cutoff)", ""]
+
+    ev = an.evanescent
+    if ev:
+        lines.append(f"below cutoff at {fg} GHz (evanescent: the field decays along the guide, no power is carried):")
+        rows = [[str(q.mode.index + 1), q.mode.label, f"{q.mode.fc / 1e9:.6g}", _g(q.waves.alpha * NP_TO_DB, 5)]
+                for q in ev]
+        lines += _grid(["#", "label", "fc [GHz]", "decay [dB/m]"], rows, {0, 2, 3})
+        lines.append("")
+
+    notes = [(q.mode, n) for q in an.modes for n in q.notes]
+    for m, n in notes:
+        lines += _wrap(f"#{m.index + 1} {m.label}: {n}", "note: ", "      ")
+    lines += _wrap("loss by the power-loss (perturbation) method on the lossless mode; wall loss from the "
+                   "surface resistance of the conductor", "note: ", "      ")
+    lines.append("")
+
+    b = an.band
+    if b is None:
+        lines.append("recommended band: needs at least two distinct cutoffs; solve for more modes")
+    else:
+        n_tem = sum(1 for q in an.modes if q.mode.family == "TEM")
+        lo = "0 (TEM)" if b.low == 0 else f"{b.low / 1e9:.5g}"
+        ratio = "unbounded, TEM" if not math.isfinite(b.ratio) else f"{b.ratio:.3f}:1"
+        what = "single-mode band" if n_tem <= 1 else f"band of the {n_tem} TEM modes only"
+        lines.append(f"{what}: {lo} - {b.high / 1e9:.5g} GHz (ratio {ratio}); next mode {b.next}")
+        if b.recommended is None:
+            lines.append("recommended operating band: none (the single-mode band is narrower than 1.25 fc1 .. "
+                         "0.95 fc2)")
+        else:
+            r1, r2 = b.recommended
+            lines.append(f"recommended operating band: {r1 / 1e9:.5g} - {r2 / 1e9:.5g} GHz (rule of thumb 1.25 fc1 .. "
+                         "0.95 fc2, common practice; not a standard)")
+    if an.sweep is not None:
+        fs = an.sweep.frequencies
+        lines.append(f"analysis band: {_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz, {fs.size} points")
+        if b is not None and b.low > 0 and fs[0] < b.low:
+            lines.append(f"  (it starts below the dominant cutoff {_f_ghz(b.low)} GHz: nothing propagates there)")
+        if b is not None and fs[-1] > b.high:
+            lines.append(f"  (it runs above the next cutoff {_f_ghz(b.high)} GHz: more than one mode can propagate)")
+        for idx, a in an.sweep.attenuation.items():
+            m = _mode_of(an, idx)
+            ok = np.isfinite(a)
+            db = a * NP_TO_DB
+            i_min, i_max = int(np.nanargmin(db)), int(np.nanargmax(db))
+            text = (f"#{m.index + 1} {m.label}: loss {_g(db[i_min], 4)} dB/m (at {_f_ghz(fs[i_min])} GHz) to "
+                    f"{_g(db[i_max], 4)} dB/m (at {_f_ghz(fs[i_max])} GHz)")
+            if not np.all(ok):
+                text += (f" over the {int(ok.sum())} of {ok.size} points where it propagates and the loss method "
+                         f"holds (alpha / beta <= {PERTURBATION_LIMIT:g})")
+            p = an.sweep.rated_power.get(idx)
+            if p is not None:
+                j = int(np.nanargmin(p))
+                text += (f"; rated power down to {power_text(p[j])} (at {_f_ghz(fs[j])} GHz; scaled from {fg} GHz "
+                         "as 1 / Z_w)")
+            lines += _wrap(text, "  ", "    ")
+    lines.append("")
+
+    if prop:
+        for w in an.warnings:
+            lines += _wrap(w, "warning: ", "         ")
+        lines.append("cautions (power handling):")
+        for c in an.cautions:
+            lines += _wrap(c, "  - ", "    ")
+    return "\n".join(lines).rstrip("\n") + "\n"
+
+
+def _mode_of(an, index):
+    return next(q.mode for q in an.modes if q.mode.index == index)
+
+
+# -- JSON
+
+def _num_list(a):
+    return [_finite(v) for v in np.asarray(a, dtype=float).tolist()]
+
+
+def analysis_document(an) -> dict:
+    """The "analysis" object of the JSON document: SI units (see its "units"), no NaN or infinity."""
+    from . import quantities as Q
+
+    s = an.settings
+    f = an.frequency
+    modes = []
+    for q in an.modes:
+        m, w = q.mode, q.waves
+        zw = complex(w.wave_impedance)
+        d = {"index": m.index, "label": m.label, "family": m.family, "propagates": q.propagates,
+             "beta": _finite(w.beta), "alpha": _finite(w.alpha), "guide_wavelength": _finite(w.guide_wavelength),
+             "phase_velocity": _finite(w.phase_velocity), "group_velocity": _finite(w.group_velocity),
+             "wave_impedance": {"real": _finite(zw.real + 0.0), "imag": _finite(zw.imag + 0.0)},
+             "impedances": None if q.impedances is None else {k: (None if v is None else _finite(v))
+                                                             for k, v in q.impedances.items()},
+             "voltage_path": None if q.voltage_path is None else [list(p) for p in q.voltage_path],
+             "attenuation_np_per_m": None, "attenuation_db_per_m": None, "power_handling": None,
+             "notes": list(q.notes)}
+        if q.losses is not None:
+            ls = q.losses
+            d["attenuation_np_per_m"] = {"conductor": _finite(ls.conductor), "dielectric": _finite(ls.dielectric),
+                                         "total": _finite(ls.total)}
+            d["attenuation_db_per_m"] = {"conductor": _finite(ls.conductor_db), "dielectric": _finite(ls.dielectric_db),
+                                         "total": _finite(ls.total_db)}
+        if q.power is not None:
+            p = q.power
+            d["power_handling"] = {
+                "frequency": _finite(p.frequency),
+                "peak_field_per_sqrt_watt": _finite(p.peak_field_per_sqrt_watt),
+                "peak_location": [_finite(v) for v in p.peak_location],
+                "breakdown_field": _finite(p.breakdown_field), "breakdown_power": _finite(p.breakdown_power),
+                "safety_factor": _finite(p.safety_factor), "rated_power": _finite(p.rated_power),
+                "corners": [[_finite(v) for v in c] for c in p.corners],
+                "corner_exclusion": _finite(p.corner_exclusion), "warnings": list(p.warnings)}
+        modes.append(d)
+    b = an.band
+    band = {"single_mode": None, "recommended": None, "sweep": None}
+    if b is not None:
+        band["single_mode"] = {"f_low": _finite(b.low), "f_high": _finite(b.high), "ratio": _finite(b.ratio),
+                               "dominant": b.dominant, "next": b.next}
+        if b.recommended is not None:
+            band["recommended"] = {"f_low": _finite(b.recommended[0]), "f_high": _finite(b.recommended[1]),
+                                   "rule": "1.25 fc1 .. 0.95 fc2 (rule of thumb, common practice; not a standard)"}
+    if an.sweep is not None:
+        fs = an.sweep.frequencies
+        per = []
+        for idx, a in an.sweep.attenuation.items():
+            m = _mode_of(an, idx)
+            db = a * Q.NP_TO_DB
+            entry = {"index": idx, "label": m.label, "attenuation_np_per_m": _num_list(a),
+                     "attenuation_db_per_m": _num_list(db),
+                     "min_db_per_m": _finite(np.nanmin(db)), "min_at": _finite(fs[int(np.nanargmin(db))]),
+                     "max_db_per_m": _finite(np.nanmax(db)), "max_at": _finite(fs[int(np.nanargmax(db))]),
+                     "rated_power": None, "rated_power_min": None, "rated_power_min_at": None}
+            p = an.sweep.rated_power.get(idx)
+            if p is not None:
+                entry["rated_power"] = _num_list(p)
+                entry["rated_power_min"] = _finite(np.nanmin(p))
+                entry["rated_power_min_at"] = _finite(fs[int(np.nanargmin(p))])
+            per.append(entry)
+        band["sweep"] = {"f_low": _finite(fs[0]), "f_high": _finite(fs[-1]), "points": int(fs.size),
+                         "frequencies": _num_list(fs), "modes": per,
+                         "rated_power_note": "TE and TEM modes: scaled from the table frequency as 1 / Z_w "
+                                             "(their peak field per sqrt(W) goes as sqrt(Z_w)); null otherwise"}
+    first = next((q for q in an.modes if q.impedances is not None), None)
+    doc = {
+        "units": dict(ANALYSIS_UNITS),
+        "frequency": _finite(f),
+        "frequency_role": s.frequency_role,
+        "walls": {"conductor": s.conductor, "conductivity": _finite(s.conductivity), "roughness": _finite(s.roughness),
+                  "surface_resistance": _finite(Q.surface_resistance(f, s.conductivity)),
+                  "skin_depth": _finite(Q.skin_depth(f, s.conductivity)),
+                  "roughness_factor": _finite(Q.roughness_factor(f, s.conductivity, s.roughness))},
+        "fill": {"tan_delta": _finite(s.tan_delta)},
+        "breakdown_field": _finite(s.breakdown_field),
+        "safety_factor": _finite(s.safety_factor),
+        "impedance_first": s.impedance,
+        "family_only": an.family,
+        "modes": modes,
+        "dominant_impedance": None if first is None else {"index": first.mode.index, "label": first.mode.label,
+                                                          "shown_first": s.impedance, **first.impedances},
+        "band": band,
+        "methods": {"losses": "power-loss (perturbation) method on the lossless mode; Hammerstad-Jensen roughness",
+                    "power_handling": "at the table frequency only; peak instantaneous |E| over the cross-section "
+                                      "for a matched travelling wave"},
+        "warnings": list(an.warnings),
+        "cautions": list(an.cautions),
+    }
+    return _clean(doc)

@@ -36,7 +36,8 @@ import numpy as np
 from .errors import FemodesError
 from .modes import _transverse
 
-__all__ = ["field_pattern", "field_patterns", "field_samples", "mode_chart", "safe_name"]
+__all__ = ["field_pattern", "field_patterns", "field_samples", "mode_chart", "attenuation_chart", "band_chart",
+           "safe_name"]
 
 
 def _style():
@@ -755,6 +756,297 @@ def mode_chart(modeset, path=None, *, f_max=None, dpi=200):
                 gid="mode-label", linespacing=1.15,
                 bbox=dict(boxstyle="square,pad=0.1", fc="white", ec="none", alpha=0.6))
 
+    if path is not None:
+        _save(fig, path, dpi=dpi)
+    return fig
+
+
+# ----------------------------------------------------------------------------- attenuation against frequency
+
+#: line colours for the curves of several modes (a colour-blind-safe qualitative set, in order)
+_CURVE_COLOURS = ("#1d6f8a", "#c0562f", "#5a3f87", "#3c8a3a", "#b08a1e", "#8a2f5a", "#2f4f8a", "#6b6b6b")
+_FAMILY_DASH = {"TE": "-", "TM": (0, (5, 2.5)), "TEM": (0, (6, 2, 1.5, 2))}
+
+
+def _frequencies(frequencies):
+    try:
+        fs = np.asarray(frequencies, dtype=float).ravel()
+    except (TypeError, ValueError):
+        raise FemodesError(f"frequencies must be a list of numbers in Hz, got {frequencies!r}") from None
+    if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0) or np.any(np.diff(fs) <= 0):
+        raise FemodesError("frequencies must be at least two positive, finite, increasing values in Hz")
+    return fs
+
+
+def _walls_note(conductivity, roughness, tan_delta, conductor):
+    from .quantities import conductivity_of
+
+    sigma = conductivity_of(conductivity)
+    name = conductor if conductor else (conductivity if isinstance(conductivity, str) else None)
+    metal = f"{name} walls ({sigma:.3g} S/m)" if name else f"walls of {sigma:.3g} S/m"
+    rough = "smooth" if not roughness else f"rms roughness {roughness * 1e6:.3g} µm"
+    fill = "lossless fill" if not tan_delta else f"fill tan δ = {tan_delta:.3g}"
+    return f"{metal}, {rough}, {fill}"
+
+
+def _unbreakable_units(text):
+    """Keep '0.5 mm' and '30 deg' together when a title is wrapped (no-break spaces)."""
+    return re.sub(r"(\d) (mm|deg)\b", "\\1\u00a0\\2", text)
+
+
+def attenuation_chart(modeset, frequencies, *, conductivity="copper", roughness=0.0, tan_delta=0.0,
+                      conductor=None, path=None, dpi=200):
+    """Attenuation (dB/m) against frequency (GHz) of every mode of ``modeset`` that propagates
+    somewhere in ``frequencies`` (Hz); returns the Figure (saved to ``path`` if given).
+
+    What is plotted: for each mode the wall loss plus the loss of the fill
+    (:func:`femodes.quantities.attenuation`: power-loss method, ``conductivity`` a metal name or S/m,
+    rms ``roughness`` in m, fill loss tangent ``tan_delta``), at the given frequencies above its
+    cutoff only.  One curve per mode, colour per mode and dash per family (TE solid, TM dashed,
+    TEM dash-dot), named in the legend; members of a degenerate group whose curves agree to 1e-4 are
+    drawn once with an ``x2`` note.  A mode whose cutoff lies inside the range gets a dotted line at
+    its cutoff: the loss grows without bound there, and points where the loss is not small
+    against beta (alpha / beta > :data:`femodes.export.PERTURBATION_LIMIT`, where the power-loss
+    method does not hold) are left out, so the curve starts a little above the cutoff.  The
+    vertical axis is logarithmic when the values span more than a factor of 30.
+    ``conductor`` names the metal in the title when ``conductivity`` is a number.
+    """
+    from . import quantities as Q
+    from matplotlib.ticker import FuncFormatter, NullFormatter
+
+    st = _style()
+    fs = _frequencies(frequencies)
+    modes = list(modeset)
+    if not modes:
+        raise FemodesError("the mode set is empty: nothing to plot")
+    from .export import reliable_attenuation
+
+    curves = []                                   # (modes, values dB/m with NaN, family)
+    for m in modes:
+        a = reliable_attenuation(m, fs, conductivity, roughness, tan_delta) * Q.NP_TO_DB
+        on = np.isfinite(a)
+        if not np.any(on):
+            continue
+        for c in curves:
+            same_group = m.index in {q.index for q in c[0]} or any(m.index in q.degenerate_with for q in c[0])
+            if same_group and np.array_equal(np.isnan(a), np.isnan(c[1])) and np.allclose(
+                    a[on], c[1][on], rtol=1e-4, atol=0.0):
+                c[0].append(m)
+                break
+        else:
+            curves.append(([m], a, m.family))
+    if not curves:
+        raise FemodesError(f"no mode propagates between {fs[0] / 1e9:.6g} and {fs[-1] / 1e9:.6g} GHz: nothing to plot "
+                           "(the lowest cutoff is {:.6g} GHz)".format(min(m.fc for m in modes) / 1e9))
+
+    fig = _new_figure(8.0, 4.2)
+    ax = fig.add_subplot(1, 1, 1)
+    ghz = fs / 1e9
+    vals = np.concatenate([c[1][np.isfinite(c[1])] for c in curves])
+    lo, hi = float(vals.min()), float(vals.max())
+    log = lo > 0 and hi / lo > 30
+    for k, (ms, a, fam) in enumerate(curves):
+        colour = _CURVE_COLOURS[k % len(_CURVE_COLOURS)]
+        labels = []
+        for q in ms:
+            if q.label not in labels:
+                labels.append(q.label)
+        name = " / ".join(labels) + (f" x{len(ms)}" if len(ms) > 1 and len(labels) == 1 else "")
+        few = fs.size <= 12 or np.count_nonzero(np.isfinite(a)) < 3
+        line, = ax.plot(ghz, a, color=colour, lw=1.8, ls=_FAMILY_DASH.get(fam, "-"), marker="o" if few else None,
+                        ms=3.5, label=f"{name}  (fc {ms[0].fc / 1e9:.4g} GHz)" if fam != "TEM" else f"{name}  (no cutoff)",
+                        zorder=3, clip_on=not few)
+        line.set_gid(f"attenuation-{ms[0].index}")
+        fc = ms[0].fc
+        if fam != "TEM" and fs[0] < fc < fs[-1]:
+            ax.axvline(fc / 1e9, color=colour, lw=0.9, ls=(0, (1, 2.5)), zorder=2, gid=f"cutoff-{ms[0].index}")
+    if log:
+        ax.set_yscale("log")
+        ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+        ax.yaxis.set_minor_formatter(NullFormatter())
+    else:
+        ax.set_ylim(0.0, 1.08 * hi if hi > 0 else 1.0)
+    ax.set_xlim(ghz[0], ghz[-1])
+    top = max(m.fc for m in modes)
+    ax.set_xlabel("frequency (GHz)" + (f"\n(no modes computed above {top / 1e9:.4g} GHz: others may propagate there)"
+                                       if fs[-1] > top else ""))
+    ax.set_ylabel("attenuation (dB/m)")
+    ax.grid(True, which="major", color="#d9dcdf", lw=0.6)
+    ax.set_axisbelow(True)
+    for side in ("right", "top"):
+        ax.spines[side].set_visible(False)
+    ax.tick_params(labelsize=9)
+    section = getattr(modeset, "section", None)
+    name = section.describe() if section is not None else "external mesh"
+    sub = _walls_note(conductivity, roughness, tan_delta, conductor)
+    import textwrap
+    fig.suptitle("Attenuation against frequency", fontsize=11)
+    wrap = 75 if len(curves) <= 3 else 58          # the legend outside takes part of the width
+    ax.set_title("\n".join(textwrap.wrap(_unbreakable_units(name), wrap) + textwrap.wrap(sub, wrap)), fontsize=8.5,
+                 color=st["text"])
+    if len(curves) <= 3:
+        leg = ax.legend(title="mode", loc="best", frameon=True, framealpha=0.9, edgecolor="#d9dcdf", fontsize=8.5,
+                        title_fontsize=9)
+    else:
+        leg = ax.legend(title="mode", loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, fontsize=8.5,
+                        title_fontsize=9)
+    leg.set_gid("legend")
+    if path is not None:
+        _save(fig, path, dpi=dpi)
+    return fig
+
+
+# ----------------------------------------------------------------------------- band chart
+
+def band_chart(modeset, path=None, *, band=None, frequency=None, f_max=None, dpi=200):
+    """Chart of where each mode propagates and of the bands of the guide; returns the Figure
+    (saved to ``path`` if given).
+
+    What is plotted, on one frequency axis (GHz): a row per distinct cutoff (degenerate groups
+    once) with a bar from the cutoff onwards, coloured by family -- the mode propagates where its bar
+    is; then a row with the single-mode band (lowest cutoff to the next distinct one; from 0 Hz with
+    a TEM mode), a row with the recommended operating band 1.25 fc1 .. 0.95 fc2 (a rule of thumb,
+    common practice; :func:`femodes.quantities.band`) and, if ``band`` = (f1, f2) in Hz is given, a
+    row with that analysis band.  ``frequency`` (Hz) is drawn as a vertical line across every row.
+    The single-mode band is also tinted behind all rows.  ``f_max`` (Hz) ends the axis (default:
+    past the next cutoff and the analysis band, at most a little above the highest cutoff computed).
+    """
+    from . import quantities as Q
+
+    st = _style()
+    if len(modeset) == 0:
+        raise FemodesError("the mode set is empty: nothing to chart")
+    groups = _groups(modeset)
+    top = max(max(q.fc for q in g) for g in groups)
+    if band is not None:
+        try:
+            b1, b2 = (float(v) for v in band)
+        except (TypeError, ValueError):
+            raise FemodesError(f"band must be a pair (f1, f2) of frequencies in Hz, got {band!r}") from None
+        if not (0 < b1 < b2 and math.isfinite(b2)):
+            raise FemodesError(f"band must be (f1, f2) with 0 < f1 < f2 (Hz), got {band!r}")
+    if frequency is not None:
+        try:
+            frequency = float(frequency)
+        except (TypeError, ValueError):
+            raise FemodesError(f"frequency must be a number in Hz, got {frequency!r}") from None
+        if not (frequency > 0 and math.isfinite(frequency)):
+            raise FemodesError(f"frequency must be a positive frequency in Hz, got {frequency!r}")
+    try:
+        qb = Q.band(modeset)
+    except (FemodesError, StopIteration):
+        qb = None
+    if f_max is None:
+        f_max = 1.35 * qb.high if qb is not None else 1.1 * top
+        if top > 0:
+            f_max = min(f_max, 1.1 * top)
+        if band is not None:
+            f_max = max(f_max, 1.05 * b2)
+        if frequency is not None:
+            f_max = max(f_max, 1.05 * frequency)
+        if not f_max > 0:
+            f_max = 1e9
+    else:
+        try:
+            f_max = float(f_max)
+        except (TypeError, ValueError):
+            raise FemodesError(f"f_max must be a frequency in Hz, got {f_max!r}") from None
+        if not (f_max > 0 and math.isfinite(f_max)):
+            raise FemodesError(f"f_max must be a positive frequency in Hz, got {f_max!r}")
+    X = f_max / 1e9
+    shown = [g for g in groups if min(q.fc for q in g) < f_max]
+    hidden = len(groups) - len(shown)
+
+    rows = []                                                 # (label, kind, lo, hi, colour, text, gid)
+    for g in shown:
+        fams = []
+        for q in g:
+            if q.family not in fams:
+                fams.append(q.family)
+        fc = min(q.fc for q in g)
+        rows.append((_group_text(g), "mode", fc / 1e9, X, st["family"][fams[0]][1],
+                     "no cutoff" if fc == 0 else f"fc {fc / 1e9:.4g} GHz", f"mode-row-{g[0].index}"))
+    bands = []
+    if qb is not None:
+        lo = 0.0 if qb.low == 0 else qb.low
+        ratio = "TEM from DC" if not math.isfinite(qb.ratio) else f"{qb.ratio:.3g}:1"
+        bands.append(("single-mode band", "band", lo / 1e9, qb.high / 1e9, st["band"],
+                      f"{lo / 1e9:.4g} – {qb.high / 1e9:.4g} GHz ({ratio})", "single-mode-band"))
+        if qb.recommended is not None:
+            r1, r2 = qb.recommended
+            bands.append(("recommended (rule of\nthumb 1.25 fc1 – 0.95 fc2)", "band", r1 / 1e9, r2 / 1e9, "#bcd8b4",
+                          f"{r1 / 1e9:.4g} – {r2 / 1e9:.4g} GHz", "recommended-band"))
+    if band is not None:
+        bands.append(("analysis band", "band", b1 / 1e9, b2 / 1e9, "#c6d3e6",
+                      f"{b1 / 1e9:.4g} – {b2 / 1e9:.4g} GHz", "analysis-band"))
+
+    n = len(rows) + len(bands)
+    fig = _new_figure(8.0, 1.3 + 0.36 * n + (0.3 if bands else 0.0))
+    ax = fig.add_subplot(1, 1, 1)
+    ys, labels = [], []
+    y = 0.0
+    placed = []
+    for r in rows + [None] + bands:
+        if r is None:
+            y -= 0.5 if bands else 0.0
+            continue
+        placed.append((y, r))
+        ys.append(y)
+        labels.append(r[0])
+        y -= 1.0
+    if qb is not None:
+        ax.axvspan(qb.low / 1e9, min(qb.high, f_max) / 1e9, color=st["band"], alpha=0.35, lw=0, zorder=0,
+                   gid="single-mode-tint")
+    ax.set_xlim(0.0, X)
+    top_y = max(ys) + (1.0 if frequency is not None else 0.6)
+    ax.set_ylim(min(ys) - 0.6, top_y)
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    per_px = X / max(ax.get_window_extent(renderer).width, 1.0)
+    for y, (_, kind, lo, hi, colour, text, gid) in placed:
+        hi_c = min(hi, X)
+        h = 0.5 if kind == "mode" else 0.62
+        bar = ax.barh(y, hi_c - lo, left=lo, height=h, color=colour,
+                      edgecolor=st["band_edge"] if kind == "band" else "none", lw=0.6, zorder=2)
+        bar.patches[0].set_gid(gid)
+        probe = ax.text(0, 0, text, fontsize=8)
+        tw = probe.get_window_extent(renderer).width * per_px
+        probe.remove()
+        pad = 6 * per_px
+        if tw + 2 * pad <= hi_c - lo:              # fits inside the bar
+            if kind == "mode":
+                tx, ha = lo + pad, "left"
+            else:
+                tx, ha = 0.5 * (lo + hi_c), "center"
+            colour_t, box = ("white" if kind == "mode" else st["text"]), colour
+        elif hi_c + pad + tw <= X:                  # to the right of the bar
+            tx, ha, colour_t, box = hi_c + pad, "left", st["text"], "white"
+        else:                                       # to the left of the bar
+            tx, ha, colour_t, box = lo - pad, "right", st["text"], "white"
+        ax.text(tx, y, text, va="center", ha=ha, fontsize=8, color=colour_t, zorder=6, gid=f"{gid}-text",
+                bbox=dict(boxstyle="square,pad=0.15", fc=box, ec="none"))
+    if frequency is not None and frequency <= f_max:
+        fx = frequency / 1e9
+        ax.axvline(fx, color="#16202a", lw=1.1, ls=(0, (5, 2)), zorder=5, gid="analysis-frequency")
+        ax.text(fx + 4 * per_px, top_y - 0.2, f"analysis frequency {fx:.4g} GHz", ha="left", va="center",
+                fontsize=8, color="#16202a", gid="analysis-frequency-text", zorder=6,
+                bbox=dict(boxstyle="square,pad=0.15", fc="white", ec="none", alpha=0.8))
+    ax.set_yticks(ys)
+    ax.set_yticklabels(labels, fontsize=8)
+    ax.tick_params(axis="y", length=0)
+    ax.tick_params(axis="x", labelsize=9)
+    for side in ("left", "right", "top"):
+        ax.spines[side].set_visible(False)
+    ax.grid(axis="x", color="#d9dcdf", lw=0.6, zorder=-1)
+    ax.set_axisbelow(True)
+    more = f"  ({hidden} more cutoff{'s' if hidden > 1 else ''} above {X:.4g} GHz not shown)" if hidden else ""
+    beyond = f"  (no modes computed above {top / 1e9:.4g} GHz)" if f_max > top and top > 0 else ""
+    ax.set_xlabel("frequency (GHz)" + more + beyond, fontsize=9)
+    section = getattr(modeset, "section", None)
+    name = section.describe() if section is not None else "external mesh"
+    import textwrap
+    fig.suptitle("Where each mode propagates, and the bands of the guide", fontsize=11)
+    ax.set_title("\n".join(textwrap.wrap(_unbreakable_units(name), 75)), fontsize=8.5, color=st["text"])
     if path is not None:
         _save(fig, path, dpi=dpi)
     return fig

@@ -925,6 +925,7 @@ def _mesh_reentrant_corners(basis, min_excess=math.radians(20)):
     mesh = basis.mesh
     mapping = basis.mapping
     facets, tind, A, B = _wall_edges(mesh)
+    fv = mesh.facets[:, facets]
     X = A[:, :, None] + (B - A)[:, :, None] * np.array([0.0, 1.0])[None, None, :]
     DF = mapping.DF(X, tind=tind)
     d = B - A

@@ -298,3 +298,117 @@ def test_shapes_help_lists_the_table():
             assert key.name in text
     for u in UNITS:
         assert u in text
+
+
+# ----------------------------------------------------------------------------- [analysis]
+
+from femodes.case import FREQUENCY_UNITS, AnalysisSettings  # noqa: E402
+from femodes.quantities import METALS  # noqa: E402
+
+GUIDE = '[guide]\nshape = "rectangle"\nwidth = 22.86\nheight = 10.16\n'
+
+
+def test_analysis_defaults(tmp_path):
+    case = load_text(tmp_path, GUIDE + '[analysis]\nfrequency = 10\n')
+    an = case.analysis
+    assert isinstance(an, AnalysisSettings)
+    # GHz by default: 10 GHz = 1e10 Hz (SI prefix)
+    assert close(an.frequency, 10e9) and an.band is None and an.table_frequency == an.frequency
+    # defaults: copper (IACS 5.8e7 S/m, from memory), smooth walls, lossless fill, 3 MV/m (dry air
+    # at sea level, common practice), safety factor 2 (a choice), PV first
+    assert (an.conductor, an.conductivity, an.roughness, an.tan_delta) == ("copper", 5.8e7, 0.0, 0.0)
+    assert (an.breakdown_field, an.safety_factor, an.impedance, an.points) == (3e6, 2.0, "PV", 41)
+    assert an.frequency_role == "given"
+    assert case.solve == {} and case.tan_delta == 0.0
+    assert load_text(tmp_path, GUIDE).analysis is None
+
+
+@pytest.mark.parametrize("units, value, hertz", [
+    ("Hz", 1.0e10, 1e10), ("kHz", 1.0e7, 1e10), ("MHz", 10000, 1e10), ("GHz", 10, 1e10),  # SI prefixes
+])
+def test_analysis_frequency_units(tmp_path, units, value, hertz):
+    case = load_text(tmp_path, GUIDE + f'[analysis]\nfrequency = {value}\nfrequency_units = "{units}"\n')
+    assert close(case.analysis.frequency, hertz)
+    assert FREQUENCY_UNITS == {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6, "GHz": 1e9}
+
+
+def test_analysis_all_keys(tmp_path):
+    case = load_text(tmp_path, GUIDE + '''[fill]
+tan_delta = 2e-4
+[analysis]
+band = [8200, 12400]
+frequency_units = "MHz"
+points = 5
+conductor = "Aluminum"
+roughness_um = 0.8
+breakdown_field = 1.5e6
+safety_factor = 4
+impedance = "pi"
+''')
+    an = case.analysis
+    assert an.band == pytest.approx((8.2e9, 12.4e9), rel=1e-12) and an.points == 5
+    # no frequency: the table is at the band centre (8.2 + 12.4) / 2 = 10.3 GHz
+    assert an.frequency is None and close(an.table_frequency, 10.3e9) and an.frequency_role == "band centre"
+    assert an.conductor == "aluminium" and an.conductivity == METALS["aluminium"]
+    assert close(an.roughness, 0.8e-6)                      # micrometres -> metres
+    assert an.tan_delta == 2e-4 and case.tan_delta == 2e-4
+    assert "tan_delta" not in case.solve                   # the modes are solved lossless
+    assert (an.breakdown_field, an.safety_factor, an.impedance) == (1.5e6, 4.0, "PI")
+    s = load_text(tmp_path, GUIDE + '[analysis]\nfrequency = 9\nconductor = 3.5e7\n').analysis
+    assert s.conductor is None and s.conductivity == 3.5e7 and "3.5e+07 S/m" in s.conductor_text
+
+
+@pytest.mark.parametrize("body, words", [
+    ('[analysis]\nfrequncy = 10\n', ["unknown key 'frequncy' in [analysis]", "did you mean 'frequency'?"]),
+    ('[analysis]\nfrequency = 10\ntan_delta = 1e-4\n', ["'tan_delta' does not belong in [analysis]", "[fill]"]),
+    ('[analysis]\nfrequency = 10\nroughness = 1\n', ["roughness_um (micrometres)"]),
+    ('[analysis]\nconductor = "copper"\n', ["needs frequency = F or band = [F1, F2]"]),
+    ('[analysis]\nfrequency = -3\n', ["frequency in [analysis] must be a positive frequency in GHz", "-3"]),
+    ('[analysis]\nfrequency = "10 GHz"\n', ["frequency in [analysis]", '"10 GHz"', "without quotes"]),
+    ('[analysis]\nband = [12.4, 8.2]\n', ["0 < f1 < f2", "12.4"]),
+    ('[analysis]\nband = [8.2, 10, 12.4]\n', ["pair [f1, f2]", "e.g. [8.2, 12.4]"]),
+    ('[analysis]\nfrequency = 10\npoints = 5\n', ["points in [analysis]", "needs band"]),
+    ('[analysis]\nband = [8, 12]\npoints = 1\n', ["whole number from 2 to 2001", "1"]),
+    ('[analysis]\nfrequency = 10\nfrequency_units = "ghz"\n', ["Hz, kHz, MHz, GHz", "did you mean 'GHz'?"]),
+    ('[analysis]\nfrequency = 10\nconductor = "copperr"\n', ["unknown metal 'copperr'", "did you mean 'copper'?",
+                                                             "S/m"]),
+    ('[analysis]\nfrequency = 10\nconductor = -5\n', ["positive conductivity in S/m"]),
+    ('[analysis]\nfrequency = 10\nroughness_um = -1\n', ["roughness_um", ">= 0"]),
+    ('[analysis]\nfrequency = 10\nbreakdown_field = 0\n', ["breakdown_field", "positive field strength in V/m"]),
+    ('[analysis]\nfrequency = 10\nsafety_factor = 0.5\n', ["safety_factor", ">= 1", "0.5"]),
+    ('[analysis]\nfrequency = 10\nimpedance = "ZZ"\n', ["'PV', 'PI', 'VI'", '"ZZ"']),
+    ('[fill]\ntan_delta = 1.5\n', ["tan_delta in [fill]", "0 <= tan_delta < 1", "1.5"]),
+    ('[analysis]\nfrequency = 10\n[output]\nfigures = ["attenuation"]\n', ["'attenuation' needs a band"]),
+])
+def test_analysis_errors_say_what_and_what_is_valid(tmp_path, body, words):
+    msg = error_of(tmp_path, GUIDE + body)
+    for w in words:
+        assert w in msg, (w, msg)
+    assert "analysis must be a table [analysis]" in error_of(tmp_path, "analysis = 3\n" + GUIDE)
+
+
+def test_analysis_overrides(tmp_path):
+    case = load_text(tmp_path, GUIDE + '[fill]\ntan_delta = 1e-4\n')
+    assert case.analysis is None
+    c1 = case.with_options(frequency="9.5")
+    assert close(c1.analysis.frequency, 9.5e9) and c1.analysis.tan_delta == 1e-4   # [fill] loss carried over
+    c2 = c1.with_options(band=["8", "12"])
+    # a new band moves the table to its centre, (8 + 12) / 2 = 10 GHz, unless --frequency is given too
+    assert c2.analysis.band == (8e9, 12e9) and c2.analysis.frequency is None and close(c2.analysis.table_frequency, 10e9)
+    c3 = c1.with_options(band=["8", "12"], frequency="11")
+    assert close(c3.analysis.table_frequency, 11e9)
+    c4 = c3.with_options(conductor="2.56e7")
+    assert c4.analysis.conductor is None and c4.analysis.conductivity == 2.56e7
+    assert c3.with_options(conductor="brass").analysis.conductivity == METALS["brass"]
+    # figures from the command line: every kind that applies (attenuation only with a band)
+    assert c3.with_options(figures_dir="f").output.figures == ("fields", "chart", "attenuation", "band")
+    assert c1.with_options(figures_dir="f").output.figures == ("fields", "chart", "band")
+    assert case.with_options(figures_dir="f").output.figures == ("fields", "chart")
+    with pytest.raises(FemodesError, match="--conductor needs a frequency"):
+        case.with_options(conductor="copper")
+    with pytest.raises(FemodesError, match=r"--band must be \[f1, f2\] with 0 < f1 < f2"):
+        case.with_options(band=["12", "8"])
+    with pytest.raises(FemodesError, match="--frequency must be a frequency in GHz"):
+        case.with_options(frequency="high")
+    with pytest.raises(FemodesError, match="--frequency must be a positive frequency"):
+        case.with_options(frequency="0")

@@ -8,6 +8,7 @@ TE10 6.557140 GHz, TE20 13.114281 GHz.
 import csv
 import importlib.util
 import json
+import math
 import os
 import subprocess
 import sys
@@ -134,6 +135,28 @@ def test_bundled_example_meets_its_goal(capsys):
     assert 1.6e9 <= band["f_low"] <= 2.0e9
     assert band["ratio"] >= 3.0
     assert doc["section"]["kind"] == "double_ridge"
+    # its [analysis]: 2 - 9 GHz, copper, quantities at the centre 5.5 GHz
+    an = doc["analysis"]
+    assert an["frequency"] == 5.5e9 and an["walls"]["conductor"] == "copper"
+    te1 = an["modes"][0]
+    assert te1["propagates"] and not any(m["propagates"] for m in an["modes"][1:])
+    # a double-ridge guide with a narrow gap has a low impedance, tens of ohms (common practice, from
+    # memory); the empty 34 x 16 mm rectangle's Z_PV = 2 (b/a) Z_TE would be about 490 ohm here
+    assert 20 < te1["impedances"]["PV"] < 100
+    a, b, f = 34e-3, 16e-3, 5.5e9
+    k = 2 * math.pi * f / C0
+    beta = math.sqrt(k ** 2 - (math.pi / a) ** 2)
+    z_te = k * ETA0 / beta                                  # Pozar sec. 3.1
+    rs = math.sqrt(2 * math.pi * f * MU0 / (2 * 5.8e7))    # R_s, Pozar sec. 1.7
+    alpha_rect = rs * (2 * b * math.pi ** 2 + a ** 3 * k ** 2) / (a ** 3 * b * beta * k * ETA0)   # eq. 3.96
+    p_rect = 3e6 ** 2 * a * b / (4 * z_te) / 2              # Pozar sec. 3.3, safety factor 2
+    # the ridges concentrate the field in the gap: more loss, much less power than the empty rectangle
+    assert te1["attenuation_np_per_m"]["total"] > 2 * alpha_rect
+    assert te1["power_handling"]["rated_power"] < 0.1 * p_rect
+    # the peak sits at the rounded edge of a ridge face: |y| within the gap / 2 + the 0.2 mm corner radius
+    x, y = te1["power_handling"]["peak_location"]
+    assert 3.5e-3 < abs(x) < 4.01e-3 and 0.7e-3 < abs(y) < 0.96e-3
+    assert an["cautions"] and an["band"]["sweep"]["points"] == 36
 
 
 def test_degenerate_fundamental_counts_once_in_the_band(capsys, tmp_path):
@@ -176,6 +199,14 @@ def bad_case(tmp_path, text):
     (lambda t, w: ["solve"], "CASE.toml"),
     (lambda t, w: ["frobnicate"], "invalid choice: 'frobnicate'"),
     (lambda t, w: [], "choose a command"),
+    (lambda t, w: ["solve", w, "--conductor", "copper"], "--conductor needs a frequency"),
+    (lambda t, w: ["solve", w, "--frequency", "0"], "--frequency must be a positive frequency in GHz"),
+    (lambda t, w: ["solve", w, "--band", "12", "8"], "--band must be [f1, f2] with 0 < f1 < f2"),
+    (lambda t, w: ["solve", w, "--band", "8"], "expected 2 arguments"),
+    (lambda t, w: ["solve", w, "--frequency", "10", "--conductor", "unobtainium"], "unknown metal 'unobtainium'"),
+    # WR-90 with 4 modes: the highest computed cutoff is TE11 at 16.16 GHz (Pozar sec. 3.3)
+    (lambda t, w: ["solve", w, "--frequency", "30"], "solve for more modes"),
+    (lambda t, w: ["solve", bad_case(t, WR90 + "[analysis]\nfrequency = 10\nsafety_factor = 0\n")], "safety_factor"),
 ])
 def test_errors_exit_2_with_one_line(capsys, tmp_path, wr90, make_argv, expect):
     code, out, err = run(capsys, *make_argv(tmp_path, wr90))
@@ -238,5 +269,153 @@ def test_shapes_lists_the_loader_table(capsys):
 def test_help(capsys):
     code, out, _ = run(capsys, "solve", "--help")
     assert code == 0
-    for opt in ("--json", "--figures", "--format", "--modes", "--accuracy", "--csv"):
+    for opt in ("--json", "--figures", "--format", "--modes", "--accuracy", "--csv", "--frequency", "--band",
+                "--conductor"):
         assert opt in out
+
+
+# ----------------------------------------------------------------------------- engineering quantities
+
+MU0 = 1.25663706212e-6  # H/m (CODATA 2018)
+ETA0 = MU0 * C0         # ohm, sqrt(mu0 / eps0) = mu0 c = 376.730 ohm
+B_WR90 = 10.16e-3     # m, EIA WR-90 inner height
+NP_TO_DB = 8.685889638065037  # 20 / ln 10 dB per neper (definition)
+CAUTION_WORDS = ("pressure", "humidity", "pulse length", "surface finish", "contamination", "multipaction",
+                 "hazardous to people", "local codes, standards and licensed practice")
+
+
+def wr90_closed_forms(f, sigma=5.8e7):
+    """TE10 of copper WR-90 at f (Hz): beta, Z_TE (Pozar sec. 3.1), alpha_c (Pozar eq. 3.96), and the
+    power at a 3 MV/m peak field E_bd^2 a b / (4 Z_TE) (Pozar sec. 3.3; 3 MV/m dry air, common practice)."""
+    a, b = A_WR90, B_WR90
+    k = 2 * math.pi * f / C0
+    beta = math.sqrt(k ** 2 - (math.pi / a) ** 2)
+    z = k * ETA0 / beta
+    rs = math.sqrt(2 * math.pi * f * MU0 / (2 * sigma))  # R_s, Pozar sec. 1.7
+    alpha = rs * (2 * b * math.pi ** 2 + a ** 3 * k ** 2) / (a ** 3 * b * beta * k * ETA0)
+    return beta, z, alpha, 3e6 ** 2 * a * b / (4 * z)
+
+
+@pytest.fixture
+def wr90_analysis(tmp_path):
+    path = tmp_path / "wr90a.toml"
+    path.write_text(WR90 + "[analysis]\nfrequency = 10\nconductor = \"copper\"\n", encoding="utf-8")
+    return str(path)
+
+
+def test_table_prints_the_quantities_and_the_cautions(capsys, wr90_analysis):
+    code, out, err = run(capsys, "solve", wr90_analysis)
+    assert code == 0, err
+    lines = out.splitlines()
+    beta, z, alpha, p_bd = wr90_closed_forms(10e9)
+    assert "at f = 10 GHz (as asked)" in out and "walls: copper (5.8e+07 S/m), smooth; fill: lossless" in out
+    i = lines.index("propagating at 10 GHz:")
+    row = lines[i + 3].split()
+    assert row[:2] == ["1", "TE10"]
+    assert float(row[2]) == pytest.approx(beta, rel=1e-4)                       # beta [rad/m]
+    assert float(row[3]) == pytest.approx(2e3 * math.pi / beta, rel=1e-4)  # guide wl [mm]
+    assert float(row[6]) == pytest.approx(z, rel=1e-4)                          # Z_wave [ohm]
+    assert float(row[9]) == pytest.approx(alpha * NP_TO_DB, rel=1e-3)           # loss [dB/m], 4 digits
+    # Z_PV = 2 (b/a) Z_TE for TE10 (power-voltage definition on Pozar's fields, see test_quantities)
+    zline = next(line for line in lines if line.startswith("impedance of TE10"))
+    assert float(zline.split("Z_PV = ")[1].split()[0]) == pytest.approx(2 * B_WR90 / A_WR90 * z, rel=1e-4)
+    j = next(k for k, line in enumerate(lines) if line.startswith("power handling at 10 GHz"))
+    prow = next(line for line in lines[j:] if line.startswith("1  TE10")).split()
+    assert prow[-1] == "kW" and float(prow[-2]) == pytest.approx(p_bd / 2 / 1e3, rel=1e-3)  # rated = / 2
+    # TE20 is evanescent at 10 GHz: decay sqrt(kc^2 - k^2) with kc = 2 pi / a (Pozar sec. 3.1)
+    decay = math.sqrt((2 * math.pi / A_WR90) ** 2 - (2 * math.pi * 10e9 / C0) ** 2) * NP_TO_DB
+    erow = next(line for line in lines if line.startswith("2  TE20") and len(line.split()) == 4).split()
+    assert float(erow[3]) == pytest.approx(decay, rel=1e-4)
+    assert any(line.startswith("recommended operating band: 8.1964 - 12.459 GHz (rule of thumb") for line in lines)
+    # the cautions: a block after the numbers, every point present
+    c = lines.index("cautions (power handling):")
+    assert c > j
+    block = " ".join(line.strip() for line in lines[c:])
+    for w in CAUTION_WORDS:
+        assert w in block, w
+
+
+def test_json_analysis_against_closed_forms(capsys, tmp_path):
+    path = tmp_path / "wr90b.toml"
+    path.write_text(WR90 + "[analysis]\nband = [8.2, 12.4]\npoints = 3\nfrequency = 10\n", encoding="utf-8")
+    code, out, err = run(capsys, "solve", str(path), "--json")
+    assert code == 0, err
+    doc = strict_json(out)
+    an = doc["analysis"]
+    assert an["frequency"] == 10e9 and an["frequency_role"] == "given"
+    beta, z, alpha, p_bd = wr90_closed_forms(10e9)
+    te10 = an["modes"][0]
+    assert te10["label"] == "TE10" and te10["propagates"] is True
+    # WR-90 TE10 copper loss: Pozar eq. 3.96, to 1e-4
+    assert te10["attenuation_np_per_m"]["conductor"] == pytest.approx(alpha, rel=1e-4)
+    assert te10["attenuation_db_per_m"]["total"] == pytest.approx(alpha * NP_TO_DB, rel=1e-4)
+    assert te10["beta"] == pytest.approx(beta, rel=1e-5)
+    assert te10["wave_impedance"]["real"] == pytest.approx(z, rel=1e-5)
+    assert set(te10["impedances"]) == {"PV", "PI", "VI"}
+    ph = te10["power_handling"]
+    # rated power = E_bd^2 a b / (4 Z_TE) / safety factor 2 (Pozar sec. 3.3)
+    assert ph["rated_power"] == pytest.approx(p_bd / 2, rel=1e-3)
+    assert ph["safety_factor"] == 2.0 and ph["breakdown_field"] == 3e6 and ph["warnings"] == []
+    assert abs(ph["peak_location"][0]) < 0.01 * A_WR90          # on the centre line x = 0 (sin(pi x'/a))
+    sweep = an["band"]["sweep"]
+    assert sweep["frequencies"] == [8.2e9, 10.3e9, 12.4e9]
+    att = sweep["modes"][0]["attenuation_np_per_m"]
+    assert att == pytest.approx([wr90_closed_forms(f)[2] for f in (8.2e9, 10.3e9, 12.4e9)], rel=1e-4)
+    assert sweep["modes"][0]["rated_power_min"] == pytest.approx(wr90_closed_forms(8.2e9)[3] / 2, rel=1e-3)
+    assert an["band"]["single_mode"]["ratio"] == pytest.approx(2.0, rel=1e-5)   # TE20 / TE10 (Pozar sec. 3.3)
+    text = " ".join(an["cautions"])
+    for w in CAUTION_WORDS:
+        assert w in text, w
+    # evanescent modes: decay constant, no loss, no power
+    te20 = an["modes"][1]
+    assert te20["propagates"] is False and te20["alpha"] > 0 and te20["power_handling"] is None
+    # the "modes" list keeps its keys (the analysis is an extra object)
+    assert [m["label"] for m in doc["modes"]] == ["TE10", "TE20", "TE01", "TE11"]
+    assert "attenuation_db_per_m" not in doc["modes"][0]
+
+
+def test_command_line_overrides_the_analysis(capsys, wr90_analysis):
+    code, out, err = run(capsys, "solve", wr90_analysis, "--json", "--band", "8", "12", "--conductor", "brass")
+    assert code == 0, err
+    an = strict_json(out)["analysis"]
+    assert an["frequency"] == 10e9 and an["frequency_role"] == "band centre"    # (8 + 12) / 2
+    assert an["band"]["sweep"]["f_low"] == 8e9 and an["band"]["sweep"]["points"] == 41
+    assert an["walls"]["conductor"] == "brass"
+    # alpha_c ~ R_s ~ 1 / sqrt(sigma) (Pozar sec. 1.7): brass loses sqrt(5.8e7 / 2.56e7) times more than copper
+    alpha_cu = wr90_closed_forms(10e9)[2]
+    got = an["modes"][0]["attenuation_np_per_m"]["conductor"]
+    assert got == pytest.approx(alpha_cu * (5.8e7 / an["walls"]["conductivity"]) ** 0.5, rel=1e-4)
+    code, out, err = run(capsys, "solve", wr90_analysis, "--json", "--frequency", "9", "--conductor", "4.1e7")
+    an = strict_json(out)["analysis"]
+    assert an["frequency"] == 9e9 and an["walls"]["conductor"] is None and an["walls"]["conductivity"] == 4.1e7
+
+
+def test_analysis_figures_are_written(capsys, tmp_path):
+    path = tmp_path / "wr90c.toml"
+    path.write_text(WR90 + "[analysis]\nband = [8.2, 12.4]\npoints = 8\n", encoding="utf-8")
+    figdir = tmp_path / "figs"
+    code, out, err = run(capsys, "solve", str(path), "--figures", str(figdir), "--format", "svg", "--modes", "2",
+                         "--accuracy", "1e-4")
+    assert code == 0, err
+    listed = [Path(line[len("wrote "):]) for line in out.splitlines() if line.startswith("wrote ")]
+    # 2 field patterns, the mode chart, attenuation against frequency, the band chart
+    assert [p.name for p in listed[2:]] == ["mode_chart.svg", "attenuation.svg", "band_chart.svg"]
+    for p in listed:
+        assert p.is_file() and p.read_text(encoding="utf-8").rstrip().endswith("</svg>")
+
+
+
+def test_bundled_example_prints_band_impedance_loss_power_and_cautions(capsys):
+    code, out, err = run(capsys, "solve", str(EXAMPLE), "--no-figures", "--accuracy", "1e-4", "--modes", "3")
+    assert code == 0, err
+    lines = out.splitlines()
+    assert "at f = 5.5 GHz (centre of the analysis band 2 - 9 GHz)" in out
+    assert any(line.startswith("impedance of TE1 (x odd, y even) (#1): Z_PV = ") for line in lines)
+    assert any(line.startswith("1  TE1 (x odd, y even)") and line.endswith("kW") for line in lines)
+    assert any(line.startswith("recommended operating band: ") and "rule of thumb" in line for line in lines)
+    assert any(line.startswith("analysis band: 2 - 9 GHz, 36 points") for line in lines)
+    assert any("loss" in line and "dB/m (at 2 GHz)" in line for line in lines)
+    c = lines.index("cautions (power handling):")
+    block = " ".join(line.strip() for line in lines[c:])
+    for w in CAUTION_WORDS:
+        assert w in block, w

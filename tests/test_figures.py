@@ -457,3 +457,120 @@ def test_mode_chart_labels_do_not_overlap():
         assert frame.x0 - 1 <= b.x0 and b.x1 <= frame.x1 + 1
         for c in boxes[i + 1:]:
             assert not b.overlaps(c)
+
+
+# ----------------------------------------------------------------------------- attenuation and band charts
+
+MU0 = femodes.MU0
+ETA0 = MU0 * C0
+
+
+def wr90_te10_loss_db(f, sigma=5.8e7):
+    # alpha_c = R_s (2 b pi^2 + a^3 k^2) / (a^3 b beta k eta), R_s = sqrt(omega mu0 / 2 sigma):
+    # Pozar, 4th ed., eq. 3.96 and sec. 1.7; x 20 / ln 10 dB per neper
+    a, b = A_WR90, B_WR90
+    k = 2 * np.pi * f / C0
+    beta = np.sqrt(k ** 2 - (np.pi / a) ** 2)
+    rs = np.sqrt(2 * np.pi * f * MU0 / (2 * sigma))
+    return rs * (2 * b * np.pi ** 2 + a ** 3 * k ** 2) / (a ** 3 * b * beta * k * ETA0) * 20 / math.log(10)
+
+
+def test_attenuation_chart_wr90(rect, tmp_path):
+    fs = np.linspace(7e9, 14e9, 15)
+    path = tmp_path / "att.png"
+    fig = F.attenuation_chart(rect, fs, conductivity="copper", path=path)
+    assert_png(path, 8.0, 4.2)
+    ax = fig.axes[0]
+    te10 = by_gid(ax, "attenuation-0")
+    x, y = np.asarray(te10.get_xdata()), np.asarray(te10.get_ydata())
+    np.testing.assert_allclose(x, fs / 1e9)
+    assert np.all(np.isfinite(y))                            # TE10 (6.557 GHz) propagates at every point
+    np.testing.assert_allclose(y, wr90_te10_loss_db(fs), rtol=1e-4)
+    # TE20 cuts off at c / a = 13.114 GHz (Pozar sec. 3.3): drawn above it only, with a cutoff line
+    y20 = np.asarray(by_gid(ax, "attenuation-1").get_ydata(), dtype=float)
+    above = fs > C0 / A_WR90
+    assert np.all(np.isnan(y20[~above])) and np.all(np.isfinite(y20[above])) and np.all(y20[above] > 0)
+    assert by_gid(ax, "cutoff-1").get_xdata()[0] == pytest.approx(C0 / A_WR90 / 1e9, rel=1e-4)
+    # TE01 (14.76 GHz) does not propagate below 14 GHz: no curve
+    assert not any(c.get_gid() == "attenuation-2" for c in ax.get_children())
+    names = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert names[0].startswith("TE10") and names[1].startswith("TE20") and len(names) == 2
+    assert ax.get_ylabel() == "attenuation (dB/m)" and ax.get_xlabel() == "frequency (GHz)"
+    assert "copper walls" in ax.get_title() and "rectangle" in ax.get_title()
+    # the documented rule: a log axis when the values span more than a factor of 30
+    vals = np.concatenate([y, y20[above]])
+    assert ax.get_yscale() == ("log" if vals.max() / vals.min() > 30 else "linear")
+    # just above cutoff the loss is not small against beta: those points are left out
+    near = F.attenuation_chart(rect, np.linspace(7e9, 13.12e9, 30))   # TE20 only 0.05 % above its cutoff
+    assert not any(c.get_gid() == "attenuation-1" for c in near.axes[0].get_children())
+    svg = tmp_path / "att.svg"
+    fig2 = F.attenuation_chart(rect, fs[:8], conductivity=3.5e7, conductor="aluminium", roughness=1e-6, path=svg)
+    assert_svg(svg)
+    assert "aluminium walls" in fig2.axes[0].get_title() and "roughness 1 µm" in fig2.axes[0].get_title()
+    assert fig2.axes[0].get_yscale() == "linear"             # TE10 alone over 7 - 10.5 GHz
+    assert "no modes computed above" in F.attenuation_chart(rect, [8e9, 16e9]).axes[0].get_xlabel()
+
+
+def test_attenuation_chart_coax_log_axis(coax):
+    # the TEM loss grows like sqrt(f) (alpha_c = R_s (1/a + 1/b) / (2 eta ln(b/a)), R_s ~ sqrt(f):
+    # Pozar sec. 2.7): from 10 MHz to 20 GHz a factor sqrt(2000) = 45 > 30, so a logarithmic axis
+    f = np.geomspace(0.01e9, 20e9, 40)
+    fig = F.attenuation_chart(coax, f)
+    ax = fig.axes[0]
+    assert ax.get_yscale() == "log"
+    y = np.asarray(by_gid(ax, "attenuation-0").get_ydata())
+    np.testing.assert_allclose(y / y[0], np.sqrt(f / f[0]), rtol=1e-4)   # alpha_c ~ R_s ~ sqrt(f)
+    assert [t.get_text() for t in ax.get_legend().get_texts()][0] == "TEM  (no cutoff)"
+
+
+def test_attenuation_chart_refuses_bad_input(rect):
+    with pytest.raises(FemodesError, match="no mode propagates"):
+        F.attenuation_chart(rect, [1e9, 2e9])                # below the 6.557 GHz TE10 cutoff
+    with pytest.raises(FemodesError, match="increasing"):
+        F.attenuation_chart(rect, [10e9, 9e9])
+    with pytest.raises(FemodesError, match="unknown metal"):
+        F.attenuation_chart(rect, [8e9, 9e9], conductivity="unobtainium")
+
+
+def bar_span(ax, gid):
+    bb = by_gid(ax, gid).get_bbox()
+    return bb.x0, bb.x1
+
+
+def test_band_chart_wr90(rect, tmp_path):
+    path = tmp_path / "bands.png"
+    fig = F.band_chart(rect, path, band=(8.2e9, 12.4e9), frequency=10e9)
+    assert_png(path)
+    ax = fig.axes[0]
+    fc1, fc2 = C0 / (2 * A_WR90) / 1e9, C0 / A_WR90 / 1e9       # 6.557, 13.114 GHz (Pozar sec. 3.3)
+    assert bar_span(ax, "single-mode-band") == pytest.approx((fc1, fc2), rel=1e-4)
+    # the rule of thumb 1.25 fc1 .. 0.95 fc2 (common practice) = 8.196 .. 12.459 GHz
+    assert bar_span(ax, "recommended-band") == pytest.approx((1.25 * fc1, 0.95 * fc2), rel=1e-4)
+    assert bar_span(ax, "analysis-band") == pytest.approx((8.2, 12.4), rel=1e-12)
+    assert by_gid(ax, "analysis-frequency").get_xdata()[0] == pytest.approx(10.0)
+    # a row per distinct cutoff, its bar starting at the cutoff
+    for m in rect:
+        assert bar_span(ax, f"mode-row-{m.index}")[0] == pytest.approx(m.fc / 1e9, rel=1e-12)
+    labels = [t.get_text() for t in ax.get_yticklabels()]
+    assert labels[:3] == ["TE10", "TE20", "TE01"] and labels[-1] == "analysis band"
+    assert "rule of" in labels[-2]
+    # no text leaves the plot area
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    frame = ax.get_window_extent(r)
+    for t in ax.texts:
+        b = t.get_window_extent(r)
+        assert frame.x0 - 1 <= b.x0 and b.x1 <= frame.x1 + 1, t.get_text()
+
+
+def test_band_chart_coax_from_zero_and_without_analysis(coax, tmp_path):
+    fig = F.band_chart(coax, tmp_path / "b.svg")
+    assert_svg(tmp_path / "b.svg")
+    ax = fig.axes[0]
+    lo, hi = bar_span(ax, "single-mode-band")
+    assert lo == 0.0 and hi == pytest.approx(coax[1].fc / 1e9, rel=1e-12)   # TEM from DC
+    assert "TEM from DC" in by_gid(ax, "single-mode-band-text").get_text()
+    gids = {c.get_gid() for c in ax.get_children()}
+    assert "analysis-band" not in {p.get_gid() for p in ax.patches} and "analysis-frequency" not in gids
+    with pytest.raises(FemodesError, match="0 < f1 < f2"):
+        F.band_chart(coax, band=(5e9, 1e9))

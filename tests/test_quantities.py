@@ -318,3 +318,15 @@ def test_power_handling_cautions_and_corner_warning():
     assert small.peak_field_per_sqrt_watt > 1.5 * ph.peak_field_per_sqrt_watt
     # without the section the corners are found on the mesh
     np.testing.assert_allclose(m.power_handling(4e9).corners, ph.corners, atol=1e-12)
+
+
+def test_reentrant_corners_found_on_a_mesh_file(tmp_path):
+    # an L-shaped guide read from a mesh file has one 270-degree corner, at (1, 1) for
+    # femodes.l_shape(2, 2, 1, 1) (geometry of the section, exact)
+    mesh = fm.mesh_section(fm.l_shape(2.0, 2.0, 1.0, 1.0), 0.5, order=2)
+    path = tmp_path / "l.msh"
+    fm.write_mesh(mesh, path)
+    ms = fm.solve(fm.read_mesh(str(path)), modes=1, accuracy=1e-4)
+    ph = ms[0].power_handling(1.5 * ms[0].fc)
+    assert len(ph.corners) == 1
+    assert np.allclose(ph.corners[0], (1.0, 1.0), atol=1e-9)
