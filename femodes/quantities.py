@@ -81,8 +81,9 @@ CAUTIONS = (
     "Breakdown is not a fixed number: it depends on gas and pressure (altitude), humidity, pulse "
     "length and repetition rate, surface finish, contamination and dust; in vacuum or at low "
     "pressure, multipaction can set in far below the gas-breakdown figure.",
-    "The default breakdown field (3 MV/m) is the usual figure for dry air at sea level (common "
-    "practice); the safety factor is a choice of the user, not a standard.",
+    "3 MV/m, the default breakdown field, is the usual figure for dry air at sea level (common "
+    "practice); any other value given is the user's own, and so is the safety factor: neither is "
+    "a standard.",
     "These are estimates from an ideal, lossless, matched model: mismatch (standing waves), joints, "
     "flanges, bends and heating lower the real limit.",
     "High RF power is hazardous to people (burns, RF exposure): defer to local codes, standards "
