@@ -34,7 +34,6 @@ def lowest_eigenpairs(K, M, k, sigma, tol=0.0):
     negative number works; a shift of the order of the lowest eigenvalue is fastest).
     Returns (lam ascending, X with M-orthonormal columns, residuals ||K x - lam M x|| / ||K x||).
     """
-    import scipy.sparse as sp
     from scipy.sparse.linalg import LinearOperator, eigsh, splu
 
     n = K.shape[0]

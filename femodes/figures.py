@@ -33,7 +33,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import FemodesError
+from .errors import FemodesError, positive_number
 from .modes import _transverse
 
 __all__ = ["field_pattern", "field_patterns", "field_samples", "mode_chart", "attenuation_chart", "band_chart",
@@ -638,12 +638,7 @@ def mode_chart(modeset, path=None, *, f_max=None, dpi=200):
     if f_max is None:
         f_max = 1.1 * top if top > 0 else 1e9
     else:
-        try:
-            f_max = float(f_max)
-        except (TypeError, ValueError):
-            raise FemodesError(f"f_max must be a frequency in Hz, got {f_max!r}") from None
-        if not (f_max > 0 and math.isfinite(f_max)):
-            raise FemodesError(f"f_max must be a positive frequency in Hz, got {f_max!r}")
+        f_max = positive_number("f_max", f_max, "Hz")
     shown = [g for g in groups if min(q.fc for q in g) <= f_max]
     hidden = sum(len(g) for g in groups) - sum(len(g) for g in shown)
     fmax_g = _ghz(f_max)
@@ -947,12 +942,7 @@ def band_chart(modeset, path=None, *, band=None, frequency=None, f_max=None, dpi
         if not f_max > 0:
             f_max = 1e9
     else:
-        try:
-            f_max = float(f_max)
-        except (TypeError, ValueError):
-            raise FemodesError(f"f_max must be a frequency in Hz, got {f_max!r}") from None
-        if not (f_max > 0 and math.isfinite(f_max)):
-            raise FemodesError(f"f_max must be a positive frequency in Hz, got {f_max!r}")
+        f_max = positive_number("f_max", f_max, "Hz")
     X = f_max / 1e9
     shown = [g for g in groups if min(q.fc for q in g) < f_max]
     hidden = len(groups) - len(shown)

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 import os
+from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -150,6 +151,26 @@ def _gmsh():
     return gmsh
 
 
+@contextmanager
+def gmsh_session(name="femodes"):
+    """gmsh, quiet and single-threaded, with a fresh model that is removed afterwards (gmsh is
+    initialised here unless the caller already did)."""
+    gmsh = _gmsh()
+    initialized_here = not gmsh.isInitialized()
+    if initialized_here:
+        gmsh.initialize(readConfigFiles=False, interruptible=False)
+    try:
+        gmsh.option.setNumber("General.Terminal", 0)
+        gmsh.option.setNumber("General.Verbosity", 1)
+        gmsh.option.setNumber("General.NumThreads", 1)
+        gmsh.model.add(name)
+        yield gmsh
+    finally:
+        gmsh.model.remove()
+        if initialized_here:
+            gmsh.finalize()
+
+
 def _add_loop(kernel, loop):
     """Add one closed loop of lines and (elliptic) arcs to a gmsh CAD kernel (``gmsh.model.geo``
     or ``gmsh.model.occ``, which share these calls); arcs are split below pi as gmsh needs.
@@ -244,7 +265,6 @@ def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: floa
     curve_of = _gmsh_arc_curves(gmsh, section)
     for arc, tags in curve_of:
         rc = arc.radius_of_curvature
-        rmax = max(arc.rx, arc.ry)
         d = fld.add("Distance")
         fld.setNumbers(d, "PointsList", [])
         fld.setNumbers(d, "CurvesList", tags)
@@ -306,15 +326,7 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
     """
     if not (h_max > 0):
         raise FemodesError(f"mesh size must be positive, got {h_max!r}")
-    gmsh = _gmsh()
-    initialized_here = not gmsh.isInitialized()
-    if initialized_here:
-        gmsh.initialize(readConfigFiles=False, interruptible=False)
-    try:
-        gmsh.option.setNumber("General.Terminal", 0)
-        gmsh.option.setNumber("General.Verbosity", 1)
-        gmsh.option.setNumber("General.NumThreads", 1)
-        gmsh.model.add("femodes")
+    with gmsh_session() as gmsh:
         if section.materials:
             _build_geometry_occ(gmsh, section)
         else:
@@ -333,10 +345,6 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
         if curved:
             gmsh.model.mesh.setOrder(2)
         mesh = _mesh_from_gmsh(gmsh, curved)
-    finally:
-        gmsh.model.remove()
-        if initialized_here:
-            gmsh.finalize()
     mesh = _attach_curves(mesh, section)
     if section.materials:
         mesh = replace(mesh, regions=_triangle_regions(mesh, section))

@@ -134,27 +134,18 @@ def reference_points_matrix(basis, ref):
     return P, basis.mapping.F(ref)
 
 
-def _locate(basis, pts):
-    """Cell index (-1 if none) and reference coordinates of each point.
-
-    Cells are found with straight-sided barycentric coordinates over the nearest candidates;
-    on curved cells the reference point is then refined by the isoparametric inverse map.
-    A point in the thin sliver between a curved edge and its chord goes to the nearest cell.
-    """
+def locate_straight(p, t, pts, candidates=10, tree=None):
+    """For points (2, n): the triangle of (p, t) that contains each, judged on straight sides
+    among the ``candidates`` nearest centroids.  Returns (cells, reference coordinates (2, n),
+    score): score >= 0 inside, the most negative barycentric coordinate otherwise."""
     from scipy.spatial import cKDTree
 
-    mesh = basis.mesh
-    cache = basis.__dict__.setdefault("_femodes_tree", {})
-    p = mesh.doflocs[:, : mesh.t.max() + 1]
-    v = p[:, mesh.t]  # (2, 3, nt)
-    if "tree" not in cache:
-        cache["tree"] = cKDTree(np.mean(v, axis=1).T)
-    tree = cache["tree"]
-    nt = mesh.t.shape[1]
-    kk = min(10, nt)
+    v = p[:, t]  # (2, 3, nt)
+    tree = cKDTree(np.mean(v, axis=1).T) if tree is None else tree
+    kk = min(candidates, t.shape[1])
     _, cand = tree.query(pts.T, kk)
-    cand = cand.reshape(pts.shape[1], kk)
-    best = -np.inf * np.ones(pts.shape[1])
+    cand = np.asarray(cand).reshape(pts.shape[1], kk)
+    best = np.full(pts.shape[1], -np.inf)
     cells = -np.ones(pts.shape[1], dtype=np.int64)
     ref = np.zeros((2, pts.shape[1]))
     for j in range(kk):
@@ -169,19 +160,35 @@ def _locate(basis, pts):
         best[better] = score[better]
         cells[better] = c[better]
         ref[0, better], ref[1, better] = X[better], Y[better]
+    return cells, ref, best
+
+
+def _locate(basis, pts):
+    """Cell index (-1 if none) and reference coordinates of each point.
+
+    Cells are found with straight-sided barycentric coordinates over the nearest candidates;
+    on curved cells the reference point is then refined by the isoparametric inverse map.
+    A point in the thin sliver between a curved edge and its chord goes to the nearest cell.
+    """
+    from scipy.spatial import cKDTree
+
+    mesh = basis.mesh
+    cache = basis.__dict__.setdefault("_femodes_tree", {})
+    p = mesh.doflocs[:, : mesh.t.max() + 1]
+    if "tree" not in cache:
+        cache["tree"] = cKDTree(np.mean(p[:, mesh.t], axis=1).T)
+    cells, ref, best = locate_straight(p, mesh.t, pts, 10, cache["tree"])
     cells[best < -0.25] = -1
-    if type(mesh).__name__ == "MeshTri2":
+    if type(mesh).__name__ != "MeshTri1":
         ok = np.flatnonzero(cells >= 0)
         if ok.size:
             try:
-                X = basis.mapping.invF(pts[:, ok][:, :, None], tind=cells[ok])[:, :, 0]
-                ref[:, ok] = X
+                ref[:, ok] = basis.mapping.invF(pts[:, ok][:, :, None], tind=cells[ok])[:, :, 0]
             except Exception:  # Newton did not converge somewhere: keep straight-sided coordinates
                 pass
     inside = best >= -1e-9
     # accept sliver points only if the curved map brings them inside the reference triangle
-    r = ref
-    in_ref = (r[0] >= -1e-9) & (r[1] >= -1e-9) & (r[0] + r[1] <= 1 + 1e-9)
+    in_ref = (ref[0] >= -1e-9) & (ref[1] >= -1e-9) & (ref[0] + ref[1] <= 1 + 1e-9)
     cells[~(inside | in_ref)] = -1
     return cells, ref
 

@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import math
 import warnings
-from dataclasses import replace
 
 import numpy as np
 
@@ -28,7 +27,7 @@ from .discretise import ELEMENT_ORDERS, discretise
 from .eigen import lowest_eigenpairs, restrict, single_thread
 from .errors import FemodesError, positive_number
 from .mesh import Mesh, mesh_section
-from .modes import Mode, ModeField, ModeSet
+from .modes import ModeSet
 from .section import Section
 
 __all__ = ["solve", "DEFAULT_ORDER"]

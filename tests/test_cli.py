@@ -6,7 +6,6 @@ TE10 6.557140 GHz, TE20 13.114281 GHz.
 """
 
 import csv
-import importlib.util
 import json
 import math
 import os
@@ -231,8 +230,6 @@ def test_error_in_a_real_process_has_no_traceback(tmp_path):
 
 # ----------------------------------------------------------------------------- figures
 
-@pytest.mark.skipif(importlib.util.find_spec("femodes.figures") is None,
-                    reason="femodes.figures is not written yet")
 def test_figures_are_written_and_listed(capsys, wr90, tmp_path):
     figdir = tmp_path / "figs"
     code, out, err = run(capsys, "solve", wr90, "--figures", str(figdir), "--format", "svg", "--modes", "2",
