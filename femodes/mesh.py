@@ -261,7 +261,7 @@ def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: floa
         fld.setString(f, "F", f"{h_max!r} * Max(F{d} / {L!r}, 1e-7) ^ {e!r}")
         ids.append(f)
     # arcs: concave ones (rounded re-entrant corners, inner conductors) get the corner law
-    # measured from the arc, h = h_max ((d + rc) / L)^e; small convex ones get h <= rc + d / 2
+    # measured from the arc, h = h_max ((d + rc) / L)^e; small convex ones h <= sqrt(rc/L) h_max + d/2
     curve_of = _gmsh_arc_curves(gmsh, section)
     for arc, tags in curve_of:
         rc = arc.radius_of_curvature
@@ -273,8 +273,12 @@ def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: floa
         if _arc_is_concave(arc):
             e = 1.0 - grading * (2.0 / 3.0) / (order + 1)
             fld.setString(f, "F", f"{h_max!r} * ((F{d} + {rc!r}) / {L!r}) ^ {e!r}")
-        elif rc < h_max:
-            fld.setString(f, "F", f"{rc!r} + 0.5 * F{d}")
+        elif rc < 0.1 * L0:
+            # small convex arcs (fillets, the tips of a thin ellipse): h = sqrt(rc / L) h_max at
+            # the arc, growing away from it.  Proportional to h_max, so that refining the mesh
+            # refines here too (a fixed size would freeze this part of the error and fool the
+            # two-mesh error estimate)
+            fld.setString(f, "F", f"{math.sqrt(rc / L0) * h_max!r} + 0.5 * F{d}")
         else:
             continue
         ids.append(f)

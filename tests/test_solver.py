@@ -313,3 +313,17 @@ def test_pair_cut_by_the_mode_count_still_knows_it_is_a_pair():
     modes = fm.solve(fm.circle(1.0), modes=1)
     assert modes[0].label == "TE11" and modes[0].multiplicity == 2
     assert modes[0].symmetry in ({"x": "odd", "y": "even"}, {"x": "even", "y": "odd"})
+
+
+@pytest.mark.parametrize("make, refs, n", [
+    # thin ellipse: tips of radius of curvature b^2/a = a/100 (Mathieu reference, femodes.reference)
+    (lambda: fm.ellipse(1.0, 0.1), lambda n: ref.ellipse_modes(1.0, 0.1, n), 4),
+    # thin and fat coax: Bessel cross-product roots (femodes.reference.coax_modes)
+    (lambda: fm.coaxial(5e-3, 0.1e-3), lambda n: ref.coax_modes(0.1e-3, 5e-3, n), 4),
+    (lambda: fm.coaxial(5e-3, 4.5e-3), lambda n: ref.coax_modes(4.5e-3, 5e-3, n), 4),
+    # a 350-degree sector: strongly singular apex (fractional-order Bessel roots)
+    (lambda: fm.sector(1.0, math.radians(350)), lambda n: ref.sector_modes(1.0, math.radians(350), n), 4),
+])
+def test_estimates_stay_honest_on_awkward_shapes(make, refs, n):
+    modes = fm.solve(make(), modes=n)
+    check_against(modes, refs(n), 1e-6, labels=False)
