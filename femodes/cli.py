@@ -1,6 +1,6 @@
 """The ``femodes`` command-line program: a thin layer over femodes.case and femodes.export.
 
-    femodes solve CASE.toml [--json] [--csv PATH] [--figures DIR | --no-figures] [--format FMT]
+    femodes solve CASE.toml [--json] [--csv PATH] [--fields PATH] [--figures DIR | --no-figures] [--format FMT]
                             [--modes N] [--accuracy X]
                             [--frequency F] [--band F1 F2] [--conductor NAME|S/m]
     femodes shapes
@@ -54,6 +54,8 @@ def _parser():
     s.add_argument("case", metavar="CASE.toml", help="the case file")
     s.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
     s.add_argument("--csv", metavar="PATH", help="also write the modes to a CSV file (SI units)")
+    s.add_argument("--fields", metavar="PATH", help="also write the mesh with every mode's fields (e.g. "
+                   "guide.vtu for ParaView; SI units, normalised)")
     s.add_argument("--figures", metavar="DIR", help="write figures into DIR (turns figures on; overrides "
                    "[output] directory)")
     s.add_argument("--no-figures", action="store_true", help="write no figures, whatever the case file asks")
@@ -110,7 +112,7 @@ def _fail(message):
 def _solve(args):
     from .case import load_case, run_case
     from .export import (analyse, analysis_table, check_figures, modes_document, modes_table, write_csv,
-                         write_figures)
+                         write_fields, write_figures)
 
     case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
                                              fmt=args.format, no_figures=args.no_figures, frequency=args.frequency,
@@ -129,17 +131,19 @@ def _solve(args):
     family = case.solve.get("family")
     analysis = analyse(modeset, case.analysis, family=family) if case.analysis is not None else None
     csv_path = write_csv(modeset, args.csv) if args.csv else None
+    fields_path = write_fields(modeset, args.fields) if args.fields else None
     figures = write_figures(modeset, case.output, analysis)
     if args.json:
         doc = modes_document(modeset, title=case.title, analysis=analysis)
-        doc["files"] = {"csv": csv_path, "figures": figures}
+        doc["files"] = {"csv": csv_path, "fields": fields_path, "figures": figures}
         print(json.dumps(doc, indent=2, allow_nan=False))
         return 0
     sys.stdout.write(modes_table(modeset, title=case.title, family=family))
     if analysis is not None:
         sys.stdout.write("\n" + analysis_table(analysis))
-    if csv_path:
-        print(f"wrote {csv_path}")
+    for p in (csv_path, fields_path):
+        if p:
+            print(f"wrote {p}")
     for p in figures:
         print(f"wrote {p}")
     return 0

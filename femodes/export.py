@@ -281,6 +281,36 @@ def write_csv(modeset, path):
     return str(path)
 
 
+def write_fields(modeset, path):
+    """Write the mesh with each mode's fields as point data through meshio (format from the file
+    name: .vtu for ParaView, .xdmf, .msh, ...).  Per mode, at the mesh vertices (SI units,
+    normalisation of :mod:`femodes.modes`: int psi^2 dA = 1, int |e_t|^2 dA = 1):
+    ``NN_label_psi`` (E_z for TM, H_z for TE, potential for TEM), ``NN_label_E`` (the vector e_t,
+    z component 0) and ``NN_label_absE``.  Returns the path."""
+    import meshio
+
+    from .figures import safe_name
+
+    mesh = modeset.mesh
+    pts = mesh.points
+    data = {}
+    for m in modeset:
+        if m.potential is None:
+            continue
+        key = f"{m.index + 1:02d}_{safe_name(m.label)}"
+        psi = m.longitudinal(pts)
+        ex, ey, _, _ = m.fields(pts)
+        data[key + "_psi"] = np.nan_to_num(psi)
+        data[key + "_E"] = np.nan_to_num(np.column_stack([ex, ey, np.zeros_like(ex)]))
+        data[key + "_absE"] = np.nan_to_num(np.hypot(ex, ey))
+    xyz = np.column_stack([pts[0], pts[1], np.zeros(pts.shape[1])])
+    try:
+        meshio.write(str(path), meshio.Mesh(xyz, [("triangle", mesh.triangles.T)], point_data=data))
+    except Exception as exc:  # meshio raises its own types for unknown formats
+        raise FemodesError(f"cannot write field file {path}: {exc}; use a name ending in .vtu, .xdmf or .msh") from None
+    return str(path)
+
+
 def _write_text(path, text, what):
     try:
         with open(path, "w", encoding="utf-8") as fh:

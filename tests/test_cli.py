@@ -105,7 +105,7 @@ def test_json_document(capsys, wr90):
     # TE10..TE20: ratio 2 exactly in theory (Pozar sec. 3.3)
     assert band["f_low"] == pytest.approx(FC_TE10, rel=1e-6)
     assert band["ratio"] == pytest.approx(2.0, rel=1e-5)
-    assert doc["files"] == {"csv": None, "figures": []}
+    assert doc["files"] == {"csv": None, "fields": None, "figures": []}
 
 
 def test_overrides_and_csv(capsys, wr90, tmp_path):

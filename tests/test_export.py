@@ -220,3 +220,27 @@ def test_voltage_impedances_undefined_when_the_path_voltage_cancels():
     text = analysis_table(an)
     assert "Z_PV = n/a" in text and "(TM modes only" in text
     assert strict(analysis_document(an))["modes"][0]["impedances"]["PV"] is None
+
+
+def test_field_file_round_trip(tmp_path):
+    import meshio
+
+    ms = fm.solve(fm.rectangle(A, B), modes=2, accuracy=1e-5)
+    path = fm.export.write_fields(ms, tmp_path / "wr90.vtu")
+    back = meshio.read(path)
+    psi = back.point_data["01_TE10_psi"]
+    absE = back.point_data["01_TE10_absE"]
+    x = back.points[:, 0]
+    assert np.all(np.isfinite(psi)) and np.all(np.isfinite(absE))
+    # TE10: H_z ~ cos(pi (x + a/2) / a), |E_t| ~ sin(...) (Pozar sec. 3.3), normalised so that
+    # int psi^2 dA = 1: psi = sqrt(2 / (a b)) cos(...)
+    expect = np.sqrt(2 / (A * B)) * np.cos(np.pi * (x + A / 2) / A)
+    sign = np.sign(np.sum(psi * expect))
+    assert np.max(np.abs(sign * psi - expect)) < 1e-3 * np.max(np.abs(expect))
+    assert back.point_data["01_TE10_E"].shape == (len(x), 3)
+
+
+def test_field_file_bad_format(tmp_path):
+    ms = fm.solve(fm.rectangle(A, B), modes=1, accuracy=1e-4)
+    with pytest.raises(FemodesError, match="field file"):
+        fm.export.write_fields(ms, tmp_path / "wr90.nosuchformat")
