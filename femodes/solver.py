@@ -52,7 +52,7 @@ MAX_DOFS = 3_000_000
 
 
 def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, order=None,
-          mesh_size=None, max_iterations=6):
+          mesh_size=None, max_iterations=6, frequency=None, evanescent=False):
     """The ``modes`` lowest-cutoff modes of a homogeneously filled guide.
 
     Parameters
@@ -64,6 +64,9 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     family   : None for all, or 'TE', 'TM' to return one family only
     order    : Lagrange element order 1..4 (default 4: most accuracy per second here)
     mesh_size: fix the fine element size h (m) instead of choosing it from the accuracy
+    frequency, evanescent : for sections with material regions only (see femodes.loaded): the
+               modes of largest beta at ``frequency`` (evanescent ones too if asked); without a
+               frequency such a section gives its lowest cutoffs
 
     Returns a :class:`ModeSet` (a tuple of :class:`Mode`, ascending in cutoff).
     """
@@ -88,9 +91,14 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     if not isinstance(section, Section):
         raise FemodesError(f"solve() needs a section (e.g. femodes.rectangle(...)) or a mesh, got {type(section).__name__}")
     if section.materials:
-        raise FemodesError("this section has material regions (with_material): its modes are hybrid and need "
-                           "the full-vector solver, which solve() does not reach yet; for a guide filled "
-                           "with one material give eps_r and mu_r to solve() instead")
+        from .loaded import solve_loaded
+
+        return solve_loaded(section, n_modes, frequency, eps_r, mu_r, accuracy, order=order,
+                            evanescent=evanescent)
+    if frequency is not None:
+        raise FemodesError("frequency= is for sections with material regions (hybrid modes); a guide "
+                           "filled with one material is solved for its cutoffs: use mode.beta(f) and the "
+                           "other methods of each mode at any frequency")
 
     fams = ("TE", "TM") if family is None else (family,)
     n_tem = len(section.holes) if family is None else 0

@@ -85,9 +85,3 @@ def test_curved_material_interface_nodes_on_the_arc():
     c = m.points[:, m.triangles].mean(axis=1)
     inside = np.hypot(c[0] - 3e-3, c[1]) < 2e-3
     assert np.array_equal(inside, m.regions == 1)
-
-
-def test_scalar_solve_refuses_loaded_sections():
-    s = fm.rectangle(1.0, 0.5).with_material(fm.rectangle(1.0, 0.2).translated(0, -0.15), eps_r=4)
-    with pytest.raises(fm.FemodesError, match="full-vector"):
-        fm.solve(s)
