@@ -9,6 +9,7 @@ from .mesh import Mesh, mesh_section, read_mesh, write_mesh
 from .modes import C0, EPS0, MU0, Mode, ModeSet
 from .section import (Section, circle, coaxial, double_ridge, ellipse, l_shape, polygon, rectangle,
                       rectangular_coax, ridged, sector, single_ridge)
+from .loaded import dispersion
 from .solver import solve
 
 __version__ = "0.1.0"
@@ -16,5 +17,5 @@ __version__ = "0.1.0"
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet",
     "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
-    "rectangular_coax", "ridged", "sector", "single_ridge", "solve", "C0", "EPS0", "MU0",
+    "rectangular_coax", "ridged", "sector", "single_ridge", "solve", "dispersion", "C0", "EPS0", "MU0",
 ]

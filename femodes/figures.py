@@ -1040,3 +1040,55 @@ def band_chart(modeset, path=None, *, band=None, frequency=None, f_max=None, dpi
     if path is not None:
         _save(fig, path, dpi=dpi)
     return fig
+
+
+# ----------------------------------------------------------------------------- dispersion
+
+def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, dpi=200):
+    """beta against frequency for the tracked curves of a loaded guide (``femodes.dispersion``).
+
+    Each curve is drawn where it propagates (beta^2 > 0) and labelled at its right end with its
+    column number and family there; the light lines beta = k0 sqrt(eps_r mu_r) of the background
+    fill and of every material region are drawn dashed (a guided mode lies below the highest
+    one).  Returns the Figure; saves it when ``path`` is given.
+    """
+    st = _style()
+    f = np.asarray(disp.frequencies, dtype=float)
+    b2 = np.asarray(disp.beta2, dtype=float)
+    fig = _new_figure(8.0, 5.0)
+    ax = fig.add_subplot(1, 1, 1)
+    fg = f / 1e9
+    k0 = 2 * np.pi * f / 299792458.0
+    media = {(float(eps_r), float(mu_r))}
+    if section is not None:
+        media |= {(m.eps_r, m.mu_r) for m in section.materials}
+    for eps, mu in sorted(media):
+        ax.plot(fg, k0 * np.sqrt(eps * mu), ls="--", lw=0.9, color="#8a8f94", zorder=1)
+        ax.annotate(f"light line, eps_r = {eps:g}" + (f", mu_r = {mu:g}" if mu != 1 else ""),
+                    (fg[-1], k0[-1] * np.sqrt(eps * mu)), xytext=(-4, 4), textcoords="offset points",
+                    ha="right", va="bottom", fontsize=7.5, color="#5f6468")
+    colours = [st["family"][k][1] for k in ("TE", "TM", "TEM")] + ["#6b4c9a", "#b5651d", "#2e7d32"]
+    for k in range(b2.shape[1]):
+        ok = b2[:, k] > 0
+        if not np.any(ok):
+            continue
+        beta = np.sqrt(np.where(ok, b2[:, k], np.nan))
+        c = colours[k % len(colours)]
+        ax.plot(fg, beta, lw=1.8, color=c, zorder=3)
+        last = np.flatnonzero(ok)[-1]
+        fam = disp.family[last, k] if np.ndim(disp.family) == 2 else ""
+        ax.annotate(f"{k + 1} ({fam})", (fg[last], beta[last]), xytext=(4, 0), textcoords="offset points",
+                    va="center", fontsize=8, color=c)
+    ax.set_xlabel("frequency (GHz)")
+    ax.set_ylabel("beta (rad/m)")
+    ax.set_xlim(fg[0], fg[-1] + 0.12 * (fg[-1] - fg[0]))
+    ax.set_ylim(bottom=0)
+    ax.grid(color="#d9dcdf", lw=0.6)
+    title = "Dispersion of the tracked modes"
+    if section is not None:
+        import textwrap
+        title += "\n" + "\n".join(textwrap.wrap(section.describe(), 80))
+    ax.set_title(title, fontsize=10)
+    if path is not None:
+        _save(fig, path, dpi=dpi)
+    return fig

@@ -26,7 +26,7 @@ import numpy as np
 from .errors import FemodesError
 from .modes import C0
 
-__all__ = ["LoadedMode", "LoadedCutoff", "solve_loaded"]
+__all__ = ["LoadedMode", "LoadedCutoff", "solve_loaded", "dispersion"]
 
 SAFETY = 3.0
 ORDER = 3
@@ -109,7 +109,7 @@ def _problem(section, h, eps_r, mu_r, order):
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5):
+                 evanescent=False, max_iterations=5, _return_mesh_size=False):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
@@ -170,4 +170,26 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             counts[fam] = counts.get(fam, 0) + 1
             fc = o.frequency
             out.append(LoadedCutoff(fam, f"{fam}-type {counts[fam]}", fc, float(fc * err[i] / (2 * vals[i])), len(out)))
-    return tuple(out)
+    return (tuple(out), h) if _return_mesh_size else tuple(out)
+
+
+def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None):
+    """beta(f) of the ``modes`` modes of largest beta at the first frequency, tracked along
+    ``frequencies`` (Hz) by field overlap, so crossing curves keep their identities
+    (:meth:`femodes.vector.VectorProblem.dispersion`).
+
+    The mesh is the one :func:`solve_loaded` refines to ``accuracy`` at the highest frequency (the
+    hardest: the shortest wavelength), assembled once; the curves are computed on it.  Returns a
+    :class:`femodes.vector.Dispersion` (``frequencies``, ``beta`` (F, N), ``family``, ``overlap``).
+    """
+    from .section import Section
+
+    if not isinstance(section, Section):
+        raise FemodesError(f"dispersion() needs a section, got {type(section).__name__}")
+    fs = np.atleast_1d(np.asarray(frequencies, dtype=float))
+    if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0):
+        raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}")
+    p = ORDER if order is None else int(order)
+    _, h = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, accuracy, order=p,
+                        evanescent=True, _return_mesh_size=True)
+    return _problem(section, h, eps_r, mu_r, p).dispersion(fs, modes=modes)

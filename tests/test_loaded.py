@@ -55,3 +55,40 @@ def test_beta_at_another_frequency_points_to_dispersion(slab_guide):
 def test_frequency_on_a_homogeneous_guide_is_refused():
     with pytest.raises(FemodesError, match="mode.beta"):
         fm.solve(fm.rectangle(A, B), modes=2, frequency=10e9)
+
+
+def test_dispersion_curves_follow_the_references(slab_guide):
+    import numpy as np
+
+    fs = np.linspace(11e9, 14e9, 7)
+    disp = fm.dispersion(slab_guide, fs, modes=3, accuracy=1e-6)
+    b2 = disp.beta2
+    assert b2.shape == (7, 3)
+    # each tracked curve stays on one reference curve (LSE/LSM transverse resonance, Collin ch. 6);
+    # beta^2 compared relative to k0^2 eps_max, the measure the accuracy is asked in (the third
+    # mode is still evanescent at 11 GHz: beta^2 < 0)
+    def ref_b2(f):
+        return {r.label: (r.beta ** 2).real for r in ref.slab_on_wall_modes(A, B, B / 2, EPS, f, 6)}
+
+    first = ref_b2(fs[0])
+    for k in range(3):
+        label = min(first, key=lambda lab: abs(first[lab] - b2[0, k]))
+        for i, f in enumerate(fs):
+            scale = (2 * math.pi * f / C0) ** 2 * EPS
+            assert abs(b2[i, k] - ref_b2(f)[label]) / scale < 1e-6
+
+
+def test_dispersion_figure(slab_guide, tmp_path):
+    import numpy as np
+
+    from femodes.figures import dispersion_chart
+
+    fs = np.linspace(11e9, 14e9, 5)
+    disp = fm.dispersion(slab_guide, fs, modes=3, accuracy=1e-5)
+    fig = dispersion_chart(disp, tmp_path / "d.png", section=slab_guide)
+    assert (tmp_path / "d.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    ax = fig.axes[0]
+    # two light lines (air, eps_r = 2.25) and three mode curves
+    assert len(ax.lines) == 5
+    texts = [t.get_text() for t in ax.texts]
+    assert any("eps_r = 2.25" in t for t in texts) and any(t.startswith("1 (") for t in texts)
