@@ -109,7 +109,7 @@ def _problem(section, h, eps_r, mu_r, order):
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5, _return_mesh_size=False):
+                 evanescent=False, max_iterations=5, _return_problem=False):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
@@ -127,9 +127,9 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     def run(prob):
         if frequency is not None:
             got = prob.solve(frequency, modes=modes, evanescent=True)
-            return np.array([m.beta2 for m in got]), got, prob.n_dofs
+            return np.array([m.beta2 for m in got]), got, prob.n_dofs, prob
         got = prob.cutoffs(modes=modes)
-        return np.array([c.k0 ** 2 for c in got]), got, prob.n_dofs
+        return np.array([c.k0 ** 2 for c in got]), got, prob.n_dofs, prob
 
     def estimate(coarse, fine):
         """Richardson error of each value, s = sqrt(N_fine / N_coarse), times the safety factor."""
@@ -170,7 +170,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             counts[fam] = counts.get(fam, 0) + 1
             fc = o.frequency
             out.append(LoadedCutoff(fam, f"{fam}-type {counts[fam]}", fc, float(fc * err[i] / (2 * vals[i])), len(out)))
-    return (tuple(out), h) if _return_mesh_size else tuple(out)
+    return (tuple(out), fine[3]) if _return_problem else tuple(out)
 
 
 def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None):
@@ -190,6 +190,6 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0):
         raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}")
     p = ORDER if order is None else int(order)
-    _, h = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, accuracy, order=p,
-                        evanescent=True, _return_mesh_size=True)
-    return _problem(section, h, eps_r, mu_r, p).dispersion(fs, modes=modes)
+    _, problem = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, accuracy, order=p,
+                              evanescent=True, _return_problem=True)
+    return problem.dispersion(fs, modes=modes)  # the same assembled problem, reused
