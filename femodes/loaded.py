@@ -19,6 +19,7 @@ and curved interfaces keep the fields from being smooth (the smooth rate would b
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -65,7 +66,8 @@ class LoadedMode:
 
     @property
     def effective_permittivity(self):
-        """(beta / k0)^2: the permittivity of a filled guide... of a plane wave with this beta."""
+        """(beta / k0)^2: the relative permittivity of a medium in which a plane wave would have
+        this beta (below the largest eps_r mu_r of the section for any guided mode)."""
         k0 = 2 * math.pi * self.frequency / C0
         return self.vector.beta2 / (k0 * k0)
 
@@ -148,8 +150,15 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
         worst = float(rel.max()) if len(rel) else 0.0
         if worst <= accuracy:
             break
+        if fine[2] > 1_500_000:
+            warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached; estimated {worst:.1e} "
+                          f"with {fine[2]} unknowns", RuntimeWarning, stacklevel=3)
+            break
         h *= min(0.75, max(0.4, (0.3 * accuracy / worst) ** (1.0 / rate))) if worst > 0 else 0.75
         coarse, fine = fine, run(_problem(section, h, eps_r, mu_r, p))
+    else:
+        warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached after {max_iterations} "
+                      f"refinements; estimated {worst:.1e}", RuntimeWarning, stacklevel=3)
     err = estimate(coarse, fine)
     vals, objs = fine[0], fine[1]
     n = len(err)
