@@ -354,13 +354,9 @@ class Mode:
         return f"{self.label}: fc = {self.fc / 1e9:.6f} GHz (+/- {self.fc_error / 1e9:.1e})"
 
 
-def transverse_scale(family, kc, field):
-    """Factor turning grad psi into e_t with int |e_t|^2 = 1 (the ModeField's ``scale``)."""
-    return field.scale
-
-
 def _transverse(family, kc, field, gx, gy):
-    s = transverse_scale(family, kc, field)
+    """(e_x, e_y, h_x, h_y) from grad psi, scaled by the ModeField's ``scale`` (int |e_t|^2 = 1)."""
+    s = field.scale
     if family == "TE":
         ex, ey = -gy * s, gx * s      # z x grad psi = (-dpsi/dy, dpsi/dx)
     else:
