@@ -80,6 +80,7 @@ VECTOR_ORDERS = (1, 2, 3)
 #: int mu |H_z|^2 / int mu |H|^2 is below it; 'TEM' when both are; else 'hybrid'.
 FAMILY_THRESHOLD = 1e-6
 _SHIFT_FACTOR = 1.02  # sigma = _SHIFT_FACTOR * k0^2 max(eps mu)
+_COMPLEX_TOL = 1e-8   # |Im nu| / |nu| above which a shift-invert eigenvalue counts as complex
 
 
 # ---------------------------------------------------------------------------- results
@@ -136,6 +137,25 @@ class VectorMode:
         """2 pi / beta (m); inf for an evanescent mode."""
         return 2 * math.pi / math.sqrt(self.beta2) if self.beta2 > 0 else math.inf
 
+    @property
+    def group_velocity(self):
+        """v_g / c0 = (1 / c0) d omega / d beta, from the fields at this one frequency.
+
+        Differentiating the pencil (A0 - k0^2 A2) x = beta^2 B x in k0^2 and multiplying by its
+        left eigenvector y (module docstring, ``_polish``) gives d beta^2 / d k0^2 =
+        -y^T A2 x / y^T B x (first-order perturbation theory; for a homogeneous fill it is
+        eps_r mu_r exactly), and v_g / c0 = beta / (k0 d beta^2 / d k0^2).  NaN if evanescent."""
+        return self.problem._sensitivity(self)[0]
+
+    @property
+    def dielectric_attenuation(self):
+        """Attenuation (Np/m) by the dielectric losses of the regions: eps_r -> eps_r (1 - j
+        tan_delta) changes A by j k0^2 L (L: the mass matrices weighted with eps_r tan_delta), so
+        d beta^2 = j k0^2 y^T L x / y^T B x and alpha_d = -Im(d beta^2) / (2 beta), to first order
+        in tan_delta.  For a homogeneous fill this is the handbook k^2 tan_delta / (2 beta)
+        (Pozar, Microwave Engineering, sec. 3.1).  0 without losses; NaN if evanescent."""
+        return self.problem._sensitivity(self)[1]
+
     def fields(self, points, cells=None):
         """(E_x, E_y, E_z, H_x, H_y, H_z) at points (2, n), complex, NaN outside the mesh.
 
@@ -176,6 +196,7 @@ class Dispersion:
     family      : (F, N) family guess of each mode at each frequency
     modes       : the VectorMode objects, modes[i][k] for frequency i and tracked mode k
     snapshots   : the frequencies at which a full shift-invert solve was made
+    labels      : a name per tracked mode ('' where none), set by femodes.dispersion
     """
 
     frequencies: np.ndarray
@@ -184,6 +205,7 @@ class Dispersion:
     family: np.ndarray
     modes: tuple = field(repr=False)
     snapshots: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    labels: tuple = ()
 
     @property
     def beta(self):
@@ -278,7 +300,9 @@ class VectorProblem:
 
     VectorProblem(mesh, eps_r=1, mu_r=1, order=2): ``mesh`` is a scikit-fem triangle mesh (vertex
     order sorted per triangle, as femodes.Mesh.to_skfem gives) or a femodes Mesh; ``eps_r`` and
-    ``mu_r`` a number or one real value per triangle; ``order`` 1, 2 or 3.  Assembly happens once,
+    ``mu_r`` a number or one real value per triangle; ``order`` 1, 2 or 3; ``tan_delta`` the
+    dielectric loss tangent, a number or one value per triangle (the modes are solved lossless; the
+    loss is a first-order perturbation, :meth:`VectorMode.dielectric_attenuation`).  Assembly happens once,
     here; :meth:`solve`, :meth:`cutoffs` and :meth:`dispersion` only recombine the matrices.
     """
 
@@ -286,6 +310,7 @@ class VectorProblem:
     eps_r: object = field(default=1.0, repr=False)
     mu_r: object = field(default=1.0, repr=False)
     order: int = 2
+    tan_delta: object = field(default=0.0, repr=False)
     # assembled data (set in __post_init__)
     basis_t: object = field(init=False, repr=False)
     basis_z: object = field(init=False, repr=False)
@@ -302,11 +327,14 @@ class VectorProblem:
         nt = skm.t.shape[1]
         eps = _material("eps_r", self.eps_r, nt)
         mu = _material("mu_r", self.mu_r, nt)
+        tand = np.broadcast_to(np.asarray(self.tan_delta, dtype=float), (nt,)).copy()
+        if not np.all(np.isfinite(tand) & (tand >= 0) & (tand < 1)):
+            raise FemodesError("tan_delta must be a loss tangent in [0, 1), a number or one per triangle")
         curved = type(skm).__name__ != "MeshTri1"
         q = 2 * p + (2 if curved else 0)
         bt = Basis(skm, elem_t, intorder=q)
         bz = Basis(skm, elem_z, intorder=q)
-        phi = np.array([b[0].value for b in bt.basis])    # (nt_loc, 2, ne, nq)
+        phi = np.array([b[0] for b in bt.basis])    # (nt_loc, 2, ne, nq)
         curl = np.array([b[0].curl for b in bt.basis])    # (nt_loc, ne, nq)
         lz = np.array([b[0].value for b in bz.basis])     # (nz_loc, ne, nq)
         gz = np.array([b[0].grad for b in bz.basis])      # (nz_loc, 2, ne, nq)
@@ -326,6 +354,10 @@ class VectorProblem:
             "T_zz": _coo(dz, dz, ein("ieq,jeq,eq->ije", lz, lz, dxe), (Nz, Nz)),
             "T_z1": _coo(dz, dz, ein("ieq,jeq,eq->ije", lz, lz, dx), (Nz, Nz)),
         }
+        if np.any(tand > 0):  # eps_r tan_delta weighted masses, for the dielectric loss
+            dxl = dxe * tand[:, None]
+            mats["L_tt"] = _coo(dt, dt, ein("ikeq,jkeq,eq->ije", phi, phi, dxl), (Nt, Nt))
+            mats["L_zz"] = _coo(dz, dz, ein("ieq,jeq,eq->ije", lz, lz, dxl), (Nz, Nz))
         it = np.setdiff1d(np.arange(Nt), np.unique(bt.get_dofs().flatten()))
         iz = np.setdiff1d(np.arange(Nz), np.unique(bz.get_dofs().flatten()))
         if it.size < 2:
@@ -346,10 +378,14 @@ class VectorProblem:
         B = sp.bmat([[-tt_["T_mu"], sp.csr_matrix((it.size, iz.size))], [tz_["G_mu"].T, None]],
                     format="csr")
         mats["pencil"] = {"A0": A0, "A2": A2, "B": B, "|A0|": abs(A0), "|A2|": abs(A2), "|B|": abs(B)}
+        if "L_tt" in mats:
+            mats["pencil"]["L"] = sp.bmat([[sub(mats["L_tt"], it, it), None], [None, sub(mats["L_zz"], iz, iz)]],
+                                          format="csr")
         set_ = lambda k, v: object.__setattr__(self, k, v)
         set_("mesh", skm)
         set_("eps_r", eps)
         set_("mu_r", mu)
+        set_("tan_delta", tand)
         set_("order", p)
         set_("basis_t", bt)
         set_("basis_z", bz)
@@ -392,8 +428,9 @@ class VectorProblem:
         y = lu.solve(np.asfortranarray(rhs))
         return y[:nt], -y[nt:]
 
-    def _eig(self, k0, nev, v0=None, tol=0.0):
-        """The nev eigenpairs of largest beta^2 at k0: (beta2 descending, E (nt, nev), w (nz, nev))."""
+    def _eig(self, k0, nev, v0=None, tol=0.0, quiet=False):
+        """The nev eigenpairs of largest beta^2 at k0: (beta2 descending, E (nt, nev), w (nz, nev)),
+        complex modes left out (fewer columns then)."""
         from scipy.sparse.linalg import LinearOperator, eigs
 
         from .eigen import single_thread
@@ -411,9 +448,22 @@ class VectorProblem:
                 v0 = np.random.default_rng(12345).standard_normal(nt)
             ncv = min(nt - 1, max(2 * nev + 1, nev + 16))
             nu, V = eigs(op, k=nev, which="LM", v0=v0, ncv=ncv, tol=tol, maxiter=50 * nt)
-            if np.any(np.abs(nu.imag) > 1e-8 * np.abs(nu)):
-                warnings.warn("complex shift-invert eigenvalues: the pencil may be ill-posed here "
-                              f"(largest relative imaginary part {np.max(np.abs(nu.imag / nu)):.1e})")
+            # Complex beta^2 come in conjugate pairs (the pencil is real but not definite).  They
+            # are either "complex modes", which lossless inhomogeneously filled guides can carry
+            # below cutoff (Omar & Schuenemann, IEEE Trans. MTT 33(12), 1985, from memory), or,
+            # as seen deep in the evanescent spectrum of coarse meshes, two nearly equal discrete
+            # eigenvalues that merged.  Neither can be tracked on the real axis; they are left
+            # out of the modes returned, with a warning unless ``quiet`` (the extra candidates
+            # that dispersion asks for).
+            cplx = np.abs(nu.imag) > _COMPLEX_TOL * np.abs(nu)
+            if np.any(cplx):
+                keep = ~cplx
+                if not quiet:
+                    b2c = sigma + 1.0 / nu[cplx]
+                    warnings.warn(f"{int(cplx.sum())} complex-beta^2 eigenvalue(s) (complex modes, below "
+                                  f"cutoff; beta^2 = {b2c[0].real:.4g} {b2c[0].imag:+.3g}j rad^2/m^2 the "
+                                  "first) were left out of the modes returned", RuntimeWarning)
+                nu, V = nu[keep], V[:, keep]
             # real eigenvectors: rotate each column to its dominant phase
             V = V * np.exp(-1j * np.angle(V[np.argmax(np.abs(V), axis=0), np.arange(V.shape[1])]))
             V = np.ascontiguousarray(V.real)
@@ -440,6 +490,27 @@ class VectorProblem:
         scale = k0 * k0 * self.emu_max
         good = np.isfinite(q) & (np.abs(q - b2) <= 1e-8 * scale)
         return np.where(good, q, b2)
+
+    def _sensitivity(self, mode):
+        """(v_g / c0, alpha_d in Np/m) of a mode from its right and left eigenvectors (see
+        VectorMode.group_velocity and .dielectric_attenuation)."""
+        b2 = mode.beta2
+        if not b2 > 0:
+            return math.nan, math.nan
+        pm = self.mats["pencil"]
+        beta = math.sqrt(b2)
+        E = mode.et[self.interior_t]
+        W = (mode.ez[self.interior_z] * (1j * beta)).real   # w = j beta E_z, real
+        x = np.concatenate([E, W])
+        y = np.concatenate([b2 * E, W])
+        yBx = y @ (pm["B"] @ x)
+        k0 = mode.k0
+        db2 = -(y @ (pm["A2"] @ x)) / yBx
+        vg = beta / (k0 * db2)
+        alpha = 0.0
+        if "L" in pm:
+            alpha = (k0 * k0) * (y @ (pm["L"] @ x)) / yBx / (2 * beta)
+        return float(vg), float(-alpha) if alpha else 0.0
 
     def _residual(self, k0, lam, X):
         """Relative residuals of eigenpairs (lam[j], X[:, j]) of A x = lam B x, X = (E_t; w) on
@@ -620,7 +691,7 @@ class VectorProblem:
             while True:
                 for i in todo:
                     nev_at[i] = nev_at.get(i, nev)
-                    snaps[i] = self._eig(2 * math.pi * fs[i] / C0, nev_at[i])
+                    snaps[i] = self._eig(2 * math.pi * fs[i] / C0, nev_at[i], quiet=True)
                 cands = self._reduced_candidates(fs, snaps, nev)
                 picks, overlap, ok = self._track(cands, n, linear_sum_assignment)
                 worst = np.array([np.max(cands[i][3][picks[i]]) if np.all(picks[i] >= 0) else np.inf
@@ -642,7 +713,7 @@ class VectorProblem:
                 todo = [i]
             snapshots = np.array(sorted(snaps))
         if method == "direct":
-            cands = [self._eig(2 * math.pi * f / C0, nev) for f in fs]
+            cands = [self._eig(2 * math.pi * f / C0, nev, quiet=True) for f in fs]
             cands = [(b2, E, W, np.zeros(b2.size)) for b2, E, W in cands]
             picks, overlap, ok = self._track(cands, n, linear_sum_assignment)
             if not ok:
@@ -754,6 +825,51 @@ class VectorProblem:
         return out
 
     # -- fields -------------------------------------------------------------------------
+    def sample(self, mode, subdivisions=3):
+        """The fields of ``mode`` on every element, each cut into ``subdivisions^2`` triangles
+        (the same reference points in every element, so each basis function is evaluated once
+        for all elements): returns (x (P,), y (P,), triangles (T, 3), F (6, P)) with F the
+        components of :meth:`VectorMode.fields`.  Points are per element (the normal E jumps
+        across material interfaces and is kept so); curved elements are followed."""
+        from .modes import MU0
+
+        n = max(1, int(subdivisions))
+        ij = [(i, j) for j in range(n + 1) for i in range(n + 1 - j)]
+        X = np.array(ij, dtype=float).T / n                       # (2, q) reference points
+        num = {p: k for k, p in enumerate(ij)}
+        tri = []
+        for j in range(n):
+            for i in range(n - j):
+                tri.append((num[(i, j)], num[(i + 1, j)], num[(i, j + 1)]))
+                if i + j + 1 < n:
+                    tri.append((num[(i + 1, j)], num[(i + 1, j + 1)], num[(i, j + 1)]))
+        tri = np.array(tri)
+        bt, bz = self.basis_t, self.basis_z
+        ne, q = self.mesh.t.shape[1], X.shape[1]
+        ev = np.zeros((2, ne, q))
+        ec = np.zeros((ne, q))
+        zv = np.zeros((ne, q), dtype=complex)
+        zg = np.zeros((2, ne, q), dtype=complex)
+        for k in range(bt.Nbfun):
+            fk = bt.elem.gbasis(bt.mapping, X, k)[0]
+            ck = mode.et[bt.element_dofs[k]][:, None]
+            ev += ck[None] * np.asarray(fk.value)
+            ec += ck * np.asarray(fk.curl)
+        for k in range(bz.Nbfun):
+            fk = bz.elem.gbasis(bz.mapping, X, k)[0]
+            ck = mode.ez[bz.element_dofs[k]][:, None]
+            zv += ck * np.asarray(fk.value)
+            zg += ck[None] * np.asarray(fk.grad)
+        xy = bt.mapping.F(X)                                      # (2, ne, q)
+        omega = 2 * math.pi * mode.frequency
+        mu = (self.mu_r * MU0)[:, None]
+        beta = mode.beta
+        gx, gy = zg[0] + 1j * beta * ev[0], zg[1] + 1j * beta * ev[1]
+        F = np.array([ev[0], ev[1], zv, 1j * gy / (omega * mu), -1j * gx / (omega * mu),
+                      1j * ec / (omega * mu)], dtype=complex)
+        triangles = (tri[None, :, :] + q * np.arange(ne)[:, None, None]).reshape(-1, 3)
+        return xy[0].ravel(), xy[1].ravel(), triangles, F.reshape(6, -1)
+
     def _fields(self, mode, points, cells=None):
         from .modes import MU0
 
