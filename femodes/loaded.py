@@ -20,14 +20,14 @@ from __future__ import annotations
 
 import math
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from .errors import FemodesError
 from .modes import C0
 
-__all__ = ["LoadedMode", "LoadedCutoff", "solve_loaded", "dispersion"]
+__all__ = ["LoadedMode", "LoadedCutoff", "LoadedStudy", "solve_loaded", "dispersion", "study"]
 
 SAFETY = 3.0
 ORDER = 3
@@ -37,8 +37,15 @@ ORDER = 3
 class LoadedMode:
     """One mode of a loaded guide at the frequency it was solved at.
 
-    family : 'TE', 'TM', 'TEM' or 'hybrid' (by the longitudinal energy shares, see vector.py)
-    label  : family and ordinal among the modes returned, e.g. 'hybrid 2', 'TE 1'
+    family : 'TE', 'TM', 'TEM' or 'hybrid', from the longitudinal energy shares (``e_share``,
+             ``h_share``; see femodes.vector.FAMILY_THRESHOLD)
+    label  : 'hybrid from TE10' when the mode's transverse E is mostly (``parent_share`` >= 0.8)
+             that of one empty-guide mode or degenerate group ('hybrid from TE11/TM11': the
+             LSE/LSM mixtures of a rectangle's degenerate pair), or of two ('... from TE10+TE20');
+             else family and ordinal, e.g. 'hybrid 2'
+    parent : the empty-guide label(s) it grows from, or None; ``parent_share`` the share of
+             int |E_t|^2 in their transverse fields (empty guide = the section without its
+             regions, solved with the scalar solver for the labels)
     frequency : Hz;  beta_error : estimated absolute error of beta (rad/m)
     vector : the :class:`femodes.vector.VectorMode` with the fields
     """
@@ -50,6 +57,8 @@ class LoadedMode:
     beta_error: float
     index: int
     vector: object = field(repr=False)
+    parent: str | None = None
+    parent_share: float = math.nan
 
     def beta(self, f=None):
         """beta (rad/m) at the solve frequency, -1j alpha if evanescent.  Asking at another
@@ -60,9 +69,42 @@ class LoadedMode:
                                "modes=N), or solve again at that frequency")
         return self.beta_value
 
+    @property
+    def propagating(self):
+        return self.vector.beta2 > 0
+
     def guide_wavelength(self, f=None):
+        """2 pi / beta (m); inf for an evanescent mode."""
         b = self.beta(f)
         return 2 * math.pi / b if isinstance(b, float) and b > 0 else math.inf
+
+    def phase_velocity(self, f=None):
+        """v_p / c0 = k0 / beta (inf if evanescent)."""
+        b = self.beta(f)
+        k0 = 2 * math.pi * self.frequency / C0
+        return k0 / b if isinstance(b, float) and b > 0 else math.inf
+
+    def group_velocity(self, f=None):
+        """v_g / c0 = d omega / d beta / c0, by perturbation of the pencil at this frequency
+        (femodes.vector.VectorMode.group_velocity); NaN if evanescent."""
+        self.beta(f)
+        return self.vector.group_velocity
+
+    def dielectric_attenuation(self, f=None):
+        """Attenuation by the loss tangents of the fill and the regions, Np/m (first order in
+        tan_delta; femodes.vector.VectorMode.dielectric_attenuation); NaN if evanescent."""
+        self.beta(f)
+        return self.vector.dielectric_attenuation
+
+    @property
+    def e_share(self):
+        """int eps_r |E_z|^2 / int eps_r |E|^2: how far from TE the mode is (0 for TE)."""
+        return self.vector.e_share
+
+    @property
+    def h_share(self):
+        """int mu_r |H_z|^2 / int mu_r |H|^2: how far from TM the mode is (0 for TM)."""
+        return self.vector.h_share
 
     @property
     def effective_permittivity(self):
@@ -92,27 +134,98 @@ class LoadedCutoff:
         return self.fc_error / self.fc if self.fc > 0 else 0.0
 
 
-def _material_arrays(section, mesh, eps_r, mu_r):
+def _material_arrays(section, mesh, eps_r, mu_r, tan_delta=0.0):
+    """Per-triangle eps_r, mu_r, tan_delta: the fill's, then each region's (mesh.regions)."""
     eps = np.full(mesh.n_triangles, float(eps_r))
     mu = np.full(mesh.n_triangles, float(mu_r))
+    tand = np.full(mesh.n_triangles, float(tan_delta))
     for i, m in enumerate(section.materials, start=1):
         eps[mesh.regions == i] = m.eps_r
         mu[mesh.regions == i] = m.mu_r
-    return eps, mu
+        tand[mesh.regions == i] = m.tan_delta
+    return eps, mu, tand
 
 
-def _problem(section, h, eps_r, mu_r, order):
+def _problem(section, h, eps_r, mu_r, order, tan_delta=0.0):
     from .mesh import mesh_section
     from .vector import VectorProblem
 
     mesh = mesh_section(section, h, order=order)
-    eps, mu = _material_arrays(section, mesh, eps_r, mu_r)
-    return VectorProblem(mesh, eps, mu, order=order)
+    eps, mu, tand = _material_arrays(section, mesh, eps_r, mu_r, tan_delta)
+    return VectorProblem(mesh, eps, mu, order=order, tan_delta=tand)
+
+
+PARENT_SHARE = 0.8  # share of int |E_t|^2 in one or two empty-guide modes that names a parent
+
+
+def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
+    """For each loaded VectorMode: (parent label or None, share).  The empty guide (the section
+    without its regions, filled with eps_r, mu_r) is solved on the same mesh with the same
+    elements, at the same frequency; its modes are pure TE / TM / TEM and are named by matching
+    their kc to the scalar solver's labelled modes of the bare section.  A loaded mode's parent is
+    the empty-guide mode (or pair of them) holding >= PARENT_SHARE of its int |E_t|^2; the
+    transverse fields of distinct empty-guide modes are orthogonal (common practice: the modal
+    orthogonality of homogeneous guides), so the shares add up to at most 1."""
+    from dataclasses import replace as _replace
+
+    from .solver import solve as _solve_scalar
+    from .vector import VectorProblem
+
+    n = len(loaded_modes)
+    if n == 0:
+        return []
+    empty = VectorProblem(problem.mesh, eps_r, mu_r, order=problem.order)
+    k0 = 2 * math.pi * float(frequency) / C0
+    k2 = k0 * k0 * eps_r * mu_r
+    ref = _solve_scalar(_replace(section, materials=()), modes=n + 8, eps_r=eps_r, mu_r=mu_r, accuracy=1e-5)
+    got = empty.solve(frequency, modes=n + 8, evanescent=True)
+    names = []
+    for m in got:
+        kc2 = k2 - m.beta2
+        hits = [r for r in ref if r.family == m.family and
+                (abs(r.kc ** 2 - kc2) <= 1e-3 * max(r.kc ** 2, 1e-6 * k2))]
+        names.append(hits[0].label if hits else None)
+    # an empty-guide degenerate group (TE11 and TM11 of a rectangle, a circle's TE11 pair) is one
+    # parent: any combination of its members is an empty-guide mode, so it is named as a group
+    kcs = np.array([k2 - m.beta2 for m in got])
+    base = list(names)
+    for j in range(len(got)):
+        if base[j] is None:
+            continue
+        same = [base[i] for i in range(len(got)) if base[i] is not None and
+                abs(kcs[i] - kcs[j]) <= 1e-5 * max(abs(kcs[j]), 1e-6 * k2)]
+        names[j] = "/".join(dict.fromkeys(sorted(same, key=lambda t: (t[:2] != "TE", t))))
+    T = problem.mats["tt"]["T_t1"]
+    it = problem.interior_t
+    Ej = np.array([m.et[it] for m in got]).T
+    nj = np.einsum("ij,ij->j", Ej, T @ Ej)
+    out = []
+    for lm in loaded_modes:
+        e = lm.et[it]
+        c = (e @ (T @ Ej)) ** 2 / (nj * (e @ (T @ e)))
+        share = {}
+        for name, v in zip(names, c):
+            key = name if name is not None else f"?{len(share)}"
+            share[key] = share.get(key, 0.0) + float(v)
+        ranked = sorted(share.items(), key=lambda kv: -kv[1])
+        top = ranked[0]
+        if not top[0].startswith("?") and top[1] >= PARENT_SHARE:
+            out.append((top[0], top[1]))
+        elif (len(ranked) > 1 and not ranked[1][0].startswith("?") and not top[0].startswith("?")
+              and top[1] + ranked[1][1] >= PARENT_SHARE):
+            out.append((f"{top[0]}+{ranked[1][0]}", top[1] + ranked[1][1]))
+        else:
+            out.append((None, top[1] + (ranked[1][1] if len(ranked) > 1 else 0.0)))
+    return out
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5, _return_problem=False):
-    """Modes (at ``frequency``) or cutoffs (without) of a section with material regions."""
+                 evanescent=False, max_iterations=5, tan_delta=0.0, parents=True, _return_problem=False):
+    """Modes (at ``frequency``) or cutoffs (without) of a section with material regions.
+
+    ``eps_r``, ``mu_r``, ``tan_delta``: the background fill (the regions carry their own);
+    ``parents``: name the empty-guide mode each mode grows from (an extra solve of the empty
+    guide on the final mesh)."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
         raise FemodesError(f"order must be 1, 2 or 3 for loaded guides (edge elements), got {order!r}")
@@ -139,8 +252,8 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
         s_rate = max((fine[2] / coarse[2]) ** (rate / 2) - 1.0, 1.0)
         return np.abs(coarse[0][:n] - fine[0][:n]) / s_rate * SAFETY
 
-    coarse = run(_problem(section, 1.35 * h, eps_r, mu_r, p))
-    fine = run(_problem(section, h, eps_r, mu_r, p))
+    coarse = run(_problem(section, 1.35 * h, eps_r, mu_r, p, tan_delta))
+    fine = run(_problem(section, h, eps_r, mu_r, p, tan_delta))
     for _ in range(max_iterations):
         err = estimate(coarse, fine)
         if frequency is not None:
@@ -155,7 +268,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
                           f"with {fine[2]} unknowns", RuntimeWarning, stacklevel=3)
             break
         h *= min(0.75, max(0.4, (0.3 * accuracy / worst) ** (1.0 / rate))) if worst > 0 else 0.75
-        coarse, fine = fine, run(_problem(section, h, eps_r, mu_r, p))
+        coarse, fine = fine, run(_problem(section, h, eps_r, mu_r, p, tan_delta))
     else:
         warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached after {max_iterations} "
                       f"refinements; estimated {worst:.1e}", RuntimeWarning, stacklevel=3)
@@ -164,16 +277,21 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     n = len(err)
     out = []
     counts = {}
-    for i in range(n):
+    keep = [i for i in range(n) if frequency is None or evanescent or objs[i].beta2 > 0]
+    if frequency is not None and parents:
+        named = dict(zip(keep, _parents(section, fine[3], frequency, [objs[i] for i in keep], eps_r, mu_r)))
+    else:
+        named = {}
+    for i in keep:
         o = objs[i]
         if frequency is not None:
-            if not evanescent and o.beta2 <= 0:
-                continue
             fam = o.family
             counts[fam] = counts.get(fam, 0) + 1
             b = o.beta
             beta_err = err[i] / (2 * abs(b)) if abs(b) > 0 else math.sqrt(err[i])
-            out.append(LoadedMode(fam, f"{fam} {counts[fam]}", float(frequency), b, float(beta_err), len(out), o))
+            parent, share = named.get(i, (None, math.nan))
+            label = f"{fam} from {parent}" if parent else f"{fam} {counts[fam]}"
+            out.append(LoadedMode(fam, label, float(frequency), b, float(beta_err), len(out), o, parent, share))
         else:
             fam = o.field
             counts[fam] = counts.get(fam, 0) + 1
@@ -182,7 +300,8 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     return (tuple(out), fine[3]) if _return_problem else tuple(out)
 
 
-def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None):
+def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
+               tan_delta=0.0, labels=True):
     """beta(f) of the ``modes`` modes of largest beta at the first frequency, tracked along
     ``frequencies`` (Hz) by field overlap, so crossing curves keep their identities
     (:meth:`femodes.vector.VectorProblem.dispersion`).
@@ -200,5 +319,75 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
         raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}")
     p = ORDER if order is None else int(order)
     _, problem = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, accuracy, order=p,
-                              evanescent=True, _return_problem=True)
-    return problem.dispersion(fs, modes=modes)  # the same assembled problem, reused
+                              evanescent=True, tan_delta=tan_delta, parents=False, _return_problem=True)
+    disp = problem.dispersion(fs, modes=modes)  # the same assembled problem, reused
+    if not labels:
+        return disp
+    first = disp.modes[0]
+    named = _parents(section, problem, fs[0], [m for m in first], eps_r, mu_r)
+    names = tuple(f"{m.family} from {par}" if par else "" for m, (par, _) in zip(first, named))
+    return replace(disp, labels=names)
+
+
+@dataclass(frozen=True, eq=False)
+class LoadedStudy:
+    """What a case file asks of a loaded guide, solved: the lowest cutoffs, the modes at one
+    frequency, and the dispersion over a band (each None / empty when not asked).
+
+    n_dofs : unknowns of the final cutoff mesh; n_dofs_at_f : of the mesh at the frequency
+    more_propagate : True when every mode asked for propagates at ``frequency`` (more may: ask
+                     for more modes to see them all)
+    empty_modes : (label, kc) of the empty guide's modes with a cutoff below the band top (for
+                  comparison curves), with a band
+    """
+
+    section: object
+    eps_r: float
+    mu_r: float
+    tan_delta: float
+    accuracy: float
+    order: int
+    cutoffs: tuple
+    n_dofs: int
+    frequency: float | None = None
+    modes: tuple = ()
+    n_dofs_at_f: int = 0
+    more_propagate: bool = False
+    dispersion: object = None
+    empty_modes: tuple = ()
+
+    @property
+    def single_mode_band(self):
+        """(f1, f2) Hz between the two lowest cutoffs, or None with fewer than two."""
+        if len(self.cutoffs) < 2:
+            return None
+        return (self.cutoffs[0].fc, self.cutoffs[1].fc)
+
+
+def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_delta=0.0,
+          frequency=None, band=None, points=41):
+    """Cutoffs, modes at ``frequency`` (Hz) and dispersion over ``band`` (f1, f2 Hz, ``points``
+    frequencies) of a section with material regions: the loaded-guide part of a case file.  The
+    dispersion follows the modes whose cutoff (of the ``modes`` computed) lies below f2."""
+    p = ORDER if order is None else int(order)
+    cuts, prob = solve_loaded(section, modes, None, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
+                              _return_problem=True)
+    out = LoadedStudy(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), p, cuts,
+                      prob.n_dofs)
+    if frequency is not None:
+        ms, prob_f = solve_loaded(section, modes, frequency, eps_r, mu_r, accuracy, order=p,
+                                  tan_delta=tan_delta, _return_problem=True)
+        out = replace(out, frequency=float(frequency), modes=ms, n_dofs_at_f=prob_f.n_dofs,
+                      more_propagate=len(ms) >= modes)
+    if band is not None:
+        # the curves worth drawing: the modes with a cutoff below the top of the band (those
+        # that propagate somewhere in it), at least one
+        fs = np.linspace(float(band[0]), float(band[1]), int(points))
+        n_band = max(1, sum(1 for c in cuts if c.fc < fs[-1]))
+        from .solver import solve as _solve_scalar
+
+        bare = _solve_scalar(replace(section, materials=()), modes=n_band, eps_r=eps_r, mu_r=mu_r)
+        empty = tuple((m.label, float(m.kc)) for m in bare if m.fc < fs[-1])
+        out = replace(out, dispersion=dispersion(section, fs, n_band, eps_r, mu_r, accuracy, order=p,
+                                                 tan_delta=tan_delta), empty_modes=empty)
+    return out

@@ -17,7 +17,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .errors import FemodesError, check_nonnegative, check_positive, positive_number
+from .errors import FemodesError, check_nonnegative, check_positive, nonnegative_number, positive_number
 
 __all__ = [
     "Line", "Arc", "Loop", "Corner", "Section", "Material",
@@ -393,12 +393,17 @@ class Material:
     region : Loop           counter-clockwise outline of the region
     holes  : tuple of Loop  parts of the region left out (a dielectric ring around a conductor)
     eps_r, mu_r : relative permittivity and permeability (real, > 0)
+    tan_delta   : dielectric loss tangent (>= 0); the modes are solved lossless and the loss
+                  enters as a first-order perturbation (femodes.vector, dielectric attenuation)
+    name        : what the report calls the region ("" : by its permittivity)
     """
 
     region: Loop
     holes: tuple = ()
     eps_r: float = 1.0
     mu_r: float = 1.0
+    tan_delta: float = 0.0
+    name: str = ""
 
     def contains(self, x, y):
         """Boolean mask of the points (arrays x, y) inside the region (outside its holes)."""
@@ -408,8 +413,8 @@ class Material:
         return inside
 
     def transformed(self, kind, arg):
-        return Material(self.region.transformed(kind, arg), tuple(h.transformed(kind, arg) for h in self.holes),
-                        self.eps_r, self.mu_r)
+        return replace(self, region=self.region.transformed(kind, arg),
+                       holes=tuple(h.transformed(kind, arg) for h in self.holes))
 
 
 def _points_in_polygon(x, y, poly):
@@ -592,22 +597,28 @@ class Section:
 
         def loop(l):
             return Loop(tuple(seg(x) for x in l.segments))
-        mats = tuple(Material(loop(m.region), tuple(loop(h) for h in m.holes), m.eps_r, m.mu_r)
+        mats = tuple(replace(m, region=loop(m.region), holes=tuple(loop(h) for h in m.holes))
                      for m in self.materials)
         return Section(loop(self.outer), tuple(loop(h) for h in self.holes),
                        self.kind, params, (x0 * s, y0 * s, ang), mats)
 
     # -- materials -------------------------------------------------------------
-    def with_material(self, shape, eps_r=1.0, mu_r=1.0):
+    def with_material(self, shape, eps_r=1.0, mu_r=1.0, tan_delta=0.0, name=""):
         """A new section in which the part inside ``shape`` (any shape, placed with
         ``.translated`` / ``.rotated``; its holes are left out of the region) is filled with a
-        material of relative permittivity ``eps_r`` and permeability ``mu_r``.  A later call wins
-        where two regions overlap; parts of ``shape`` outside the guide are ignored."""
+        material of relative permittivity ``eps_r`` and permeability ``mu_r`` (loss tangent
+        ``tan_delta``, used for the dielectric attenuation; ``name`` for reports).  A later call
+        wins where two regions overlap; parts of ``shape`` outside the guide are ignored."""
         if not isinstance(shape, Section):
             raise FemodesError(f"with_material needs a shape (e.g. femodes.rectangle(...).translated(...)), "
                                f"got {type(shape).__name__}")
         eps, mu = positive_number("eps_r", eps_r), positive_number("mu_r", mu_r)
-        mat = Material(shape.outer, tuple(shape.holes), eps, mu)
+        tand = nonnegative_number("tan_delta", tan_delta)
+        if tand >= 1:
+            raise FemodesError(f"tan_delta is a loss tangent and must lie in 0 <= tan_delta < 1, got {tan_delta!r}")
+        if not isinstance(name, str):
+            raise FemodesError(f"name must be a string, got {type(name).__name__}")
+        mat = Material(shape.outer, tuple(shape.holes), eps, mu, tand, name.strip())
         # the region must reach into the guide: test sample points of both outlines
         guide_pts = np.hstack([l.polyline(32, line_pieces=8) for l in self.loops])
         reg_pts = np.hstack([mat.region.polyline(32, line_pieces=8)] + [h.polyline(32, 8) for h in mat.holes])
