@@ -40,7 +40,25 @@ Top level::
     The shapes are those of :mod:`femodes.section`; each key is the shape function's parameter
     of the same name (``angle_deg`` -> ``angle`` in radians, ``inner_offset`` -> ``offset``).
 
-``[fill]`` (optional) -- the homogeneous filling:
+``[[region]]`` (optional, repeatable) -- a part of the guide filled with another material (a
+dielectric slab, a ceramic load, a ferrite), making the guide inhomogeneous: its modes are then
+hybrid in general and are solved with the full-vector solver (femodes.loaded).  Each region
+takes a shape of the list below except mesh, with its keys and placement, in the units of
+[guide], and:
+
+    eps_r       relative permittivity, real, > 0 (required)
+    mu_r        relative permeability, real, > 0 (default 1)
+    tan_delta   loss tangent, 0 <= tan_delta < 1 (default 0): dielectric attenuation
+    name        what the report calls the region (default: by its permittivity)
+
+    A later region wins where two overlap; parts of a region outside the guide are ignored.
+    Such a case reports the lowest cutoffs (beta = 0) of the loaded guide and, with [analysis],
+    the propagating modes at the frequency (beta, guide wavelength, phase and group velocity,
+    dielectric loss; which empty-guide mode each grows from) and, with a band, their dispersion
+    (figure "dispersion").  Wall loss, impedance and power handling are not computed for
+    loaded guides yet; the conductor keys of [analysis] are then refused.
+
+``[fill]`` (optional) -- the homogeneous filling (the background, where there are regions):
 
     eps_r       relative permittivity, real, > 0 (default 1)
     mu_r        relative permeability, real, > 0 (default 1)
@@ -64,7 +82,9 @@ Top level::
 
     figures may also list "attenuation" (attenuation against frequency over the [analysis]
     band; needs `band`) and "band" (the bands of the guide on a frequency axis, with the
-    [analysis] band and frequency when given).  Turning figures on from the command line
+    [analysis] band and frequency when given); and, for guides with [[region]] tables,
+    "dispersion" (beta against frequency over the band; needs `band`).  "fields" then draws
+    the modes at the [analysis] frequency, and "chart", "band", "attenuation" do not apply.  Turning figures on from the command line
     without a list in the case file writes "fields" and "chart", plus "band" with an
     [analysis] table and "attenuation" with a band.
 
@@ -121,9 +141,12 @@ __all__ = ["Case", "OutputSettings", "AnalysisSettings", "load_case", "parse_cas
 #: length units accepted in [guide] -> metres per unit (exact by definition; 1 in = 25.4 mm, NIST)
 UNITS = {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "um": 1e-6, "in": 0.0254, "mil": 0.0254e-3}
 DEFAULT_UNITS = "mm"
-FIGURE_KINDS = ("fields", "chart", "attenuation", "band")
-#: figure kinds that need an [analysis] band ("attenuation") -- the others always apply
-_BAND_FIGURES = ("attenuation",)
+FIGURE_KINDS = ("fields", "chart", "attenuation", "band", "dispersion")
+#: figure kinds that need an [analysis] band -- the others always apply
+_BAND_FIGURES = ("attenuation", "dispersion")
+#: figure kinds for homogeneous guides / for guides with material regions
+_HOMOGENEOUS_FIGURES = ("fields", "chart", "attenuation", "band")
+_LOADED_FIGURES = ("fields", "dispersion")
 #: frequency units accepted in [analysis] -> hertz per unit (SI prefixes)
 FREQUENCY_UNITS = {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6, "GHz": 1e9}
 DEFAULT_FREQUENCY_UNITS = "GHz"
@@ -230,7 +253,10 @@ SHAPES = {
 }
 
 # the other tables: key -> (type check, default)
-_TOP_KEYS = ("title", "guide", "fill", "solve", "analysis", "output")
+_TOP_KEYS = ("title", "guide", "region", "fill", "solve", "analysis", "output")
+_REGION_KEYS = ("eps_r", "mu_r", "tan_delta", "name")
+#: [analysis] keys that concern the walls (not computed for loaded guides yet)
+_WALL_KEYS = ("conductor", "roughness_um", "breakdown_field", "safety_factor", "impedance")
 _FILL_KEYS = ("eps_r", "mu_r", "tan_delta")
 _ANALYSIS_KEYS = ("frequency", "band", "points", "frequency_units", "conductor", "roughness_um",
                   "breakdown_field", "safety_factor", "impedance")
@@ -315,6 +341,11 @@ class Case:
     analysis: AnalysisSettings | None = None
     tan_delta: float = 0.0
 
+    @property
+    def loaded(self):
+        """True for a guide with material regions ([[region]] tables): hybrid modes."""
+        return bool(getattr(self.section, "materials", ()))
+
     def with_options(self, modes=None, accuracy=None, figures_dir=None, fmt=None, no_figures=False,
                      frequency=None, band=None, conductor=None):
         """A copy with command-line overrides (strings are parsed; None keeps the case value).
@@ -328,6 +359,8 @@ class Case:
         if no_figures and figures_dir is not None:
             raise FemodesError("--figures and --no-figures contradict each other; give one of them")
         an = self.analysis
+        if conductor is not None and self.loaded:
+            raise FemodesError("--conductor: wall loss is not computed for guides with [[region]] tables yet")
         if frequency is not None or band is not None or conductor is not None:
             if an is None:
                 if frequency is None and band is None:
@@ -357,24 +390,40 @@ class Case:
         if figures_dir is not None:
             if not isinstance(figures_dir, str) or not figures_dir.strip():
                 raise FemodesError(f"--figures needs a directory name, got {figures_dir!r}")
-            out = replace(out, directory=figures_dir, figures=out.figures or figure_kinds_for(an))
+            out = replace(out, directory=figures_dir, figures=out.figures or figure_kinds_for(an, self.loaded))
         if no_figures:
             out = replace(out, figures=())
-        _check_figures_apply(out, an, "with the options given")
+        _check_figures_apply(out, an, "with the options given", self.loaded)
         return replace(self, solve=solve, output=out, analysis=an)
 
 
-def figure_kinds_for(analysis):
-    """The figure kinds that apply to a case with these analysis settings: field patterns and
-    the mode chart always, the band chart with an analysis, the attenuation figure with a band."""
+def figure_kinds_for(analysis, loaded=False):
+    """The figure kinds that apply to a case with these analysis settings.  Homogeneous guides:
+    field patterns and the mode chart always, the band chart with an analysis, the attenuation
+    figure with a band.  Loaded guides: field patterns with an analysis frequency, the
+    dispersion figure with a band."""
+    if loaded:
+        if analysis is None:
+            return ()
+        return ("fields",) + (("dispersion",) if analysis.band is not None else ())
     if analysis is None:
         return ("fields", "chart")
+    kinds = _HOMOGENEOUS_FIGURES
     if analysis.band is None:
-        return tuple(k for k in FIGURE_KINDS if k not in _BAND_FIGURES)
-    return FIGURE_KINDS
+        return tuple(k for k in kinds if k not in _BAND_FIGURES)
+    return kinds
 
 
-def _check_figures_apply(output, analysis, where):
+def _check_figures_apply(output, analysis, where, loaded=False):
+    kinds = _LOADED_FIGURES if loaded else _HOMOGENEOUS_FIGURES
+    for k in output.figures:
+        if k not in kinds:
+            what = "a guide with [[region]] tables" if loaded else "a guide without [[region]] tables"
+            raise FemodesError(f"the figure {k!r} does not apply to {what} (figures there: {', '.join(kinds)}); "
+                               f"leave it out of figures in [output] ({where})")
+        if loaded and k == "fields" and analysis is None:
+            raise FemodesError("field patterns of a guide with [[region]] tables are drawn at a frequency: add "
+                               f"[analysis] frequency = F (or give --frequency F), or leave 'fields' out ({where})")
     for k in output.figures:
         if k in _BAND_FIGURES and (analysis is None or analysis.band is None):
             raise FemodesError(f"the figure {k!r} needs a band: add band = [f1, f2] to [analysis] (or give "
@@ -417,7 +466,17 @@ def parse_case(text, path=None, base_dir=None) -> Case:
 
 
 def run_case(case: Case):
-    """Solve the case: ``femodes.solve(case.section, **case.solve)`` -> ModeSet."""
+    """Solve the case: ``femodes.solve(case.section, **case.solve)`` -> ModeSet; for a guide with
+    [[region]] tables :func:`femodes.loaded.study` -> LoadedStudy (cutoffs, the modes at the
+    [analysis] frequency, the dispersion over its band)."""
+    if case.loaded:
+        from .loaded import study
+
+        an = case.analysis
+        kw = dict(case.solve)
+        if an is not None:
+            kw.update(frequency=an.table_frequency, band=an.band, points=an.points)
+        return study(case.section, tan_delta=case.tan_delta, **kw)
     from .solver import solve
 
     return solve(case.section, **case.solve)
@@ -434,7 +493,15 @@ def _build_case(data, base_dir, path):
     if "guide" not in data:
         raise FemodesError("missing the [guide] table; it needs at least shape = one of " + ", ".join(SHAPES))
     guide = _table(data, "guide")
-    section = _build_guide(guide, base_dir)
+    section, units = _build_guide(guide, base_dir)
+    regions = data.get("region", [])
+    if isinstance(regions, dict):
+        raise FemodesError("write each material region as a [[region]] table (double brackets), not [region]")
+    if regions and not hasattr(section, "with_material"):
+        raise FemodesError("[[region]] tables need a shape in [guide]; a mesh file cannot take material regions")
+    for i, r in enumerate(regions, start=1):
+        section = _build_region(r, i, units, section)
+    loaded = bool(regions)
 
     solve = {}
     fill = _table(data, "fill")
@@ -491,10 +558,23 @@ def _build_case(data, base_dir, path):
     if "field_count" in ov:
         out = replace(out, field_count=_count("field_count in [output]", ov["field_count"]))
 
+    if loaded and "family" in solve:
+        raise FemodesError("family in [solve] does not apply to a guide with [[region]] tables: its modes "
+                           "are hybrid in general (leave family out)")
+    if loaded and solve.get("order", 3) > 3:
+        raise FemodesError(f"order in [solve] must be 1, 2 or 3 for a guide with [[region]] tables (edge "
+                           f"elements), got {solve['order']}")
     analysis = None
     if "analysis" in data:
-        analysis = _build_analysis(_table(data, "analysis"), tan_delta)
-    _check_figures_apply(out, analysis, "in the case file")
+        an = _table(data, "analysis")
+        if loaded:
+            wall = [k for k in an if k in _WALL_KEYS]
+            if wall:
+                raise FemodesError(f"{', '.join(wall)} in [analysis]: wall loss, impedance and power handling "
+                                   "are not computed for guides with [[region]] tables yet; leave "
+                                   f"{'it' if len(wall) == 1 else 'them'} out")
+        analysis = _build_analysis(an, tan_delta)
+    _check_figures_apply(out, analysis, "in the case file", loaded)
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
                 tan_delta=tan_delta)
 
@@ -627,19 +707,7 @@ def _build_guide(guide, base_dir):
                            f"(valid shapes: {', '.join(SHAPES)})")
     spec = SHAPES[shape]
     allowed = COMMON + tuple(k.name for k in spec.keys) + (tuple(k.name for k in PLACEMENT) if spec.placement else ())
-    for k in guide:
-        if k in allowed:
-            continue
-        if not spec.placement and k in {p.name for p in PLACEMENT}:
-            raise FemodesError(f"key {k!r} in [guide] does not apply to shape 'mesh': a mesh is used "
-                               f"where it lies (valid keys for shape 'mesh': {', '.join(allowed)})")
-        raise FemodesError(f"unknown key {k!r} in [guide]{_suggest(k, allowed)} "
-                           f"(valid keys for shape {shape!r}: {', '.join(allowed)})")
-    missing = [k.name for k in spec.required if k.name not in guide]
-    if missing:
-        raise FemodesError(f"shape {shape!r} needs {', '.join(k.name for k in spec.required)}; "
-                           f"missing in [guide]: {', '.join(missing)}")
-
+    _check_shape_keys(guide, shape, spec, allowed, "[guide]")
     units = guide.get("units", DEFAULT_UNITS)
     if not isinstance(units, str) or units not in UNITS:
         raise FemodesError(f"units in [guide] must be one of {', '.join(UNITS)}, got {_show(units)}"
@@ -656,10 +724,32 @@ def _build_guide(guide, base_dir):
         if not os.path.isfile(full):
             raise FemodesError(f"mesh file {rel!r} not found (looked for {os.path.normpath(full)}); "
                                "file is relative to the case file")
-        return read_mesh(full, scale=scale)
+        return read_mesh(full, scale=scale), units
+    return _shape_from(guide, shape, spec, scale, units, "[guide]"), units
 
-    kwargs = {k.target: _convert(k, guide[k.name], scale, units) for k in spec.keys if k.name in guide}
-    moves = {k.name: _convert(k, guide[k.name], scale, units) for k in PLACEMENT if k.name in guide}
+
+def _check_shape_keys(table, shape, spec, allowed, where):
+    for k in table:
+        if k in allowed:
+            continue
+        if not spec.placement and k in {p.name for p in PLACEMENT}:
+            raise FemodesError(f"key {k!r} in {where} does not apply to shape 'mesh': a mesh is used "
+                               f"where it lies (valid keys for shape 'mesh': {', '.join(allowed)})")
+        hint = ""
+        if k == "units" and where != "[guide]":
+            hint = "; a region's lengths are in the units of [guide]"
+        raise FemodesError(f"unknown key {k!r} in {where}{_suggest(k, allowed)}{hint} "
+                           f"(valid keys for shape {shape!r}: {', '.join(allowed)})")
+    missing = [k.name for k in spec.required if k.name not in table]
+    if missing:
+        raise FemodesError(f"shape {shape!r} needs {', '.join(k.name for k in spec.required)}; "
+                           f"missing in {where}: {', '.join(missing)}")
+
+
+def _shape_from(guide, shape, spec, scale, units, where):
+    """The Section of a checked shape table (lengths converted with ``scale``), placed."""
+    kwargs = {k.target: _convert(k, guide[k.name], scale, units, where) for k in spec.keys if k.name in guide}
+    moves = {k.name: _convert(k, guide[k.name], scale, units, where) for k in PLACEMENT if k.name in guide}
     try:
         sec = spec.build(**kwargs)
         if "mirror" in moves:
@@ -669,12 +759,56 @@ def _build_guide(guide, base_dir):
         if "offset" in moves:
             sec = sec.translated(*moves["offset"])
     except FemodesError as exc:
-        raise FemodesError(f"[guide] {shape}: {exc}") from None
+        raise FemodesError(f"{where} {shape}: {exc}") from None
     return sec
 
 
-def _convert(key, value, scale, units):
-    where = f"{key.name} in [guide]"
+def _build_region(table, number, units, section):
+    """One [[region]] table -> the section with that material region added."""
+    where = f"[[region]] {number}"
+    if not isinstance(table, dict):
+        raise FemodesError(f"region must be written as [[region]] tables (one per region), got {_show(table)}")
+    if "shape" not in table:
+        raise FemodesError(f"{where} needs shape = one of {', '.join(n for n in SHAPES if n != 'mesh')}, "
+                           "with that shape's keys, and eps_r")
+    shape = table["shape"]
+    if not isinstance(shape, str) or shape not in SHAPES or shape == "mesh":
+        names = [n for n in SHAPES if n != "mesh"]
+        sug = _suggest(shape, names) if isinstance(shape, str) else ""
+        raise FemodesError(f"shape in {where} must be one of {', '.join(names)}{sug}, got {_show(shape)}"
+                           + (" (a region cannot be a mesh file)" if shape == "mesh" else ""))
+    spec = SHAPES[shape]
+    allowed = ("shape",) + tuple(k.name for k in spec.keys) + tuple(k.name for k in PLACEMENT) + _REGION_KEYS
+    _check_shape_keys(table, shape, spec, allowed, where)
+    if "eps_r" not in table:
+        raise FemodesError(f"{where} needs eps_r (its relative permittivity; 1 for air)")
+    vals = {}
+    for k in ("eps_r", "mu_r"):
+        if k in table:
+            v = _number(f"{k} in {where}", table[k])
+            if not (v > 0 and math.isfinite(v)):
+                raise FemodesError(f"{k} in {where} must be a positive finite number (the real part; losses "
+                                   f"go in tan_delta), got {_show(table[k])}")
+            vals[k] = v
+    if "tan_delta" in table:
+        t = _number(f"tan_delta in {where}", table["tan_delta"], "a loss tangent (number), e.g. 2e-4")
+        if not 0 <= t < 1:
+            raise FemodesError(f"tan_delta in {where} is a loss tangent and must lie in 0 <= tan_delta < 1, "
+                               f"got {_show(table['tan_delta'])}")
+        vals["tan_delta"] = t
+    if "name" in table:
+        if not isinstance(table["name"], str):
+            raise FemodesError(f"name in {where} must be a string, got {_show(table['name'])}")
+        vals["name"] = table["name"]
+    region = _shape_from(table, shape, spec, UNITS[units], units, where)
+    try:
+        return section.with_material(region, **vals)
+    except FemodesError as exc:
+        raise FemodesError(f"{where}: {exc}") from None
+
+
+def _convert(key, value, scale, units, table="[guide]"):
+    where = f"{key.name} in {table}"
     if key.kind == LENGTH:
         return _number(where, value, f"a length in {units}") * scale
     if key.kind == ANGLE:
@@ -687,7 +821,7 @@ def _convert(key, value, scale, units):
         if not isinstance(value, list):
             raise FemodesError(f"{where} must be {_KIND_TEXT[LOOPS]} in {units}, e.g. "
                                f"[[[0, 0], [1, 0], [0, 1]]], got {_show(value)}")
-        return [_points(f"{key.name}[{i}] in [guide]", h, scale, units) for i, h in enumerate(value)]
+        return [_points(f"{key.name}[{i}] in {table}", h, scale, units) for i, h in enumerate(value)]
     if key.kind == AXIS:
         return _choice(where, value, ("x", "y"))
     raise AssertionError(key.kind)

@@ -128,6 +128,8 @@ def _solve(args):
             msg = str(w.message)
             print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
                   file=sys.stderr)
+    if case.loaded:
+        return _report_loaded(case, modeset, args)
     family = case.solve.get("family")
     analysis = analyse(modeset, case.analysis, family=family) if case.analysis is not None else None
     csv_path = write_csv(modeset, args.csv) if args.csv else None
@@ -146,4 +148,25 @@ def _solve(args):
             print(f"wrote {p}")
     for p in figures:
         print(f"wrote {p}")
+    return 0
+
+
+def _report_loaded(case, study, args):
+    """Print / write the results of a guide with material regions (a LoadedStudy)."""
+    from .export import loaded_document, loaded_table, write_loaded_csv, write_loaded_figures
+
+    if args.fields:
+        raise FemodesError("--fields (mesh file with the mode fields) is not available for guides with "
+                           "[[region]] tables yet; use --figures for field patterns")
+    csv_path = write_loaded_csv(study, args.csv) if args.csv else None
+    figures = write_loaded_figures(study, case.output)
+    if args.json:
+        doc = loaded_document(study, title=case.title)
+        doc["files"] = {"csv": csv_path, "figures": figures}
+        print(json.dumps(doc, indent=2, allow_nan=False))
+        return 0
+    sys.stdout.write(loaded_table(study, title=case.title))
+    for p in [csv_path] + figures:
+        if p:
+            print(f"wrote {p}")
     return 0

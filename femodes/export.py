@@ -27,7 +27,8 @@ from .errors import FemodesError
 
 __all__ = ["modes_table", "modes_document", "write_csv", "write_json", "write_figures", "check_figures",
            "DOCUMENT_UNITS", "ANALYSIS_UNITS", "Analysis", "ModeQuantities", "Sweep", "analyse",
-           "analysis_table", "analysis_document", "power_text", "reliable_attenuation", "PERTURBATION_LIMIT"]
+           "analysis_table", "analysis_document", "power_text", "reliable_attenuation", "PERTURBATION_LIMIT",
+           "loaded_table", "loaded_document", "write_loaded_csv", "write_loaded_figures", "LOADED_UNITS"]
 
 #: units of the numbers in :func:`modes_document` and :func:`write_csv`
 DOCUMENT_UNITS = {"length": "m", "angle": "rad", "kc": "rad/m", "kc_error": "rad/m", "fc": "Hz",
@@ -872,3 +873,208 @@ def analysis_document(an) -> dict:
         "cautions": list(an.cautions),
     }
     return _clean(doc)
+
+
+# ----------------------------------------------------------------------------- loaded guides
+
+#: units of the numbers in :func:`loaded_document` (SI)
+LOADED_UNITS = {"length": "m", "fc": "Hz", "fc_error": "Hz", "frequency": "Hz", "beta": "rad/m",
+                "beta_error": "rad/m", "guide_wavelength": "m", "alpha_dielectric": "Np/m",
+                "phase_velocity": "1 (v_p / c0)", "group_velocity": "1 (v_g / c0)",
+                "effective_permittivity": "1 ((beta / k0)^2)",
+                "accuracy": "1 (relative: on beta^2 / (k0^2 eps_max mu_max) at a frequency, on fc for cutoffs)"}
+
+
+def _regions_text(study):
+    bits = []
+    for i, m in enumerate(study.section.materials, start=1):
+        name = f' "{m.name}"' if m.name else ""
+        extra = (f", mu_r = {m.mu_r:g}" if m.mu_r != 1 else "") + (f", tan_delta = {m.tan_delta:.3g}"
+                                                                   if m.tan_delta else "")
+        bits.append(f"{i}{name}: eps_r = {m.eps_r:g}{extra}")
+    return "; ".join(bits)
+
+
+def _share(x):
+    """A longitudinal energy share: '0' below 1e-12 (rounding noise of a pure TE / TM mode)."""
+    return "0" if abs(x) < 1e-12 else _g(x, 3)
+
+
+def _loaded_mode_row(m):
+    from .quantities import NP_TO_DB
+
+    b = m.beta()
+    prop = m.propagating
+    sig = _sig_digits(abs(b), m.beta_error) if prop else 5
+    ad = m.dielectric_attenuation() if prop else math.nan
+    return [str(m.index + 1), m.label, m.family,
+            _significant(b, sig) if prop else f"-j{_g(abs(b))}",
+            f"{m.beta_error:.0e}" if m.beta_error > 0 else "-",
+            _g(m.guide_wavelength() * 1e3) if prop else "-",
+            f"{m.effective_permittivity:.5f}" if prop else "-",
+            f"{m.phase_velocity():.4f}" if prop else "-",
+            f"{m.group_velocity():.4f}" if prop else "-",
+            _share(m.e_share), _share(m.h_share),
+            (_g(ad * NP_TO_DB, 4) if ad > 0 else "0") if prop else "-"]
+
+
+def loaded_table(study, title=None) -> str:
+    """A :class:`femodes.loaded.LoadedStudy` as text (GHz, mm, rad/m, dB/m): cutoffs, the
+    single-mode band, the modes at the frequency, and a few rows of the dispersion."""
+    from . import __version__
+
+    sec = study.section
+    lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""),
+             f"section: {sec.describe()}",
+             f"fill: eps_r = {study.eps_r:g}, mu_r = {study.mu_r:g}"
+             + (f", tan_delta = {study.tan_delta:.3g}" if study.tan_delta else "")
+             + f"; regions: {_regions_text(study)}",
+             f"full-vector solve (edge elements of order {study.order}); accuracy asked: {study.accuracy:.1e}; "
+             f"unknowns: {study.n_dofs}",
+             "", "cutoffs (beta = 0) of the loaded guide:"]
+    rows = [[str(c.index + 1), c.label, format_ghz(c.fc, c.fc_error), _err_text(c.fc_error),
+             _significant(299792458.0 / c.fc * 1e3, _sig_digits(c.fc, c.fc_error))] for c in study.cutoffs]
+    lines += _grid(["#", "type at cutoff", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"], rows, {0, 2, 3, 4})
+    lines.append("  (TE-type: only transverse E at cutoff; TM-type: only E_z.  Above cutoff the modes are "
+                 "hybrid in general.)")
+    band = study.single_mode_band
+    if band is not None:
+        c1, c2 = study.cutoffs[0], study.cutoffs[1]
+        lines.append(f"single-mode band: {format_ghz(band[0], c1.fc_error)} - {format_ghz(band[1], c2.fc_error)} GHz "
+                     f"(ratio {band[1] / band[0]:.3f}:1, between the two lowest cutoffs)")
+    if study.frequency is not None:
+        lines += ["", f"at f = {_f_ghz(study.frequency)} GHz: the modes of largest beta "
+                  f"(unknowns: {study.n_dofs_at_f})"]
+        prop = [m for m in study.modes if m.propagating]
+        if not prop:
+            lines.append("  no mode propagates at this frequency")
+        else:
+            head = ["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
+                    "v_g/c", "Ez share", "Hz share", "dielectric [dB/m]"]
+            lines += _grid(head, [_loaded_mode_row(m) for m in prop], {0, 3, 4, 5, 6, 7, 8, 9, 10, 11})
+            lines.append("  (label: the empty-guide mode it grows from, where its transverse E is mostly that "
+                         "mode's; Ez / Hz share: the longitudinal share of the electric / magnetic energy, 0 "
+                         "for TE / TM; eps_eff = (beta/k0)^2)")
+            if study.more_propagate:
+                lines.append(f"  every one of the {len(study.modes)} modes asked for propagates: more may; "
+                             "ask for more modes ([solve] modes or --modes) to see them all")
+        lines.append("  wall loss, impedance and power handling are not computed for loaded guides yet.")
+    disp = study.dispersion
+    if disp is not None:
+        fs = disp.frequencies
+        picks = np.unique(np.round(np.linspace(0, fs.size - 1, min(fs.size, 7))).astype(int))
+        names = [(disp.labels[k] if k < len(disp.labels) and disp.labels[k] else f"mode {k + 1}")
+                 for k in range(disp.beta2.shape[1])]
+        lines += ["", f"dispersion: beta [rad/m] of the tracked modes, {fs.size} frequencies "
+                  f"{_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz (tracked by field overlap; '-' evanescent):"]
+        head = ["f [GHz]"] + [f"{k + 1}: {n}" for k, n in enumerate(names)]
+        rows = [[_f_ghz(fs[i])] + [(_g(math.sqrt(b2), 6) if b2 > 0 else "-") for b2 in disp.beta2[i]]
+                for i in picks]
+        lines += _grid(head, rows, set(range(len(head))))
+        low = float(np.min(disp.overlap))
+        if low < 0.9:
+            lines.append(f"  lowest overlap between neighbouring frequencies {low:.2f}: take more points to be "
+                         "sure of the tracking")
+    return "\n".join(lines) + "\n"
+
+
+def loaded_document(study, title=None) -> dict:
+    """A JSON-ready dict of a :class:`femodes.loaded.LoadedStudy` (SI units, no NaN)."""
+    from . import __version__
+
+    sec = study.section
+    doc = {
+        "femodes_version": __version__, "title": title, "units": dict(LOADED_UNITS),
+        "section": {"kind": sec.kind, "description": sec.describe(),
+                    "params": {k: float(v) for k, v in sec.params.items()
+                               if isinstance(v, (int, float)) and not isinstance(v, bool)}},
+        "fill": {"eps_r": study.eps_r, "mu_r": study.mu_r, "tan_delta": study.tan_delta},
+        "regions": [{"name": m.name or None, "eps_r": m.eps_r, "mu_r": m.mu_r, "tan_delta": m.tan_delta}
+                    for m in sec.materials],
+        "accuracy": study.accuracy,
+        "discretisation": {"unknowns": int(study.n_dofs), "element_order": int(study.order),
+                           "elements": "Nedelec (transverse E) and Lagrange (E_z)"},
+        "cutoffs": [{"index": c.index, "label": c.label, "field": c.field, "fc": c.fc, "fc_error": c.fc_error}
+                    for c in study.cutoffs],
+        "single_mode_band": None if study.single_mode_band is None else
+        {"f_low": study.single_mode_band[0], "f_high": study.single_mode_band[1]},
+    }
+    if study.frequency is not None:
+        doc["at_frequency"] = {"frequency": study.frequency, "unknowns": int(study.n_dofs_at_f),
+                               "more_may_propagate": bool(study.more_propagate), "modes": [{
+                                   "index": m.index, "label": m.label, "family": m.family, "parent": m.parent,
+                                   "parent_share": _finite(m.parent_share),
+                                   "beta": _finite(m.beta().real) if m.propagating else None,
+                                   "alpha": None if m.propagating else _finite(abs(m.beta())),
+                                   "beta_error": _finite(m.beta_error),
+                                   "guide_wavelength": _finite(m.guide_wavelength()),
+                                   "effective_permittivity": _finite(m.effective_permittivity),
+                                   "phase_velocity": _finite(m.phase_velocity()),
+                                   "group_velocity": _finite(m.group_velocity()),
+                                   "alpha_dielectric": _finite(m.dielectric_attenuation()),
+                                   "e_share": _finite(m.e_share), "h_share": _finite(m.h_share)}
+                                   for m in study.modes]}
+    d = study.dispersion
+    if d is not None:
+        b2 = np.asarray(d.beta2, dtype=float)
+        doc["dispersion"] = {"frequencies": [float(f) for f in d.frequencies],
+                             "labels": [l or None for l in d.labels] or None,
+                             "beta": [[_finite(math.sqrt(v)) if v > 0 else None for v in row] for row in b2],
+                             "beta_squared": [[float(v) for v in row] for row in b2],
+                             "family": [[str(f) for f in row] for row in d.family],
+                             "overlap": [[float(v) for v in row] for row in d.overlap]}
+    return _clean(doc)
+
+
+def write_loaded_csv(study, path):
+    """The modes at the frequency (or, without one, the cutoffs) of a loaded study as CSV (SI)."""
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    if study.frequency is not None:
+        w.writerow(["index", "label", "family", "frequency_Hz", "beta_rad_per_m", "beta_error_rad_per_m",
+                    "guide_wavelength_m", "effective_permittivity", "vp_over_c", "vg_over_c", "e_share",
+                    "h_share", "alpha_dielectric_Np_per_m"])
+        for m in study.modes:
+            if not m.propagating:
+                continue
+            w.writerow([m.index, m.label, m.family, repr(study.frequency), repr(float(m.beta())),
+                        repr(m.beta_error), repr(m.guide_wavelength()), repr(m.effective_permittivity),
+                        repr(m.phase_velocity()), repr(m.group_velocity()), repr(m.e_share), repr(m.h_share),
+                        repr(m.dielectric_attenuation())])
+    else:
+        w.writerow(["index", "label", "field_at_cutoff", "fc_Hz", "fc_error_Hz"])
+        for c in study.cutoffs:
+            w.writerow([c.index, c.label, c.field, repr(c.fc), repr(c.fc_error)])
+    _write_text(path, buf.getvalue(), "CSV")
+    return str(path)
+
+
+def write_loaded_figures(study, output):
+    """The figures of [output] for a loaded study: field patterns of the modes at the frequency
+    ("fields") and the dispersion chart ("dispersion").  Returns the written paths."""
+    if not output.figures:
+        return []
+    figs = _figures_module(output)
+    from pathlib import Path
+
+    d = Path(output.directory)
+    d.mkdir(parents=True, exist_ok=True)
+    out = []
+    if "fields" in output.figures and study.frequency is not None:
+        prop = [m for m in study.modes if m.propagating]
+        n = len(prop) if output.field_count is None else min(output.field_count, len(prop))
+        for m in prop[:n]:
+            p = d / f"mode{m.index + 1:02d}_{figs.safe_name(m.label)}.{output.format}"
+            figs.loaded_field_pattern(m, p, section=study.section)
+            out.append(str(p))
+    if "dispersion" in output.figures and study.dispersion is not None:
+        p = d / f"dispersion.{output.format}"
+        figs.dispersion_chart(study.dispersion, p, section=study.section, eps_r=study.eps_r, mu_r=study.mu_r,
+                              empty=study.empty_modes)
+        out.append(str(p))
+    import matplotlib.pyplot as plt
+
+    plt.close("all")
+    return out

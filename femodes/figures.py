@@ -37,7 +37,7 @@ from .errors import FemodesError, positive_number
 from .modes import _transverse
 
 __all__ = ["field_pattern", "field_patterns", "field_samples", "mode_chart", "attenuation_chart", "band_chart",
-           "safe_name"]
+           "dispersion_chart", "loaded_field_pattern", "safe_name"]
 
 
 def _style():
@@ -1044,11 +1044,14 @@ def band_chart(modeset, path=None, *, band=None, frequency=None, f_max=None, dpi
 
 # ----------------------------------------------------------------------------- dispersion
 
-def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, dpi=200):
+def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labels=None, empty=None, dpi=200):
     """beta against frequency for the tracked curves of a loaded guide (``femodes.dispersion``).
 
     Each curve is drawn where it propagates (beta^2 > 0) and labelled at its right end with its
-    column number and family there; the light lines beta = k0 sqrt(eps_r mu_r) of the background
+    column number and its label (``labels``, else ``disp.labels``: e.g. 'hybrid from TE10'), or
+    its family there when it has none; ``empty``, pairs (label, kc in rad/m) of modes of the
+    empty guide (the section without its regions, filled with eps_r, mu_r), draws their
+    beta = sqrt(k0^2 eps_r mu_r - kc^2) dotted for comparison (the phase a load adds); the light lines beta = k0 sqrt(eps_r mu_r) of the background
     fill and of every material region are drawn dashed (a guided mode lies below the highest
     one).  Returns the Figure; saves it when ``path`` is given.
     """
@@ -1068,6 +1071,7 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, dpi=
                     (fg[-1], k0[-1] * np.sqrt(eps * mu)), xytext=(-4, 4), textcoords="offset points",
                     ha="right", va="bottom", fontsize=7.5, color="#5f6468")
     colours = [st["family"][k][1] for k in ("TE", "TM", "TEM")] + ["#6b4c9a", "#b5651d", "#2e7d32"]
+    names = list(labels) if labels is not None else list(getattr(disp, "labels", ()) or ())
     for k in range(b2.shape[1]):
         ok = b2[:, k] > 0
         if not np.any(ok):
@@ -1077,18 +1081,92 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, dpi=
         ax.plot(fg, beta, lw=1.8, color=c, zorder=3)
         last = np.flatnonzero(ok)[-1]
         fam = disp.family[last, k] if np.ndim(disp.family) == 2 else ""
-        ax.annotate(f"{k + 1} ({fam})", (fg[last], beta[last]), xytext=(4, 0), textcoords="offset points",
+        name = names[k] if k < len(names) and names[k] else fam
+        ax.annotate(f"{k + 1} ({name})", (fg[last], beta[last]), xytext=(4, 0), textcoords="offset points",
                     va="center", fontsize=8, color=c)
+    for lab, kc in (empty or ()):
+        eb2 = k0 ** 2 * float(eps_r) * float(mu_r) - float(kc) ** 2
+        ok = eb2 > 0
+        if np.any(ok):
+            eb = np.sqrt(np.where(ok, eb2, np.nan))
+            ax.plot(fg, eb, ls=":", lw=1.2, color="#6c7378", zorder=2, gid="empty-guide")
+            last = np.flatnonzero(ok)[-1]
+            ax.annotate(f"empty guide {lab}", (fg[last], eb[last]), xytext=(4, -9), textcoords="offset points",
+                        va="center", fontsize=7.5, color="#5f6468")
     ax.set_xlabel("frequency (GHz)")
     ax.set_ylabel("beta (rad/m)")
     ax.set_xlim(fg[0], fg[-1] + 0.12 * (fg[-1] - fg[0]))
-    ax.set_ylim(bottom=0)
+    top = max(np.sqrt(max(e * m for e, m in media)) * k0[-1], np.sqrt(max(float(np.max(b2)), 0.0)))
+    ax.set_ylim(0, 1.08 * top)
     ax.grid(color="#d9dcdf", lw=0.6)
     title = "Dispersion of the tracked modes"
     if section is not None:
         import textwrap
         title += "\n" + "\n".join(textwrap.wrap(section.describe(), 80))
     ax.set_title(title, fontsize=10)
+    if path is not None:
+        _save(fig, path, dpi=dpi)
+    return fig
+
+
+# ----------------------------------------------------------------------------- loaded guides
+
+def loaded_field_pattern(mode, path=None, *, section=None, arrows=True, density=18, cmap=None,
+                         subdivisions=3, dpi=200):
+    """Field pattern of one mode of a loaded guide (:class:`femodes.loaded.LoadedMode`).
+
+    Colour: ``|E_t|`` normalised to its peak; arrows: ``E_t`` (real: the transverse field of a
+    lossless guided mode has one phase, E_z is in quadrature with it).  The mode is normalised
+    with int (|E_t|^2 + |E_z|^2) dA = 1 (femodes.vector).  The material regions of ``section`` are
+    outlined dashed and marked with their eps_r; ``E_t``'s normal component jumps across them
+    (normal D is continuous), which the colours show.  The title gives the label, the frequency,
+    beta and the longitudinal shares.  Sampled on the solution mesh, each element cut into
+    ``subdivisions^2`` triangles (:meth:`femodes.vector.VectorProblem.sample`).  Returns the Figure; saves it when ``path`` is given.
+    """
+    vm = getattr(mode, "vector", mode)
+    skm = vm.problem.mesh
+    x, y, t, F = vm.problem.sample(vm, subdivisions)
+    # shared points averaged (matplotlib's triangle finder needs a valid triangulation): the
+    # jump of normal E at an interface then spans one sub-triangle on each side
+    x, y, t, ex, ey = _merge_points(x, y, t, np.real(F[0]), np.real(F[1]))
+    data = dict(x=x, y=y, t=t, ex=ex, ey=ey, hx=ex, hy=ey, magnitude=np.hypot(ex, ey))
+    st = _style()
+    if section is None:
+        loops = _boundary_loops(np.vstack([skm.p[0], skm.p[1]]), skm.t[:3].T)
+        outer, holes = loops[0], loops[1:]
+    else:
+        outer, holes = section.loops[0].polyline(96), [l.polyline(96) for l in section.loops[1:]]
+    peak = float(np.max(data["magnitude"]))
+    if not peak > 0:
+        raise FemodesError(f"mode {getattr(mode, 'label', '')!r} has no transverse field to plot")
+    w = float(np.ptp(outer[0]))
+    h = float(np.ptp(outer[1]))
+    aspect = min(max(h / w, 0.3), 1.6)
+    fig = _new_figure(6.3, 5.2 * aspect + 1.3)
+    ax = fig.add_subplot(1, 1, 1)
+    def share(v):
+        return "0" if abs(v) < 1e-12 else f"{v:.3g}"
+
+    note = (f"$E_z$ share {share(vm.e_share)}, $H_z$ share {share(vm.h_share)} of the electric / magnetic energy"
+            f"  ·  peak $|E_t|$ = {peak:.4g} m$^{{-1}}$")
+    pc = _draw_panel(ax, data, "E", outer, holes, arrows=arrows, lines=False, density=density,
+                     cmap=cmap or st["cmap"], vmax=peak, note=note)
+    if section is not None:
+        for m in section.materials:
+            for loop in (m.region,) + tuple(m.holes):
+                q = loop.polyline(96) * 1e3
+                ax.plot(np.append(q[0], q[0, 0]), np.append(q[1], q[1, 0]), ls="--", lw=1.1,
+                        color="#f28e2b", zorder=4.5, gid="material-outline")
+            c = m.region.polyline(96).mean(axis=1) * 1e3
+            ax.annotate(m.name or f"eps_r = {m.eps_r:g}", (c[0], c[1]), fontsize=7.5, color="#f28e2b",
+                        ha="center", va="center", zorder=6,
+                        bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.7))
+    cb = fig.colorbar(pc, ax=[ax], shrink=1.0, pad=0.02, aspect=25)
+    cb.set_label("$|E_t|$ (normalised to peak)", fontsize=9)
+    cb.ax.tick_params(labelsize=8)
+    label = getattr(mode, "label", vm.family)
+    beta = math.sqrt(vm.beta2) if vm.beta2 > 0 else float("nan")
+    fig.suptitle(f"{label}   f = {_ghz(vm.frequency):.4g} GHz,  beta = {beta:.5g} rad/m", fontsize=12)
     if path is not None:
         _save(fig, path, dpi=dpi)
     return fig
