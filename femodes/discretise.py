@@ -78,7 +78,7 @@ def discretise(skmesh, order: int) -> Discretisation:
     curved = not type(skmesh).__name__ == "MeshTri1"
     intorder = 2 * int(order) + (2 if curved else 0)
     basis = Basis(skmesh, elem, intorder=intorder)
-    phi = np.array([b[0].value for b in basis.basis])       # (n_local, n_elements, n_qp)
+    phi = np.array([np.asarray(b[0]) for b in basis.basis])       # (n_local, n_elements, n_qp)
     dphi = np.array([b[0].grad for b in basis.basis])       # (n_local, 2, n_elements, n_qp)
     dx = basis.dx                                           # (n_elements, n_qp) weights x |J|
     Ke = np.einsum("ikeq,jkeq,eq->ije", dphi, dphi, dx, optimize=True)

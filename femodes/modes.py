@@ -76,7 +76,7 @@ class ModeField:
         for k in range(basis.Nbfun):
             phi = basis.elem.gbasis(mapping, ref, k, tind=tind)[0]
             c = self.coeffs[dofs[k]][:, None]
-            val += c * phi.value
+            val += c * np.asarray(phi)
             gx += c * phi.grad[0]
             gy += c * phi.grad[1]
         return val, gx, gy, xy
@@ -105,7 +105,7 @@ def interpolation_matrices(basis, points):
         phi = basis.elem.gbasis(basis.mapping, r, k, tind=c_ok)[0]
         rows.append(idx)
         cols.append(basis.element_dofs[k, c_ok])
-        vals.append(phi.value[:, 0])
+        vals.append(np.asarray(phi)[:, 0])
         dxs.append(phi.grad[0][:, 0])
         dys.append(phi.grad[1][:, 0])
     rows, cols = np.concatenate(rows), np.concatenate(cols)
@@ -128,7 +128,7 @@ def reference_points_matrix(basis, ref):
         phi = basis.elem.gbasis(basis.mapping, ref, k, tind=tind)[0]
         rows.append(rows_base.ravel())
         cols.append(np.repeat(basis.element_dofs[k], q))
-        vals.append(phi.value.ravel())
+        vals.append(np.asarray(phi).ravel())
     P = coo_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
                    shape=(ne * q, basis.N)).tocsr()
     return P, basis.mapping.F(ref)

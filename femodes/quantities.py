@@ -481,7 +481,7 @@ def _eval_reference(field, tind, X):
     for k in range(basis.Nbfun):
         phi = basis.elem.gbasis(basis.mapping, X, k, tind=tind)[0]
         c = field.coeffs[dofs[k]][:, None]
-        val += c * phi.value
+        val += c * np.asarray(phi)
         gx += c * phi.grad[0]
         gy += c * phi.grad[1]
     return val, gx, gy
@@ -528,7 +528,7 @@ def _normal_flux(mode, rule):
     on_wall[np.unique(mesh.facets[:, rule["facets"]])] = True
     sel = np.flatnonzero(on_wall[mesh.t].any(axis=0))
     dofs = basis.element_dofs[:, sel]
-    phi = np.array([b[0].value[sel] for b in basis.basis])        # (nl, ns, nq)
+    phi = np.array([np.asarray(b[0])[sel] for b in basis.basis])        # (nl, ns, nq)
     dphi = np.array([b[0].grad[:, sel] for b in basis.basis])     # (nl, 2, ns, nq)
     dx = basis.dx[sel]
     cl = c[dofs]                                                  # (nl, ns)
@@ -539,7 +539,7 @@ def _normal_flux(mode, rule):
     np.add.at(r, dofs.ravel(), re.ravel())
     # wall mass matrix on the Gauss rule of the walls
     tind, X, dl = rule["tind"], rule["X"], rule["dl"]
-    vals = np.array([basis.elem.gbasis(basis.mapping, X, k, tind=tind)[0].value for k in range(basis.Nbfun)])
+    vals = np.array([np.asarray(basis.elem.gbasis(basis.mapping, X, k, tind=tind)[0]) for k in range(basis.Nbfun)])
     edofs = basis.element_dofs[:, tind]                           # (nl, m)
     Me = np.einsum("iaq,jaq,aq->ija", vals, vals, dl)
     nl = edofs.shape[0]

@@ -336,7 +336,7 @@ class VectorProblem:
         bz = Basis(skm, elem_z, intorder=q)
         phi = np.array([b[0] for b in bt.basis])    # (nt_loc, 2, ne, nq)
         curl = np.array([b[0].curl for b in bt.basis])    # (nt_loc, ne, nq)
-        lz = np.array([b[0].value for b in bz.basis])     # (nz_loc, ne, nq)
+        lz = np.array([b[0] for b in bz.basis])     # (nz_loc, ne, nq)
         gz = np.array([b[0].grad for b in bz.basis])      # (nz_loc, 2, ne, nq)
         dx = bt.dx
         dxe, dxm = dx * eps[:, None], dx / mu[:, None]
@@ -853,12 +853,12 @@ class VectorProblem:
         for k in range(bt.Nbfun):
             fk = bt.elem.gbasis(bt.mapping, X, k)[0]
             ck = mode.et[bt.element_dofs[k]][:, None]
-            ev += ck[None] * np.asarray(fk.value)
+            ev += ck[None] * np.asarray(fk)
             ec += ck * np.asarray(fk.curl)
         for k in range(bz.Nbfun):
             fk = bz.elem.gbasis(bz.mapping, X, k)[0]
             ck = mode.ez[bz.element_dofs[k]][:, None]
-            zv += ck * np.asarray(fk.value)
+            zv += ck * np.asarray(fk)
             zg += ck[None] * np.asarray(fk.grad)
         xy = bt.mapping.F(X)                                      # (2, ne, q)
         omega = 2 * math.pi * mode.frequency
@@ -941,10 +941,10 @@ def _eval_chunks(basis, coeffs, cells, ref, kind):
             fk = basis.elem.gbasis(basis.mapping, X, k, tind=c)[0]
             ck = coeffs[dofs[k, c]]
             if kind == "hcurl":
-                val[:, s:s + m] += ck * fk.value[:, idx, idx]
+                val[:, s:s + m] += ck * np.asarray(fk)[:, idx, idx]
                 der[s:s + m] += ck * fk.curl[idx, idx]
             else:
-                val[s:s + m] += ck * fk.value[idx, idx]
+                val[s:s + m] += ck * np.asarray(fk)[idx, idx]
                 der[:, s:s + m] += ck * fk.grad[:, idx, idx]
     return val, der
 

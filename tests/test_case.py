@@ -412,3 +412,79 @@ def test_analysis_overrides(tmp_path):
         case.with_options(frequency="high")
     with pytest.raises(FemodesError, match="--frequency must be a positive frequency"):
         case.with_options(frequency="0")
+
+
+# ----------------------------------------------------------------------------- [[region]] tables
+
+SLAB = '''title = "slab on the bottom wall"
+[guide]
+shape = "rectangle"
+units = "mm"
+width = 22.86
+height = 10.16
+[[region]]
+name = "slab"
+shape = "rectangle"
+width = 22.86
+height = 5.08
+offset = [0, -2.54]
+eps_r = 2.25
+tan_delta = 1e-3
+'''
+
+
+def test_region_tables_add_materials_in_guide_units(tmp_path):
+    case = load_text(tmp_path, SLAB + '[[region]]\nshape = "circle"\nradius = 1\noffset = [5, 2]\neps_r = 9.8\n'
+                     'mu_r = 1.5\n')
+    assert case.loaded
+    m1, m2 = case.section.materials
+    assert (m1.eps_r, m1.mu_r, m1.tan_delta, m1.name) == (2.25, 1.0, 1e-3, "slab")
+    assert (m2.eps_r, m2.mu_r, m2.tan_delta, m2.name) == (9.8, 1.5, 0.0, "")
+    # the slab's outline in metres (units of [guide]: mm)
+    xy = m1.region.polyline(4)
+    assert close(xy[1].min(), -5.08e-3) and close(xy[1].max(), 0.0, rel=0) and close(xy[0].max(), 11.43e-3)
+    xy2 = m2.region.polyline(16)
+    assert close(xy2[0].mean(), 5e-3, rel=1e-9) and close(xy2[0].max() - xy2[0].min(), 2e-3, rel=1e-9)
+
+
+@pytest.mark.parametrize("extra, words", [
+    ('[[region]]\nshape = "circle"\nradius = 1\n', ["[[region]] 2 needs eps_r"]),
+    ('[[region]]\nshape = "circle"\nradius = 1\neps_r = 2\nunits = "cm"\n', ["units", "units of [guide]"]),
+    ('[[region]]\nshape = "mesh"\nfile = "x.msh"\neps_r = 2\n', ["cannot be a mesh file"]),
+    ('[[region]]\nshape = "circel"\nradius = 1\neps_r = 2\n', ["did you mean 'circle'?"]),
+    ('[[region]]\nshape = "circle"\nradius = 1\neps_r = 2\ntan_delta = 2\n', ["0 <= tan_delta < 1"]),
+    ('[[region]]\nshape = "circle"\nradius = 1\neps_r = -1\n', ["eps_r in [[region]] 2", "positive"]),
+    ('[[region]]\nshape = "circle"\nradius = 1\noffset = [100, 0]\neps_r = 2\n', ["[[region]] 2", "outside the guide"]),
+    ('[solve]\nfamily = "TE"\n', ["family", "hybrid"]),
+    ('[solve]\norder = 4\n', ["1, 2 or 3", "edge elements"]),
+    ('[analysis]\nfrequency = 10\nconductor = "copper"\n', ["conductor", "not computed", "[[region]]"]),
+    ('[analysis]\nfrequency = 10\n[output]\nfigures = ["chart"]\n', ["'chart' does not apply", "fields, dispersion"]),
+    ('[output]\nfigures = ["fields"]\n', ["at a frequency", "[analysis] frequency"]),
+    ('[analysis]\nfrequency = 10\n[output]\nfigures = ["dispersion"]\n', ["needs a band"]),
+])
+def test_region_errors_say_what_to_fix(tmp_path, extra, words):
+    msg = error_of(tmp_path, SLAB + extra)
+    for w in words:
+        assert w in msg, (w, msg)
+
+
+def test_region_table_written_single_is_refused(tmp_path):
+    msg = error_of(tmp_path, '[guide]\nshape = "circle"\nradius = 5\n[region]\nshape = "circle"\nradius = 1\neps_r = 2\n')
+    assert "[[region]]" in msg and "double brackets" in msg
+
+
+def test_loaded_case_solves_against_the_layered_reference(tmp_path):
+    # cutoffs of the slab-loaded WR-90 from the transverse-resonance equations (Collin, Field
+    # Theory of Guided Waves, ch. 6), computed in femodes.reference without finite elements
+    from femodes import reference as ref
+
+    case = load_text(tmp_path, SLAB + '[solve]\nmodes = 3\naccuracy = 1e-6\n[analysis]\nfrequency = 13\n')
+    study = run_case(case)
+    want = ref.layered_guide_cutoffs(22.86e-3, 10.16e-3, [(5.08e-3, 2.25, 1.0), (5.08e-3, 1.0, 1.0)], 3)
+    for c, r in zip(study.cutoffs, want):
+        assert abs(c.fc / r.frequency - 1) < 1e-6
+    betas = sorted((m.beta() for m in study.modes), reverse=True)
+    refs = ref.slab_on_wall_modes(22.86e-3, 10.16e-3, 5.08e-3, 2.25, 13e9, len(betas))
+    for b, r in zip(betas, refs):
+        assert abs(b ** 2 - r.beta2) / ((2 * math.pi * 13e9 / C0) ** 2 * 2.25) < 1e-6
+    assert study.more_propagate  # five modes propagate at 13 GHz (the reference), three were asked for

@@ -416,3 +416,81 @@ def test_bundled_example_prints_band_impedance_loss_power_and_cautions(capsys):
     block = " ".join(line.strip() for line in lines[c:])
     for w in CAUTION_WORDS:
         assert w in block, w
+
+
+# ----------------------------------------------------------------------------- loaded guides
+
+SIDE_SLAB = '''title = "full-height slab against the side wall"
+[guide]
+shape = "rectangle"
+width = 22.86
+height = 10.16
+[[region]]
+shape = "rectangle"
+width = 4
+height = 10.16
+offset = [-9.43, 0]
+eps_r = 2.56
+tan_delta = 5e-4
+[solve]
+modes = 3
+accuracy = 1e-6
+[analysis]
+band = [7, 11]
+points = 9
+frequency = 9
+[output]
+figures = ["fields", "dispersion"]
+'''
+
+
+def test_loaded_case_json_against_the_slab_equation(tmp_path, capsys):
+    # a full-height slab of width t = 4 mm against the side wall x = 0 of WR-90: the guide layered
+    # along x, its modes from the transverse-resonance equations (Collin, Field Theory of Guided
+    # Waves, ch. 6; the dominant one is Pozar's TE_m0 of sec. 3.3), femodes.reference, no FE
+    from femodes import reference as ref
+
+    path = tmp_path / "slab.toml"
+    path.write_text(SIDE_SLAB, encoding="utf-8")
+    code, out, err = run(capsys, "solve", str(path), "--json", "--figures", str(tmp_path / "figs"))
+    assert code == 0, err
+    doc = strict_json(out)
+    a, t = 22.86e-3, 4e-3
+    k0 = 2 * math.pi * 9e9 / C0
+    at_f = doc["at_frequency"]
+    first = at_f["modes"][0]
+    layers = [(t, 2.56, 1.0), (a - t, 1.0, 1.0)]
+    want = ref.layered_guide_modes(a, 10.16e-3, layers, 9e9, count=1, axis="x")[0].beta2
+    assert abs(first["beta"] ** 2 - want) / (k0 ** 2 * 2.56) < 1e-6
+    assert first["family"] == "TE" and first["label"] == "TE from TE10"
+    assert doc["regions"] == [{"name": None, "eps_r": 2.56, "mu_r": 1.0, "tan_delta": 5e-4}]
+    assert 0 < first["alpha_dielectric"] and 0 < first["group_velocity"] < 1
+    disp = doc["dispersion"]
+    assert len(disp["frequencies"]) == 9 and disp["labels"][0] == "TE from TE10"
+    for f, row in zip(disp["frequencies"], disp["beta"]):
+        w = ref.layered_guide_modes(a, 10.16e-3, layers, f, count=1, axis="x")[0].beta2
+        kk = (2 * math.pi * f / C0) ** 2 * 2.56
+        assert abs(row[0] ** 2 - w) / kk < 1e-6
+    files = doc["files"]["figures"]
+    assert any(p.endswith("dispersion.png") for p in files) and any("mode01" in p for p in files)
+    for p in files:
+        assert Path(p).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_loaded_case_table(tmp_path, capsys):
+    path = tmp_path / "slab.toml"
+    path.write_text(SIDE_SLAB.replace("points = 9", "points = 3"), encoding="utf-8")
+    code, out, err = run(capsys, "solve", str(path), "--no-figures", "--csv", str(tmp_path / "m.csv"))
+    assert code == 0, err
+    for words in ("cutoffs (beta = 0)", "TE-type 1", "single-mode band", "at f = 9 GHz", "TE from TE10",
+                  "v_g/c", "dielectric [dB/m]", "not computed for loaded guides", "dispersion:"):
+        assert words in out, words
+    rows = list(csv.DictReader(open(tmp_path / "m.csv", encoding="utf-8")))
+    assert rows[0]["label"] == "TE from TE10" and float(rows[0]["beta_rad_per_m"]) > 0
+
+
+def test_loaded_case_refuses_fields_file(tmp_path, capsys):
+    path = tmp_path / "slab.toml"
+    path.write_text(SIDE_SLAB, encoding="utf-8")
+    code, out, err = run(capsys, "solve", str(path), "--no-figures", "--fields", str(tmp_path / "f.vtu"))
+    assert code == 2 and "--fields" in err and "[[region]]" in err

@@ -7,6 +7,7 @@ Electromagnetic Fields, sec. 4.x), computed in femodes.reference (no finite-elem
 
 import math
 
+import numpy as np
 import pytest
 
 import femodes as fm
@@ -78,6 +79,7 @@ def test_dispersion_curves_follow_the_references(slab_guide):
             assert abs(b2[i, k] - ref_b2(f)[label]) / scale < 1e-6
 
 
+@pytest.mark.filterwarnings("error")  # a coarse-mesh run once warned of complex eigenvalues here
 def test_dispersion_figure(slab_guide, tmp_path):
     import numpy as np
 
@@ -92,3 +94,116 @@ def test_dispersion_figure(slab_guide, tmp_path):
     assert len(ax.lines) == 5
     texts = [t.get_text() for t in ax.texts]
     assert any("eps_r = 2.25" in t for t in texts) and any(t.startswith("1 (") for t in texts)
+
+
+# --------------------------------------------------------------------- quantities of loaded modes
+
+def _ref_beta2(f, label, eps=EPS):
+    return {r.label: r.beta2 for r in ref.slab_on_wall_modes(A, B, B / 2, eps, f, 6)}[label]
+
+
+@pytest.fixture(scope="module")
+def slab_modes(slab_guide):
+    return fm.solve(slab_guide, modes=4, frequency=13e9, accuracy=1e-7)
+
+
+def _matched(m, f=13e9):
+    """The reference label of a computed mode: the reference beta nearest to it."""
+    refs = ref.slab_on_wall_modes(A, B, B / 2, EPS, f, 6)
+    return min(refs, key=lambda r: abs(r.beta2 - m.beta().real ** 2)).label
+
+
+def test_group_velocity_matches_the_reference_curve(slab_modes):
+    # v_g = d omega / d beta: from the LSE/LSM transverse-resonance curve beta(f) (Collin ch. 6) by
+    # a central difference in f; femodes gets it from one solve by perturbation theory
+    f, df = 13e9, 1e6
+    for m in slab_modes:
+        lab = _matched(m)
+        dbeta = (math.sqrt(_ref_beta2(f + df, lab)) - math.sqrt(_ref_beta2(f - df, lab))) / (2 * df)
+        vg_ref = 2 * math.pi / dbeta / C0
+        assert m.group_velocity() == pytest.approx(vg_ref, rel=2e-6), lab
+
+
+def test_dielectric_attenuation_of_a_slab_matches_the_loss_perturbation():
+    # first-order loss: eps -> eps (1 - j tan_delta) in the slab moves beta^2 by
+    # -j tan_delta eps d(beta^2)/d(eps) (common practice: perturbation of a lossless mode), so
+    # alpha_d = tan_delta eps (d beta^2 / d eps) / (2 beta), d beta^2 / d eps from the
+    # transverse-resonance solution (Collin ch. 6) by a central difference in eps
+    tand = 1e-3
+    g = fm.rectangle(A, B).with_material(fm.rectangle(A, B / 2).translated(0, -B / 4), eps_r=EPS, tan_delta=tand)
+    f = 13e9
+    modes = fm.solve(g, modes=3, frequency=f, accuracy=1e-7)
+    de = 1e-5
+    for m in modes:
+        lab = _matched(m)
+        slope = (_ref_beta2(f, lab, EPS + de) - _ref_beta2(f, lab, EPS - de)) / (2 * de)
+        want = tand * EPS * slope / (2 * math.sqrt(_ref_beta2(f, lab)))
+        assert m.dielectric_attenuation() == pytest.approx(want, rel=1e-5), lab
+
+
+def test_dielectric_attenuation_of_a_filled_guide_is_the_handbook_value():
+    # alpha_d = k^2 tan_delta / (2 beta), k^2 = k0^2 eps_r (Pozar, Microwave Engineering, sec. 3.1);
+    # the "region" covers the whole guide, the fill is air
+    tand, eps = 4e-4, 2.54
+    g = fm.rectangle(A, B).with_material(fm.rectangle(A, B), eps_r=eps, tan_delta=tand)
+    f = 7e9
+    m = fm.solve(g, modes=1, frequency=f, accuracy=1e-7)[0]
+    k2 = (2 * math.pi * f / C0) ** 2 * eps
+    beta = math.sqrt(k2 - (math.pi / A) ** 2)
+    assert m.beta() == pytest.approx(beta, rel=1e-8)
+    assert m.dielectric_attenuation() == pytest.approx(k2 * tand / (2 * beta), rel=1e-7)
+    assert m.group_velocity() == pytest.approx(beta / (2 * math.pi * f / C0 * eps), rel=1e-7)
+    assert m.family == "TE" and m.label == "TE from TE10"
+
+
+def test_labels_name_the_empty_guide_mode_each_grows_from(slab_modes):
+    # LSE_mn / LSM_mn of a layered guide are built from the TE_mn and TM_mn of the empty guide
+    # (Collin, ch. 6; Harrington sec. 4.x): same indices.  TE_mn and TM_mn (m, n >= 1) are
+    # degenerate there, so such a mode names the pair.
+    for m in slab_modes:
+        lab = _matched(m)
+        mn = lab[3:5]
+        assert m.parent in (f"TE{mn}", f"TE{mn}/TM{mn}"), (lab, m.parent)
+        if mn[0] != "0" and mn[1] != "0":
+            assert m.parent == f"TE{mn}/TM{mn}"
+        assert m.label == f"{m.family} from {m.parent}"
+        assert PARENT_SHARE_MIN <= m.parent_share <= 1 + 1e-9
+
+
+PARENT_SHARE_MIN = 0.8
+
+
+def test_fields_sampled_per_element_agree_with_point_evaluation(slab_modes):
+    # internal consistency of two evaluation paths (no outside reference): the per-element
+    # sampling used by the figures and fields() at the same points, each in its own element
+    # (edge fields are only tangentially continuous, so the element must be named)
+    import numpy as np
+
+    vm = slab_modes[0].vector
+    x, y, t, F = vm.problem.sample(vm, 3)
+    q = x.size // vm.problem.mesh.t.shape[1]
+    i = np.arange(0, x.size, 23)
+    G = np.array(vm.fields(np.vstack([x[i], y[i]]), cells=i // q))
+    scale = np.max(np.abs(F))
+    assert np.max(np.abs(G - F[:, i])) < 1e-9 * scale
+
+
+def test_loaded_field_pattern_figure(slab_modes, slab_guide, tmp_path):
+    from femodes.figures import loaded_field_pattern
+
+    m = slab_modes[0]
+    fig = loaded_field_pattern(m, tmp_path / "f.png", section=slab_guide)
+    assert (tmp_path / "f.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    ax = fig.axes[0]
+    assert [l.get_gid() for l in ax.lines].count("material-outline") == 1
+    assert m.label in fig._suptitle.get_text() and "13 GHz" in fig._suptitle.get_text()
+    # the sampled data keeps the jump of normal E at the slab face y = 0 (per-element points):
+    # normal D is continuous (common practice), so E_y just above is about eps_r times E_y just
+    # below.  Samples within 0.2 mm of the face only approach that one-sided limit (the exact
+    # interface check, on one-sided limits, is in test_vector.py), hence the loose bound
+    x, y, t, F = m.vector.problem.sample(m.vector, 3)
+    near = np.abs(x) < 2e-3
+    above = near & (y > 0) & (y < 2e-4)
+    below = near & (y < 0) & (y > -2e-4)
+    ratio = np.mean(np.abs(F[1][above])) / np.mean(np.abs(F[1][below]))
+    assert 0.85 * EPS < ratio < 1.15 * EPS
