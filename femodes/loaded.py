@@ -306,8 +306,10 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     ``frequencies`` (Hz) by field overlap, so crossing curves keep their identities
     (:meth:`femodes.vector.VectorProblem.dispersion`).
 
-    The mesh is the one :func:`solve_loaded` refines to ``accuracy`` at the highest frequency (the
-    hardest: the shortest wavelength), assembled once; the curves are computed on it.  Returns a
+    The mesh is the one :func:`solve_loaded` refines at the highest frequency (the hardest: the
+    shortest wavelength) to ``accuracy`` (f_min / f_max)^2, so that the error of beta^2 relative
+    to k0^2 eps_max mu_max stays within ``accuracy`` down to the lowest frequency; assembled once,
+    the curves are computed on it.  Returns a
     :class:`femodes.vector.Dispersion` (``frequencies``, ``beta`` (F, N), ``family``, ``overlap``).
     """
     from .section import Section
@@ -318,7 +320,10 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0):
         raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}")
     p = ORDER if order is None else int(order)
-    _, problem = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, accuracy, order=p,
+    # the error of beta^2 is measured relative to k0^2 eps_max mu_max, which is smallest at the
+    # lowest frequency: ask the top-frequency solve for that much more
+    acc = float(accuracy) * (float(fs.min()) / float(fs.max())) ** 2
+    _, problem = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, acc, order=p,
                               evanescent=True, tan_delta=tan_delta, parents=False, _return_problem=True)
     disp = problem.dispersion(fs, modes=modes)  # the same assembled problem, reused
     if not labels:

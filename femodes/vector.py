@@ -191,7 +191,10 @@ class Dispersion:
 
     frequencies : (F,) Hz, as given
     beta2       : (F, N) beta^2 (rad^2/m^2) of each tracked mode (column) at each frequency
-    overlap     : (F, N) field overlap with the same mode at the previous frequency (1 at the
+    overlap     : (F, N) how surely each point continues the curve: the larger of the mode's
+                  weight in the expansion of the same mode at the previous frequency (bi-orthogonal
+                  projection, 1 for identical fields) and its agreement with the beta^2 predicted
+                  from the previous point's slope (see ``_track``) (1 at the
                   first); low values (say < 0.9) mean the frequency step was too coarse to be sure
     family      : (F, N) family guess of each mode at each frequency
     modes       : the VectorMode objects, modes[i][k] for frequency i and tracked mode k
@@ -647,7 +650,8 @@ class VectorProblem:
     def dispersion(self, frequencies, modes=4, extra=None, method="reduced", tol=1e-8):
         """beta(f) of the ``modes`` modes of largest beta^2 at the first frequency, followed along
         ``frequencies`` by field overlap with the previous frequency (an assignment maximising
-        |<x_prev, x>| in int eps |E|^2, not by sorting), so that crossing curves keep their
+        the weight of each candidate in the expansion of the previous mode, by the modes'
+        reciprocity bi-orthogonality, see ``_track``; not by sorting), so that crossing curves keep their
         identities.  Candidates at each frequency: the ``modes + extra`` modes of largest beta^2
         (default extra = max(4, modes)); evanescent modes are kept.
 
@@ -688,12 +692,17 @@ class VectorProblem:
             snaps = {}  # frequency index -> (beta2, E, W) of a direct solve
             nev_at = {}
             todo = sorted({0, fs.size // 2, fs.size - 1})
+            cands = [None] * fs.size
+            redo = np.arange(fs.size)
             while True:
                 for i in todo:
                     nev_at[i] = nev_at.get(i, nev)
                     snaps[i] = self._eig(2 * math.pi * fs[i] / C0, nev_at[i], quiet=True)
-                cands = self._reduced_candidates(fs, snaps, nev)
-                picks, overlap, ok = self._track(cands, n, linear_sum_assignment)
+                # only the points that failed are reduced again on the enlarged basis: the others
+                # already passed the full-space residual check, which does not depend on the basis
+                for i, c in zip(redo, self._reduced_candidates(fs[redo], snaps, nev, fs_max=float(fs.max()))):
+                    cands[i] = c
+                picks, overlap, ok = self._track(cands, n, linear_sum_assignment, 2 * math.pi * fs / C0)
                 worst = np.array([np.max(cands[i][3][picks[i]]) if np.all(picks[i] >= 0) else np.inf
                                   for i in range(fs.size)])
                 # a point fails if a tracked pair misses tol, or if tracking had to take a poorly
@@ -703,6 +712,7 @@ class VectorProblem:
                 if not np.any(score > 0):
                     break
                 i = int(np.argmax(score))
+                redo = np.flatnonzero(score > 0)
                 if i in snaps:
                     if nev_at[i] >= 4 * nev or nev_at[i] >= self.interior_t.size - 2:
                         warnings.warn(f"dispersion: the reduced solve could not resolve the tracked modes at "
@@ -715,10 +725,14 @@ class VectorProblem:
         if method == "direct":
             cands = [self._eig(2 * math.pi * f / C0, nev, quiet=True) for f in fs]
             cands = [(b2, E, W, np.zeros(b2.size)) for b2, E, W in cands]
-            picks, overlap, ok = self._track(cands, n, linear_sum_assignment)
+            picks, overlap, ok = self._track(cands, n, linear_sum_assignment, 2 * math.pi * fs / C0)
             if not ok:
                 raise FemodesError("the mesh is too coarse for the number of modes asked; refine it")
             snapshots = np.arange(fs.size)
+        if fs.size > 1 and np.min(overlap) < 0.5:
+            i, k = np.unravel_index(np.argmin(overlap), overlap.shape)
+            warnings.warn(f"dispersion: tracked mode {k + 1} is uncertain at {fs[i]:.6g} Hz (match {overlap[i, k]:.2f} "
+                          "with the previous frequency); take more frequencies there", RuntimeWarning)
         beta2 = np.zeros((fs.size, n))
         family = np.empty((fs.size, n), dtype=object)
         modes_out = []
@@ -731,38 +745,67 @@ class VectorProblem:
             family[i] = [m.family for m in ms]
         return Dispersion(fs, beta2, overlap, family, tuple(modes_out), fs[snapshots])
 
-    def _track(self, cands, n, assign):
+    def _track(self, cands, n, assign, k0s):
         """Follow the first ``n`` candidates of the first frequency through the others by maximal
         field overlap.  Returns (picks (F, n) candidate indices, overlaps (F, n), ok)."""
-        tt, zz = self.mats["tt"], self.mats["zz"]
-        nt = self.interior_t.size
+        tt, tz, zz, pm = self.mats["tt"], self.mats["tz"], self.mats["zz"], self.mats["pencil"]
 
         def unit(b2, E, W):
-            X = np.vstack([E, W / np.sqrt(np.abs(b2))[None, :]])
-            MX = np.vstack([tt["T_eps"] @ X[:nt], zz["T_zz"] @ X[nt:]])
-            nrm = np.sqrt(np.einsum("ij,ij->j", X, MX))
-            return X / nrm, MX / nrm
+            # fields normalised in int eps |E|^2 (E_z = w / (j beta)), and the reciprocity vectors
+            # V_j = b2_j T_mu E_j - G_mu w_j with their self products d_j = E_j^T V_j
+            nrm = np.sqrt(np.einsum("ij,ij->j", E, tt["T_eps"] @ E)
+                          + np.einsum("ij,ij->j", W, zz["T_zz"] @ W) / np.abs(b2))
+            E, W = E / nrm, W / nrm
+            V = (tt["T_mu"] @ E) * b2[None, :] - tz["G_mu"] @ W
+            d = np.einsum("ij,ij->j", E, V)
+            return E, V, np.where(d != 0, d, 1e-300)
 
         F = len(cands)
+        miss = np.full(n, np.nan)
+        prev_b2 = slope = None  # set from the first frequency on
         picks = -np.ones((F, n), dtype=np.int64)
         overlap = np.ones((F, n))
         prev = None
         for i, (b2, E, W, _) in enumerate(cands):
             if b2.size < n:
                 return picks, overlap, False
-            X, MX = unit(b2, E, W)
+            X, V, d = unit(b2, E, W)
             if prev is None:
                 pick = np.arange(n)
             else:
-                O = np.abs(prev.T @ MX)
-                rows, cols = assign(-O)
+                # coefficient of candidate j in the expansion of the previous mode i over the
+                # current eigenvectors, by their bi-orthogonality: c_ij = E_i^T V_j / d_j (the
+                # reciprocity product int (E_t,i x H_t,j) . z dA, zero between distinct modes at
+                # one frequency, propagating or evanescent; Collin, Field Theory of Guided Waves,
+                # ch. 5, from memory).  Energy-norm overlaps cannot tell apart modes whose
+                # eigenvectors are nearly parallel, as the evanescent LSE_11 and LSM_11 of a
+                # slab-loaded guide where they cross (overlap 0.998 between the two, seen)
+                O = np.minimum(np.abs(prev.T @ V) / np.abs(d)[None, :], 1.0)
+                # Where the fields are nearly parallel that expansion is ill-conditioned (seen:
+                # a mode weighing 0.24 in its own continuation and 0.81 in the other's), so the
+                # candidates are also weighed by how well they sit on the predicted curve
+                # beta^2 + (d beta^2 / d k0^2) (k0^2 - k0_prev^2), the slope from the same
+                # perturbation formula as the group velocity (curves that cross have distinct
+                # slopes).  The weight P falls off over 4 times the last step's prediction
+                # error (5 % of the predicted change before there is one).
+                step = slope * (k0s[i] ** 2 - k0s[i - 1] ** 2)
+                width = np.maximum(np.where(np.isfinite(miss), 4.0 * miss, 0.05 * np.abs(step)),
+                                   1e-9 * k0s[i] ** 2 * self.emu_max)
+                pred = prev_b2 + step
+                P = np.exp(-((pred[:, None] - b2[None, :]) / width[:, None]) ** 2)
+                rows, cols = assign(-(O * (0.05 + P)))
                 pick = cols[np.argsort(rows)]
-                overlap[i] = O[np.arange(n), pick]
+                overlap[i] = np.maximum(O[np.arange(n), pick], P[np.arange(n), pick])
+                miss = np.abs(b2[pick] - pred)
             picks[i] = pick
             prev = X[:, pick]
+            prev_b2 = b2[pick]
+            xs = np.vstack([E[:, pick], W[:, pick]])
+            ys = np.vstack([E[:, pick] * b2[pick][None, :], W[:, pick]])
+            slope = -np.einsum("ij,ij->j", ys, pm["A2"] @ xs) / np.einsum("ij,ij->j", ys, pm["B"] @ xs)
         return picks, overlap, True
 
-    def _reduced_candidates(self, fs, snaps, nev):
+    def _reduced_candidates(self, fs, snaps, nev, fs_max=None):
         """Per frequency: (beta2, E, W, rho) of the eigenpairs of the pencil reduced on the
         snapshot fields, largest beta^2 first, at most nev of them; rho is the full-space
         relative residual (backward error) of each pair.
@@ -782,7 +825,8 @@ class VectorProblem:
         keys = sorted(snaps)
         # w = j beta E_z is ~ k times E: scale it to E's size, or the orthonormal bases are all w
         # and the E parts of their combinations lose their digits
-        sc = 1.0 / (2 * math.pi * float(np.max(fs)) / C0 * math.sqrt(self.emu_max))
+        f_top = float(np.max(fs)) if fs_max is None else float(fs_max)
+        sc = 1.0 / (2 * math.pi * f_top / C0 * math.sqrt(self.emu_max))
         R = np.hstack([np.vstack([snaps[i][1], sc * snaps[i][2]]) for i in keys])
         L = np.hstack([np.vstack([snaps[i][1] * (sc * sc * snaps[i][0][None, :]), sc * snaps[i][2]])
                        for i in keys])
@@ -803,7 +847,7 @@ class VectorProblem:
         AV2 = np.vstack([tt["T_eps"] @ Vt, zz["T_zz"] @ Vz])
         BV = np.vstack([-(tt["T_mu"] @ Vt), tz["G_mu"].T @ Vt])
         Ar0, Ar2, Br = Wl.T @ AV0, Wl.T @ AV2, Wl.T @ BV
-        scale = self.emu_max * (2 * math.pi * float(np.max(fs)) / C0) ** 2
+        scale = self.emu_max * (2 * math.pi * f_top / C0) ** 2
 
         def real_cols(X):
             X = X * np.exp(-1j * np.angle(X[np.argmax(np.abs(X), axis=0), np.arange(X.shape[1])]))
@@ -817,11 +861,25 @@ class VectorProblem:
             lam, XR = lam[fin].real, XR[:, fin]
             order = np.argsort(-lam)[: nev + 4]
             lam, XR = lam[order], real_cols(XR[:, order])
+            # full-space products from the projected ones (A V and B V computed once): the
+            # residual and the two-sided Rayleigh quotient without sparse products per frequency
             X = V @ XR
-            rho_r = self._residual(k0, lam, X)
+            AX = AV0 @ XR - (k0 * k0) * (AV2 @ XR)
+            BX = BV @ XR
+            # backward error against the entry-wise absolute sizes (as _residual: the stiffness
+            # terms cancel to O((k h)^2) of their size in A x, so ||A x|| would be no scale)
+            pa = self.mats["pencil"]
+            aX = np.abs(X)
+            sc_ = pa["|A0|"] @ aX + (k0 * k0) * (pa["|A2|"] @ aX) + np.abs(lam)[None, :] * (pa["|B|"] @ aX)
+            den = np.linalg.norm(sc_, axis=0)
+            rho_r = np.linalg.norm(AX - lam[None, :] * BX, axis=0) / np.where(den > 0, den, 1.0)
             keep = np.flatnonzero(rho_r < 1e-6)[:nev]
-            lam, X, rho_r = lam[keep], X[:, keep], rho_r[keep]
-            out.append((self._polish(k0, lam, X[:nt], X[nt:]), X[:nt], X[nt:], rho_r))
+            lam, X, rho_r, AX, BX = lam[keep], X[:, keep], rho_r[keep], AX[:, keep], BX[:, keep]
+            Y = np.vstack([X[:nt] * lam[None, :], X[nt:]])
+            with np.errstate(divide="ignore", invalid="ignore"):
+                q = np.einsum("ij,ij->j", Y, AX) / np.einsum("ij,ij->j", Y, BX)
+            good = np.isfinite(q) & (np.abs(q - lam) <= 1e-8 * (k0 * k0 * self.emu_max))
+            out.append((np.where(good, q, lam), X[:nt], X[nt:], rho_r))
         return out
 
     # -- fields -------------------------------------------------------------------------

@@ -496,6 +496,25 @@ def test_dispersion_reduced_equals_direct(crossing):
     assert np.all(Dr.family == Dd.family)
 
 
+def test_dispersion_keeps_evanescent_near_parallel_pair_apart():
+    # eps_r = 2.25, b/2 slab: LSM11 and LSE11 cross near 11.35 GHz while both are evanescent
+    # (transverse resonance, Collin ch. 6); there their fields are nearly parallel (energy-norm
+    # overlap 0.998), which once made the tracker swap them.  Both tracked from 11.0 GHz on.
+    P, _ = slab_problem(B / 2, 2.25, 1.3e-3)
+    fs = np.linspace(11.0e9, 11.8e9, 6)
+    layers = [(B / 2, 2.25, 1.0), (B / 2, 1.0, 1.0)]
+    refs = [{m.label: m.beta2 for m in ref.layered_guide_modes(A, B, layers, f, count=8)} for f in fs]
+    assert (refs[0]["LSM11(y)"] > refs[0]["LSE11(y)"]) and (refs[-1]["LSM11(y)"] < refs[-1]["LSE11(y)"])
+    for method in ("direct", "reduced"):
+        D = P.dispersion(fs, modes=5, method=method)
+        labels = [min(refs[0], key=lambda l: abs(refs[0][l] - D.beta2[0, k])) for k in range(5)]
+        assert {"LSM11(y)", "LSE11(y)"} <= set(labels)
+        scale = 2.25 * k0_of(fs[-1]) ** 2
+        for k, lab in enumerate(labels):
+            curve = np.array([r[lab] for r in refs])
+            assert np.max(np.abs(D.beta2[:, k] - curve)) / scale < 1e-5, (method, lab)
+
+
 # ============================================================================ user errors
 def test_user_errors_say_what_is_valid(slab):
     P, _, _ = slab
