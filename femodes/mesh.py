@@ -222,6 +222,24 @@ def _build_geometry_occ(gmsh, section: Section):
     occ.synchronize()
 
 
+def singular_corners(section):
+    """The points where the fields are singular: re-entrant wall corners, and the corners of
+    material regions.  A region corner is graded like a 270-degree conducting corner (exponent
+    2/3), a conservative choice for any contrast; a right-angled region corner standing on a
+    straight wall is regular (its image in the wall is a straight interface) and is left out."""
+    from .section import Corner, _point_edge_distances
+
+    L0 = section.size
+    walls = np.hstack([l.polyline(64, line_pieces=1) for l in section.loops])
+    material_corners = []
+    for l in _material_loops(section):
+        for c in l.corners():
+            on_wall = _point_edge_distances(np.array([[c.point[0]], [c.point[1]]]), walls)[0] < 1e-9 * L0
+            if not (on_wall and abs(c.angle - 0.5 * math.pi) < 1e-6):
+                material_corners.append(Corner(c.point, 1.5 * math.pi))
+    return list(section.reentrant_corners()) + material_corners
+
+
 def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: float, radius=None):
     """Install the element-size field as gmsh fields (evaluated in C++, so meshing stays fast).
 
@@ -237,20 +255,7 @@ def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: floa
         x, y, _ = gmsh.model.getValue(0, tag, [])
         pts[(round(x / L0, 9), round(y / L0, 9))] = tag
     by_exponent = {}  # corners of one angle share one Distance field (fewer fields: faster meshing)
-    # corners of material regions: the field is singular there too; graded like a 270-degree
-    # conducting corner (exponent 2/3), a conservative choice for any contrast
-    from .section import Corner
-    # A right-angled region corner standing on a straight wall is regular (its image in the wall
-    # is a straight interface) and is not graded.
-    from .section import _point_edge_distances
-    walls = np.hstack([l.polyline(64, line_pieces=1) for l in section.loops])
-    material_corners = []
-    for l in _material_loops(section):
-        for c in l.corners():
-            on_wall = _point_edge_distances(np.array([[c.point[0]], [c.point[1]]]), walls)[0] < 1e-9 * L0
-            if not (on_wall and abs(c.angle - 0.5 * math.pi) < 1e-6):
-                material_corners.append(Corner(c.point, 1.5 * math.pi))
-    for c in section.reentrant_corners() + material_corners:
+    for c in singular_corners(section):
         tag = pts.get((round(c.point[0] / L0, 9), round(c.point[1] / L0, 9)))
         if tag is not None:
             by_exponent.setdefault(round(1.0 - grading * c.exponent / (order + 1), 12), []).append(tag)

@@ -702,12 +702,16 @@ class VectorProblem:
                 # already passed the full-space residual check, which does not depend on the basis
                 for i, c in zip(redo, self._reduced_candidates(fs[redo], snaps, nev, fs_max=float(fs.max()))):
                     cands[i] = c
+                for i in snaps:  # at a snapshot the full solve itself is the candidate list
+                    b2_, E_, W_ = snaps[i]
+                    cands[i] = (b2_, E_, W_, np.zeros(b2_.size))
                 picks, overlap, ok = self._track(cands, n, linear_sum_assignment, 2 * math.pi * fs / C0)
                 worst = np.array([np.max(cands[i][3][picks[i]]) if np.all(picks[i] >= 0) else np.inf
                                   for i in range(fs.size)])
                 # a point fails if a tracked pair misses tol, or if tracking had to take a poorly
-                # matching candidate at a frequency that is not a snapshot (the right one missing)
-                weak = np.array([i not in snaps and np.min(overlap[i]) < 0.9 for i in range(fs.size)])
+                # matching candidate (the right one missing: a snapshot there, or at a snapshot
+                # more candidates)
+                weak = np.array([np.min(overlap[i]) < 0.9 for i in range(fs.size)])
                 score = np.where(worst > tol, worst, 0.0) + np.where(weak, 1.0, 0.0)
                 if not np.any(score > 0):
                     break

@@ -198,12 +198,14 @@ def test_loaded_field_pattern_figure(slab_modes, slab_guide, tmp_path):
     assert [l.get_gid() for l in ax.lines].count("material-outline") == 1
     assert m.label in fig._suptitle.get_text() and "13 GHz" in fig._suptitle.get_text()
     # the sampled data keeps the jump of normal E at the slab face y = 0 (per-element points):
-    # normal D is continuous (common practice), so E_y just above is about eps_r times E_y just
-    # below.  Samples within 0.2 mm of the face only approach that one-sided limit (the exact
-    # interface check, on one-sided limits, is in test_vector.py), hence the loose bound
-    x, y, t, F = m.vector.problem.sample(m.vector, 3)
-    near = np.abs(x) < 2e-3
-    above = near & (y > 0) & (y < 2e-4)
-    below = near & (y < 0) & (y > -2e-4)
+    # normal D is continuous (common practice), so on the face E_y seen from the air side is
+    # eps_r times E_y seen from the slab side.  The discrete fields meet that weakly; the
+    # exact interface check is in test_vector.py, hence the loose bound here
+    P = m.vector.problem
+    x, y, t, F = P.sample(m.vector, 3)
+    q = x.size // P.mesh.t.shape[1]
+    cy = P.mesh.p[1][P.mesh.t[:3]].mean(axis=0)[np.arange(x.size) // q]
+    face = (np.abs(y) < 1e-12 * B) & (np.abs(x) < A / 4)
+    above, below = face & (cy > 0), face & (cy < 0)
     ratio = np.mean(np.abs(F[1][above])) / np.mean(np.abs(F[1][below]))
     assert 0.85 * EPS < ratio < 1.15 * EPS
