@@ -506,19 +506,9 @@ def _build_case(data, base_dir, path):
     solve = {}
     fill = _table(data, "fill")
     _check_keys(fill, _FILL_KEYS, "[fill]")
-    tan_delta = 0.0
-    if "tan_delta" in fill:
-        tan_delta = _number("tan_delta in [fill]", fill["tan_delta"], "a loss tangent (number), e.g. 2e-4")
-        if not 0 <= tan_delta < 1:
-            raise FemodesError(f"tan_delta in [fill] is a loss tangent and must lie in 0 <= tan_delta < 1 "
-                               f"(e.g. 2e-4 for a good plastic), got {_show(fill['tan_delta'])}")
-    for k in ("eps_r", "mu_r"):
-        if k in fill:
-            v = _number(f"{k} in [fill]", fill[k])
-            if not (v > 0 and math.isfinite(v)):
-                raise FemodesError(f"{k} in [fill] must be a positive finite number (the real part; "
-                                   f"1 for air; losses go in tan_delta), got {_show(fill[k])}")
-            solve[k] = v
+    mat = _material_values(fill, "[fill]")
+    tan_delta = mat.pop("tan_delta", 0.0)
+    solve.update(mat)
 
     sv = _table(data, "solve")
     _check_keys(sv, _SOLVE_KEYS, "[solve]")
@@ -763,6 +753,25 @@ def _shape_from(guide, shape, spec, scale, units, where):
     return sec
 
 
+def _material_values(table, where):
+    """The eps_r, mu_r, tan_delta keys present in ``table``, checked: {key: float}."""
+    vals = {}
+    for k in ("eps_r", "mu_r"):
+        if k in table:
+            v = _number(f"{k} in {where}", table[k])
+            if not (v > 0 and math.isfinite(v)):
+                raise FemodesError(f"{k} in {where} must be a positive finite number (the real part; "
+                                   f"1 for air; losses go in tan_delta), got {_show(table[k])}")
+            vals[k] = v
+    if "tan_delta" in table:
+        t = _number(f"tan_delta in {where}", table["tan_delta"], "a loss tangent (number), e.g. 2e-4")
+        if not 0 <= t < 1:
+            raise FemodesError(f"tan_delta in {where} is a loss tangent and must lie in 0 <= tan_delta < 1 "
+                               f"(e.g. 2e-4 for a good plastic), got {_show(table['tan_delta'])}")
+        vals["tan_delta"] = t
+    return vals
+
+
 def _build_region(table, number, units, section):
     """One [[region]] table -> the section with that material region added."""
     where = f"[[region]] {number}"
@@ -782,20 +791,7 @@ def _build_region(table, number, units, section):
     _check_shape_keys(table, shape, spec, allowed, where)
     if "eps_r" not in table:
         raise FemodesError(f"{where} needs eps_r (its relative permittivity; 1 for air)")
-    vals = {}
-    for k in ("eps_r", "mu_r"):
-        if k in table:
-            v = _number(f"{k} in {where}", table[k])
-            if not (v > 0 and math.isfinite(v)):
-                raise FemodesError(f"{k} in {where} must be a positive finite number (the real part; losses "
-                                   f"go in tan_delta), got {_show(table[k])}")
-            vals[k] = v
-    if "tan_delta" in table:
-        t = _number(f"tan_delta in {where}", table["tan_delta"], "a loss tangent (number), e.g. 2e-4")
-        if not 0 <= t < 1:
-            raise FemodesError(f"tan_delta in {where} is a loss tangent and must lie in 0 <= tan_delta < 1, "
-                               f"got {_show(table['tan_delta'])}")
-        vals["tan_delta"] = t
+    vals = _material_values(table, where)
     if "name" in table:
         if not isinstance(table["name"], str):
             raise FemodesError(f"name in {where} must be a string, got {_show(table['name'])}")
