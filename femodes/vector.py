@@ -477,22 +477,34 @@ class VectorProblem:
         order = np.argsort(-beta2)
         return beta2[order], V[:, order], W[:, order]
 
-    def _polish(self, k0, b2, E, W):
+    def _polish(self, k0, b2, E, W, AX=None, BX=None):
         """Two-sided Rayleigh quotients y^T A x / y^T B x with the exact left eigenvector
         y = (beta^2 E_t, w) of the pencil (A^T y = beta^2 B^T y): error quadratic in the
         eigenvector's.  Kept only where it moves beta^2 by less than 1e-8 k0^2 max(eps mu) (near
-        beta = 0 with w = 0 the quotient is 0/0)."""
+        beta = 0 with w = 0 the quotient is 0/0).  ``AX``, ``BX``: A(k0) x and B x if known."""
         pm = self.mats["pencil"]
         X = np.vstack([E, W])
         Y = np.vstack([E * b2[None, :], W])
-        A = pm["A0"] @ X - (k0 * k0) * (pm["A2"] @ X)
-        num = np.einsum("ij,ij->j", Y, A)
-        den = np.einsum("ij,ij->j", Y, pm["B"] @ X)
+        if AX is None:
+            AX = pm["A0"] @ X - (k0 * k0) * (pm["A2"] @ X)
+        if BX is None:
+            BX = pm["B"] @ X
+        num = np.einsum("ij,ij->j", Y, AX)
+        den = np.einsum("ij,ij->j", Y, BX)
         with np.errstate(divide="ignore", invalid="ignore"):
             q = num / den
         scale = k0 * k0 * self.emu_max
         good = np.isfinite(q) & (np.abs(q - b2) <= 1e-8 * scale)
         return np.where(good, q, b2)
+
+    def _slope(self, b2, E, W):
+        """d beta^2 / d k0^2 = -y^T A2 x / y^T B x of eigenpairs (columns of E, W), and y^T B x:
+        first-order perturbation with the left eigenvector y = (beta^2 E_t, w) (see _polish)."""
+        pm = self.mats["pencil"]
+        X = np.vstack([E, W])
+        Y = np.vstack([E * np.asarray(b2)[None, :], W])
+        yBx = np.einsum("ij,ij->j", Y, pm["B"] @ X)
+        return -np.einsum("ij,ij->j", Y, pm["A2"] @ X) / yBx, Y, X, yBx
 
     def _sensitivity(self, mode):
         """(v_g / c0, alpha_d in Np/m) of a mode from its right and left eigenvectors (see
@@ -502,28 +514,30 @@ class VectorProblem:
             return math.nan, math.nan
         pm = self.mats["pencil"]
         beta = math.sqrt(b2)
-        E = mode.et[self.interior_t]
-        W = (mode.ez[self.interior_z] * (1j * beta)).real   # w = j beta E_z, real
-        x = np.concatenate([E, W])
-        y = np.concatenate([b2 * E, W])
-        yBx = y @ (pm["B"] @ x)
+        E = mode.et[self.interior_t][:, None]
+        W = (mode.ez[self.interior_z] * (1j * beta)).real[:, None]   # w = j beta E_z, real
+        db2, Y, X, yBx = self._slope(np.array([b2]), E, W)
         k0 = mode.k0
-        db2 = -(y @ (pm["A2"] @ x)) / yBx
-        vg = beta / (k0 * db2)
-        alpha = 0.0
-        if "L" in pm:
-            alpha = (k0 * k0) * (y @ (pm["L"] @ x)) / yBx / (2 * beta)
-        return float(vg), float(-alpha) if alpha else 0.0
+        vg = beta / (k0 * db2[0])
+        if "L" not in pm:
+            return float(vg), 0.0
+        alpha = (k0 * k0) * float(np.einsum("ij,ij->j", Y, pm["L"] @ X)[0]) / yBx[0] / (2 * beta)
+        return float(vg), float(-alpha)
 
-    def _residual(self, k0, lam, X):
+    def _residual(self, k0, lam, X, AX=None, BX=None):
         """Relative residuals of eigenpairs (lam[j], X[:, j]) of A x = lam B x, X = (E_t; w) on
         interior dofs: ||A x - lam B x|| / ||s||, s the same products taken with |A|, |B|, |x|
-        (no cancellation: robust where A x itself is ~0, as near a cutoff)."""
+        (no cancellation: robust where A x itself is ~0, as near a cutoff).  ``AX``, ``BX``:
+        A(k0) X and B X if known."""
         pm = self.mats["pencil"]
         k2 = k0 * k0
         lam = np.asarray(lam, dtype=float)[None, :]
         aX = np.abs(X)
-        r = pm["A0"] @ X - k2 * (pm["A2"] @ X) - lam * (pm["B"] @ X)
+        if AX is None:
+            AX = pm["A0"] @ X - k2 * (pm["A2"] @ X)
+        if BX is None:
+            BX = pm["B"] @ X
+        r = AX - lam * BX
         sc = pm["|A0|"] @ aX + k2 * (pm["|A2|"] @ aX) + np.abs(lam) * (pm["|B|"] @ aX)
         num = np.linalg.norm(r, axis=0)
         den = np.linalg.norm(sc, axis=0)
@@ -755,7 +769,7 @@ class VectorProblem:
     def _track(self, cands, n, assign, k0s):
         """Follow the first ``n`` candidates of the first frequency through the others by maximal
         field overlap.  Returns (picks (F, n) candidate indices, overlaps (F, n), ok)."""
-        tt, tz, zz, pm = self.mats["tt"], self.mats["tz"], self.mats["zz"], self.mats["pencil"]
+        tt, tz, zz = self.mats["tt"], self.mats["tz"], self.mats["zz"]
 
         def unit(b2, E, W):
             # fields normalised in int eps |E|^2 (E_z = w / (j beta)), and the reciprocity vectors
@@ -807,9 +821,7 @@ class VectorProblem:
             picks[i] = pick
             prev = X[:, pick]
             prev_b2 = b2[pick]
-            xs = np.vstack([E[:, pick], W[:, pick]])
-            ys = np.vstack([E[:, pick] * b2[pick][None, :], W[:, pick]])
-            slope = -np.einsum("ij,ij->j", ys, pm["A2"] @ xs) / np.einsum("ij,ij->j", ys, pm["B"] @ xs)
+            slope = self._slope(b2[pick], E[:, pick], W[:, pick])[0]
         return picks, overlap, True
 
     def _reduced_candidates(self, fs, snaps, nev, fs_max=None):
@@ -868,25 +880,13 @@ class VectorProblem:
             lam, XR = lam[fin].real, XR[:, fin]
             order = np.argsort(-lam)[: nev + 4]
             lam, XR = lam[order], real_cols(XR[:, order])
-            # full-space products from the projected ones (A V and B V computed once): the
-            # residual and the two-sided Rayleigh quotient without sparse products per frequency
             X = V @ XR
-            AX = AV0 @ XR - (k0 * k0) * (AV2 @ XR)
-            BX = BV @ XR
-            # backward error against the entry-wise absolute sizes (as _residual: the stiffness
-            # terms cancel to O((k h)^2) of their size in A x, so ||A x|| would be no scale)
-            pa = self.mats["pencil"]
-            aX = np.abs(X)
-            sc_ = pa["|A0|"] @ aX + (k0 * k0) * (pa["|A2|"] @ aX) + np.abs(lam)[None, :] * (pa["|B|"] @ aX)
-            den = np.linalg.norm(sc_, axis=0)
-            rho_r = np.linalg.norm(AX - lam[None, :] * BX, axis=0) / np.where(den > 0, den, 1.0)
+            AX = AV0 @ XR - (k0 * k0) * (AV2 @ XR)   # full-space products from the projected
+            BX = BV @ XR                             # ones: no A x, B x per frequency
+            rho_r = self._residual(k0, lam, X, AX, BX)
             keep = np.flatnonzero(rho_r < 1e-6)[:nev]
             lam, X, rho_r, AX, BX = lam[keep], X[:, keep], rho_r[keep], AX[:, keep], BX[:, keep]
-            Y = np.vstack([X[:nt] * lam[None, :], X[nt:]])
-            with np.errstate(divide="ignore", invalid="ignore"):
-                q = np.einsum("ij,ij->j", Y, AX) / np.einsum("ij,ij->j", Y, BX)
-            good = np.isfinite(q) & (np.abs(q - lam) <= 1e-8 * (k0 * k0 * self.emu_max))
-            out.append((np.where(good, q, lam), X[:nt], X[nt:], rho_r))
+            out.append((self._polish(k0, lam, X[:nt], X[nt:], AX, BX), X[:nt], X[nt:], rho_r))
         return out
 
     # -- fields -------------------------------------------------------------------------
