@@ -240,11 +240,13 @@ def singular_corners(section):
     return list(section.reentrant_corners()) + material_corners
 
 
-def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: float, radius=None):
+def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: float, radius=None,
+                 floor=1e-7):
     """Install the element-size field as gmsh fields (evaluated in C++, so meshing stays fast).
 
     Re-entrant corner of exponent lambda: h = h_max (r / L)^e with e = 1 - grading lambda / (p + 1),
-    r the distance to the corner and L the section size (floored at 1e-7 L).
+    r the distance to the corner and L the grading radius (default the section size); r / L is
+    floored at ``floor``.
     """
     fld = gmsh.model.mesh.field
     L0 = section.size
@@ -263,7 +265,7 @@ def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: floa
         d = fld.add("Distance")
         fld.setNumbers(d, "PointsList", tags)
         f = fld.add("MathEval")
-        fld.setString(f, "F", f"{h_max!r} * Max(F{d} / {L!r}, 1e-7) ^ {e!r}")
+        fld.setString(f, "F", f"{h_max!r} * Max(F{d} / {L!r}, {float(floor)!r}) ^ {e!r}")
         ids.append(f)
     # arcs: concave ones (rounded re-entrant corners, inner conductors) get the corner law
     # measured from the arc, h = h_max ((d + rc) / L)^e; small convex ones h <= sqrt(rc/L) h_max + d/2
@@ -326,7 +328,8 @@ def _gmsh_arc_curves(gmsh, section):
 
 
 def mesh_section(section: Section, h_max: float, order: int = 3, grading: float = 1.0,
-                 curved: bool = True, graded: bool = True, grading_radius=None) -> Mesh:
+                 curved: bool = True, graded: bool = True, grading_radius=None,
+                 grading_floor: float = 1e-7) -> Mesh:
     """Mesh ``section`` with maximum element size ``h_max`` (m), graded for elements of ``order``.
 
     Returns a :class:`Mesh`; with ``curved`` (default) edges on arcs carry their true mid-points.
@@ -349,7 +352,7 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
         gmsh.option.setNumber("Mesh.MeshSizeMax", float(h_max))
         gmsh.option.setNumber("Mesh.MeshSizeMin", 0.0)
         if graded:
-            _size_fields(gmsh, section, h_max, order, grading, grading_radius)
+            _size_fields(gmsh, section, h_max, order, grading, grading_radius, grading_floor)
         gmsh.model.mesh.generate(2)
         if curved:
             gmsh.model.mesh.setOrder(2)
