@@ -209,12 +209,23 @@ def _build_geometry_occ(gmsh, section: Section):
     """Guide and material regions in OpenCASCADE, fragmented so the mesh conforms to every
     material interface; region parts outside the guide are removed."""
     occ = gmsh.model.occ
-    loop_tag = lambda loop: _add_loop(occ, loop)  # noqa: E731
-    guide = occ.addPlaneSurface([loop_tag(section.outer)] + [loop_tag(h) for h in section.holes])
-    regions = [occ.addPlaneSurface([loop_tag(m.region)] + [loop_tag(h) for h in m.holes])
-               for m in section.materials]
-    _, pieces = occ.fragment([(2, guide)], [(2, r) for r in regions])
-    keep = set(pieces[0])  # the pieces the guide was cut into
+
+    def face(outer, holes):
+        # holes are cut out as faces of their own: a hole wire handed to addPlaneSurface keeps
+        # the section's clockwise orientation, and OpenCASCADE then builds a face that the
+        # fragment below silently fails to cut (a coaxial guide's inner conductor inside a
+        # dielectric ring gave a mesh that ignored the ring's boundary)
+        tag = occ.addPlaneSurface([_add_loop(occ, outer)])
+        if not holes:
+            return [(2, tag)]
+        cutters = [(2, occ.addPlaneSurface([_add_loop(occ, h)])) for h in holes]
+        out, _ = occ.cut([(2, tag)], cutters)
+        return out
+
+    guide = face(section.outer, section.holes)
+    regions = [dt for m in section.materials for dt in face(m.region, m.holes)]
+    _, pieces = occ.fragment(guide, regions)
+    keep = {dt for i in range(len(guide)) for dt in pieces[i]}  # the pieces the guide was cut into
     drop = [dt for dt in occ.getEntities(2) if dt not in keep]
     if drop:
         occ.remove(drop, recursive=True)

@@ -85,3 +85,21 @@ def test_curved_material_interface_nodes_on_the_arc():
     c = m.points[:, m.triangles].mean(axis=1)
     inside = np.hypot(c[0] - 3e-3, c[1]) < 2e-3
     assert np.array_equal(inside, m.regions == 1)
+
+
+@pytest.mark.parametrize("region, r_in, r_out", [
+    (fm.circle(4e-3), 2e-3, 4e-3),         # a dielectric disc that also covers the inner conductor
+    (fm.coaxial(5e-3, 3e-3), 3e-3, 5e-3),  # a dielectric ring with a hole of its own
+])
+def test_material_rings_in_a_coaxial_guide_are_meshed_exactly(region, r_in, r_out):
+    # the area of an annulus, pi (r_out^2 - r_in^2) (common practice), measured with the
+    # isoparametric (cubic) elements, to their geometry error; before the holes were cut as faces of their own, the
+    # disc case gave a mesh that ignored the disc's boundary
+    from skfem import Basis, ElementTriP0
+
+    s = fm.coaxial(7e-3, 2e-3).with_material(region, eps_r=2.25)
+    m = mesh_section(s, 1e-3, order=3, graded=False)
+    assert np.sum(np.abs(np.hypot(*m.points) - r_out) < 1e-12) >= 8  # vertices on the interface
+    dx = Basis(m.to_skfem(3), ElementTriP0()).dx.sum(axis=1)
+    assert dx[m.regions == 1].sum() == pytest.approx(math.pi * (r_out ** 2 - r_in ** 2), rel=1e-5)
+    assert dx.sum() == pytest.approx(math.pi * (7e-3 ** 2 - 2e-3 ** 2), rel=1e-5)
