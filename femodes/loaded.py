@@ -187,59 +187,110 @@ def _rate(section, p):
 PARENT_SHARE = 0.8  # share of int |E_t|^2 in one or two empty-guide modes that names a parent
 
 
+def _empty_guide(problem, count):
+    """The empty guide's lowest modes on ``problem``'s mesh: [(family, kc^2, E_t)], E_t (2, ne, nq)
+    at the quadrature points of ``problem.basis_t``.
+
+    The empty (homogeneous) guide's modes are pure (common practice): TE from the Neumann
+    eigenproblem of H_z, E_t = z x grad H_z; TM from the Dirichlet one of E_z, E_t = grad E_z;
+    TEM (kc = 0, one per inner conductor) from the electrostatic potentials, E_t = grad phi.  The
+    Lagrange elements of the longitudinal field serve for all three, so this costs two small
+    symmetric eigensolves instead of a second vector problem."""
+    from skfem import BilinearForm, asm
+    from skfem.helpers import dot, grad
+    from scipy.sparse.linalg import spsolve
+
+    from .eigen import lowest_eigenpairs
+    from .solver import _conductors
+
+    bz = problem.basis_z
+    S = asm(BilinearForm(lambda u, v, w: dot(grad(u), grad(v))), bz).tocsr()
+    T = problem.mats["T_z1"].tocsr()
+    iz = problem.interior_z
+    scale = float(np.sum(problem.basis_t.dx))  # the area
+    sigma = -1.0 / scale  # below every eigenvalue (kc^2 > 0, or 0 for the constant H_z)
+
+    def gradients(cols):
+        return [np.asarray(bz.interpolate(c).grad) for c in cols.T]
+
+    out = []
+    lam, X, _ = lowest_eigenpairs(S, T, count + 1, sigma)
+    for kc2, g in zip(lam, gradients(X)):
+        if kc2 > 1e-8 / scale:  # not the constant
+            out.append(("TE", float(kc2), np.array([-g[1], g[0]])))
+    lam, X, _ = lowest_eigenpairs(S[iz][:, iz], T[iz][:, iz], count, sigma)
+    full = np.zeros((bz.N, X.shape[1]))
+    full[iz] = X
+    out += [("TM", float(kc2), g) for kc2, g in zip(lam, gradients(full))]
+    groups = _conductors(bz.mesh)
+    if len(groups) > 1:
+        cond = [np.unique(bz.get_dofs(facets=gr).flatten()) for gr in groups]
+        bnd = np.setdiff1d(np.arange(bz.N), iz)
+        phis = np.zeros((bz.N, len(groups) - 1))
+        for i in range(1, len(groups)):
+            phis[cond[i], i - 1] = 1.0
+            phis[iz, i - 1] = spsolve(S[iz][:, iz].tocsc(), -(S[iz][:, bnd] @ phis[bnd, i - 1]))
+        out += [("TEM", 0.0, g) for g in gradients(phis)]
+    return sorted(out, key=lambda m: m[1])
+
+
 def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
     """For each loaded VectorMode: (parent label or None, share).  The empty guide (the section
-    without its regions, filled with eps_r, mu_r) is solved on the same mesh with the same
-    elements, at the same frequency; its modes are pure TE / TM / TEM and are named by matching
-    their kc to the scalar solver's labelled modes of the bare section.  A loaded mode's parent is
-    the empty-guide mode (or pair of them) holding >= PARENT_SHARE of its int |E_t|^2; the
-    transverse fields of distinct empty-guide modes are orthogonal (common practice: the modal
-    orthogonality of homogeneous guides), so the shares add up to at most 1."""
+    without its regions) is solved on the same mesh (:func:`_empty_guide`); its modes are pure
+    TE / TM / TEM and are named by matching their kc to the scalar solver's labelled modes of the
+    bare section.  A loaded mode's parent is the empty-guide mode (or pair of them) holding >=
+    PARENT_SHARE of its int |E_t|^2; the transverse fields of distinct empty-guide modes are
+    orthogonal (common practice: the modal orthogonality of homogeneous guides), so the shares
+    add up to at most 1.  A degenerate group (TE11 and TM11 of a rectangle, a circle's TE11 pair,
+    the TEM modes of several inner conductors) is one parent, its share the projection on the
+    group's span."""
     from dataclasses import replace as _replace
 
     from .solver import solve as _solve_scalar
-    from .vector import VectorProblem
 
     n = len(loaded_modes)
     if n == 0:
         return []
-    empty = VectorProblem(problem.mesh, eps_r, mu_r, order=problem.order)
-    k0 = 2 * math.pi * float(frequency) / C0
-    k2 = k0 * k0 * eps_r * mu_r
+    count = n + 8
+    empty = _empty_guide(problem, count)
     # labels only: kc is matched to 1e-3, so 1e-4 is plenty
-    ref = _solve_scalar(_replace(section, materials=()), modes=n + 8, eps_r=eps_r, mu_r=mu_r, accuracy=1e-4)
-    got = empty.solve(frequency, modes=n + 8, evanescent=True)
+    ref = _solve_scalar(_replace(section, materials=()), modes=count, eps_r=eps_r, mu_r=mu_r, accuracy=1e-4)
+    kmax2 = max([r.kc ** 2 for r in ref] + [m[1] for m in empty])
     names = []
-    for m in got:
-        kc2 = k2 - m.beta2
-        # a 'hybrid' empty-guide mode is a mixture of a degenerate TE / TM pair (TE11 and TM11 of
-        # a rectangle): it matches members of either family
-        hits = [r for r in ref if (r.family == m.family or m.family == "hybrid") and
-                (abs(r.kc ** 2 - kc2) <= 1e-3 * max(r.kc ** 2, 1e-6 * k2))]
-        names.append([r.label for r in hits] if m.family == "hybrid" else [r.label for r in hits[:1]])
-    # an empty-guide degenerate group (TE11 and TM11 of a rectangle, a circle's TE11 pair) is one
-    # parent: any combination of its members is an empty-guide mode, so it is named as a group
-    kcs = np.array([k2 - m.beta2 for m in got])
-    base = list(names)
-    for j in range(len(got)):
-        if not base[j]:
-            names[j] = None
-            continue
-        same = [t for i in range(len(got)) if base[i] and
-                abs(kcs[i] - kcs[j]) <= 1e-5 * max(abs(kcs[j]), 1e-6 * k2) for t in base[i]]
-        names[j] = "/".join(dict.fromkeys(sorted(same, key=lambda t: (t[:2] != "TE", t))))
-    T = problem.mats["tt"]["T_t1"]
-    it = problem.interior_t
-    Ej = np.array([m.et[it] for m in got]).T
-    nj = np.einsum("ij,ij->j", Ej, T @ Ej)
+    for fam, kc2, _ in empty:
+        hits = [r for r in ref if r.family == fam and abs(r.kc ** 2 - kc2) <= 1e-3 * max(r.kc ** 2, 1e-6 * kmax2)]
+        names.append(hits[0].label if hits else None)
+    # group the empty modes by kc (degenerate groups); unnamed ones stay alone
+    groups = []
+    for j, (fam, kc2, _) in enumerate(empty):
+        for gr in groups:
+            i = gr[0]
+            if names[i] and names[j] and abs(empty[i][1] - kc2) <= 1e-5 * max(kc2, 1e-6 * kmax2):
+                gr.append(j)
+                break
+        else:
+            groups.append([j])
+    dx = problem.basis_t.dx
+    bt = problem.basis_t
+    ip = lambda a, b: float(np.sum(np.einsum("kij,kij->ij", a, b) * dx))  # noqa: E731
+    group_names, grams = [], []
+    for gr in groups:
+        labs = [names[i] for i in gr if names[i]]
+        if "TEM" in {empty[i][0] for i in gr} and len(labs) > 1:
+            group_names.append("TEM")
+        else:
+            group_names.append("/".join(dict.fromkeys(sorted(labs, key=lambda t: (t[:2] != "TE", t)))) or None)
+        grams.append(np.array([[ip(empty[a][2], empty[b][2]) for b in gr] for a in gr]))
     out = []
     for lm in loaded_modes:
-        e = lm.et[it]
-        c = (e @ (T @ Ej)) ** 2 / (nj * (e @ (T @ e)))
+        e = np.asarray(bt.interpolate(lm.et))
+        ee = ip(e, e)
         share = {}
-        for name, v in zip(names, c):
-            key = name if name is not None else f"?{len(share)}"
-            share[key] = share.get(key, 0.0) + float(v)
+        for k, (gr, G) in enumerate(zip(groups, grams)):
+            c = np.array([ip(e, empty[i][2]) for i in gr])
+            v = float(c @ np.linalg.solve(G, c)) / ee
+            key = group_names[k] if group_names[k] else f"?{k}"
+            share[key] = share.get(key, 0.0) + v
         ranked = sorted(share.items(), key=lambda kv: -kv[1])
         top = ranked[0]
         if not top[0].startswith("?") and top[1] >= PARENT_SHARE:

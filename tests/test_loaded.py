@@ -248,3 +248,20 @@ def test_strong_free_standing_bar_is_clean_and_its_estimate_brackets_a_finer_sol
         assert m.vector.divergence < 1e-6
         assert abs(c.beta() - m.beta()) <= c.beta_error + m.beta_error
         assert m.beta_error < 1e-5 * m.beta()
+
+
+def test_partly_filled_coax_keeps_a_quasi_tem_mode_named_after_the_tem():
+    # A coaxial line (2 / 7 mm, our own scenario) with a region that covers it all, inner
+    # conductor included: beta = k0 sqrt(eps_r) for the TEM mode (Pozar, Microwave Engineering,
+    # sec. 2.2 / 3.5), and the mode is named after the empty line's TEM.  With the region only
+    # out to r = 4 mm the mode is no longer TEM but TM (azimuthally symmetric modes of radially
+    # layered guides separate into TE and TM: common practice); it still grows from the TEM.
+    f, eps = 6e9, 2.25
+    full = fm.coaxial(7e-3, 2e-3).with_material(fm.circle(7e-3), eps_r=eps)
+    m = fm.solve(full, modes=1, frequency=f, accuracy=1e-7)[0]
+    assert m.beta() == pytest.approx(2 * math.pi * f / C0 * math.sqrt(eps), rel=1e-7)
+    assert m.label == "TEM from TEM"
+    part = fm.coaxial(7e-3, 2e-3).with_material(fm.circle(4e-3), eps_r=eps)
+    m = fm.solve(part, modes=1, frequency=f, accuracy=1e-5)[0]
+    assert m.parent == "TEM" and m.parent_share > 0.8 and m.family == "TM"
+    assert 2 * math.pi * f / C0 < m.beta() < 2 * math.pi * f / C0 * math.sqrt(eps)
