@@ -4,6 +4,11 @@ This module is the yardstick for the finite-element solver, so it must never
 depend on it: it imports only numpy, scipy, math, dataclasses and typing.
 Everything is in SI units (metres, rad/m, Hz).
 
+Besides the cutoffs of hollow guides it gives the propagation constants of a few guides
+loaded with dielectric at a frequency: layered rectangular guides (LSE / LSM,
+:func:`layered_guide_modes`) and the circular guide with a concentric dielectric rod (hybrid
+HE / EH modes, :func:`rod_in_circular_guide_betas`).
+
 Physics
 -------
 For a uniform guide along z with a perfectly conducting wall, the fields of a
@@ -48,6 +53,7 @@ __all__ = [
     "sector_modes",
     "L_SHAPE_DIRICHLET", "L_SHAPE_NEUMANN", "l_shape_eigenvalue_mps",
     "mathieu_tridiagonal", "mathieu_characteristic", "ellipse_modes", "ellipse_ritz_kc",
+    "rod_in_circular_guide_betas",
 ]
 
 # ---------------------------------------------------------------------------
@@ -1360,3 +1366,258 @@ def filled_guide_modes(a: float, b: float, eps_r: float, mu_r: float, frequency:
         raise ValueError(f"eps_r and mu_r must be positive, got {eps_r!r}, {mu_r!r}")
     k0 = 2 * math.pi * float(frequency) / C0
     return [(m.label, eps_r * mu_r * k0 * k0 - m.kc ** 2) for m in rectangle_modes(a, b, count)]
+
+
+# ---------------------------------------------------------------------------
+# Circular guide with a concentric dielectric rod
+# ---------------------------------------------------------------------------
+_SMALL_OUTER_K = 1e-7  # |k2 b| below which the outer radial functions take their k2 -> 0 limit
+_QUAD_NODES, _QUAD_WEIGHTS = np.polynomial.legendre.leggauss(48)
+
+
+def _rod_inner(n: int, kap1, s):
+    """Regular radial function of the rod, p(s) = n! (2 / kap1)^n J_n(kap1 s) (s = r / b,
+    kap1 = k1 b > 0), and dp/ds; the factor makes p -> s^n as kap1 -> 0, an entire function of
+    kap1^2.  Also dp/ds / kap1^2 (= -J_1(kap1 s) / kap1 for n = 0, finite at kap1 -> 0)."""
+    x = kap1 * s
+    if n == 0:
+        j1 = special.jv(1, x)
+        return special.jv(0, x), -kap1 * j1, -j1 / kap1
+    scale = np.exp(special.gammaln(n + 1) + n * np.log(2.0 / kap1))
+    p, dp = scale * special.jv(n, x), scale * kap1 * special.jvp(n, x)
+    return p, dp, dp / (kap1 * kap1)
+
+
+def _rod_outer(n: int, kap2sq, s, rho: float):
+    """Outer (vacuum, rho <= s <= 1) radial functions, normalised at the wall s = 1:
+
+        f: f(1) = 0, f'(1) = 1     (E_z, Dirichlet on the wall)
+        g: g(1) = 1, g'(1) = 0     (H_z, Neumann on the wall)
+
+    Initial data fixed at s = 1 make f, g entire functions of kap2^2 = (k0^2 - beta^2) b^2: no
+    pole and no change of sign at beta = k0 (the raw J/Y and I/K cross products would differ
+    there by -pi/2 and by their Wronskians).  J/Y for kap2^2 > 0 (Wronskian J Y' - J' Y =
+    2 / (pi x)), I/K for kap2^2 < 0 (I K' - I' K = -1 / x; Abramowitz and Stegun 9.1.16 and
+    9.6.15, from memory), s^n, s^-n (ln s, 1 for n = 0) in the limit.  I/K come exponentially
+    scaled (scipy ive / kve) and all four functions are multiplied by exp(-q (1 - rho)), a
+    positive factor common to every s, so nothing overflows.  Returns f, f', g, g', g'/kap2^2
+    (the last finite for n = 0 only)."""
+    kap2sq, s = np.broadcast_arrays(np.asarray(kap2sq, dtype=float), np.asarray(s, dtype=float))
+    out = [np.full(kap2sq.shape, np.nan) for _ in range(5)]
+    f, df, g, dg, dg_k = out
+    osc = kap2sq >= _SMALL_OUTER_K ** 2
+    eva = kap2sq <= -_SMALL_OUTER_K ** 2
+    lim = ~(osc | eva)
+    if np.any(osc):
+        k, x = np.sqrt(kap2sq[osc]), s[osc]
+        ja, jb, ya, yb = special.jv(n, k * x), special.jv(n, k), special.yv(n, k * x), special.yv(n, k)
+        dja, djb = special.jvp(n, k * x), special.jvp(n, k)
+        dya, dyb = special.yvp(n, k * x), special.yvp(n, k)
+        f[osc] = -0.5 * math.pi * (ja * yb - jb * ya)
+        df[osc] = -0.5 * math.pi * k * (dja * yb - jb * dya)
+        g[osc] = 0.5 * math.pi * k * (ja * dyb - djb * ya)
+        cross = dja * dyb - djb * dya
+        dg[osc] = 0.5 * math.pi * k * k * cross
+        dg_k[osc] = 0.5 * math.pi * cross
+    if np.any(eva):
+        q, x = np.sqrt(-kap2sq[eva]), s[eva]
+        e1, e2 = np.exp(-q * (2.0 - x - rho)), np.exp(-q * (x - rho))
+
+        def iv(m, z):
+            return special.ive(abs(m), z)
+
+        def kv(m, z):
+            return special.kve(abs(m), z)
+
+        def div(z):
+            return 0.5 * (iv(n - 1, z) + iv(n + 1, z))
+
+        def dkv(z):
+            return -0.5 * (kv(n - 1, z) + kv(n + 1, z))
+
+        ia, ib, ka, kb = iv(n, q * x), iv(n, q), kv(n, q * x), kv(n, q)
+        dia, dib, dka, dkb = div(q * x), div(q), dkv(q * x), dkv(q)
+        f[eva] = ia * kb * e1 - ib * ka * e2
+        df[eva] = q * (dia * kb * e1 - ib * dka * e2)
+        g[eva] = -q * (ia * dkb * e1 - dib * ka * e2)
+        cross = dia * dkb * e1 - dib * dka * e2
+        dg[eva] = -q * q * cross
+        dg_k[eva] = cross
+    if np.any(lim):  # k2 -> 0: Laplace's equation (error O(kap2^2) < 1e-14)
+        x = s[lim]
+        if n == 0:
+            f[lim], df[lim], g[lim], dg[lim] = np.log(x), 1.0 / x, 1.0, 0.0
+            dg_k[lim] = 0.5 * (1.0 / x - x)
+        else:
+            up, dn = x ** n, x ** -float(n)
+            f[lim] = (up - dn) / (2 * n)
+            df[lim] = 0.5 * (up + dn) / x
+            g[lim] = 0.5 * (up + dn)
+            dg[lim] = 0.5 * n * (up - dn) / x
+    if n != 0:
+        dg_k[...] = np.nan
+    return f, df, g, dg, dg_k
+
+
+def _rod_inner_e(n: int, kap1: np.ndarray, rho: float) -> np.ndarray:
+    """(n^2 p^2 / rho^2 - p'^2) / kap1^2 at s = rho, finite as kap1 -> 0.
+
+    With e(s) = n^2 p^2 / s^2 - p'^2, Bessel's equation gives d(s^2 e)/ds = kap1^2 s^2 (p^2)'
+    (differentiate and use p'' = -p'/s + (n^2/s^2 - kap1^2) p), and s^2 e -> 0 at s = 0, so
+    e / kap1^2 = p(rho)^2 - (2 / rho^2) int_0^rho t p^2 dt.  Direct where kap1 rho > 1, by
+    Gauss-Legendre quadrature below (where the direct form loses digits)."""
+    p, dp, _ = _rod_inner(n, kap1, rho)
+    out = (n * n * p * p / rho ** 2 - dp * dp) / (kap1 * kap1)
+    small = kap1 * rho <= 1.0
+    if np.any(small):
+        k = kap1[small][:, None]
+        t = 0.5 * rho * (_QUAD_NODES + 1.0)
+        pt = _rod_inner(n, k, t[None, :])[0]
+        integral = 0.5 * rho * np.sum(_QUAD_WEIGHTS * t * pt * pt, axis=1)
+        out[small] = p[small] ** 2 - 2.0 / rho ** 2 * integral
+    return out
+
+
+def _rod_outer_e(n: int, kap2sq: np.ndarray, rho: float) -> np.ndarray:
+    """(n^2 f g / rho^2 - f' g') / kap2^2 at s = rho, finite as kap2 -> 0 (same scaling as
+    :func:`_rod_outer`).  As in :func:`_rod_inner_e`, with e = 0 at the wall s = 1:
+    e / kap2^2 = f g (rho) + (2 / rho^2) int_rho^1 t f g dt, by Gauss-Legendre quadrature in
+    ln t where |kap2| <= 1, direct above."""
+    f, df, g, dg, _ = _rod_outer(n, kap2sq, rho, rho)
+    with np.errstate(all="ignore"):
+        out = (n * n * f * g / rho ** 2 - df * dg) / kap2sq
+    small = np.abs(kap2sq) <= 1.0
+    if np.any(small):
+        u = 0.5 * math.log(rho) * (1.0 - _QUAD_NODES)  # ln t from ln rho to 0
+        t = np.exp(u)[None, :]
+        ft, _, gt, _, _ = _rod_outer(n, kap2sq[small][:, None], t, rho)
+        integral = -0.5 * math.log(rho) * np.sum(_QUAD_WEIGHTS * t * t * ft * gt, axis=1)
+        out[small] = f[small] * g[small] + 2.0 / rho ** 2 * integral
+    return out
+
+
+def _rod_characteristic(n: int, rho: float, eps_r: float, k0b: float, family: str):
+    """Characteristic function of the rod-loaded circular guide, of kap1 = k1 b (arrays).
+
+    Fields ~ exp(j(w t - beta z)), s = r / b, k1^2 = k0^2 eps_r - beta^2 in the rod, k2^2 =
+    k0^2 - beta^2 outside (all wavenumbers b-scaled below; K = k0 b, c = k1^2 - k2^2 =
+    K^2 (eps_r - 1)).  Rod: E_z = A p(s) cos(n phi), eta0 H_z = B p(s) sin(n phi); outside:
+    E_z = C f(s) cos(n phi), eta0 H_z = D g(s) sin(n phi) (p, f, g of :func:`_rod_inner`,
+    :func:`_rod_outer`: E_z = 0 and dH_z/dr = 0 on the wall).  With the transverse fields
+
+        E_phi = -j / kt^2 (beta/r dE_z/dphi - w mu0 dH_z/dr)
+        H_phi = -j / kt^2 (beta/r dH_z/dphi + w eps dE_z/dr),   kt^2 = k0^2 eps - beta^2,
+
+    continuity of E_z, H_z, E_phi, H_phi at s = rho (the last two multiplied by k1^2 k2^2) is,
+    with N = beta b n / rho (Harrington, Time-Harmonic Electromagnetic Fields, 1961, and Collin,
+    Field Theory of Guided Waves, on inhomogeneously filled guides; this exact form from memory):
+
+        | p            0           -f           0          |   |A|
+        | 0            p            0          -g          |   |B|
+        | k2^2 N p     k2^2 K p'   -k1^2 N f   -k1^2 K g'  | . |C| = 0
+        | k2^2 K eps p'  k2^2 N p  -k1^2 K f'  -k1^2 N g   |   |D|
+
+    Its determinant is c^2 N^2 p^2 f g - K^2 (k2^2 p' g - k1^2 p g') (k2^2 eps p' f - k1^2 p f')
+    (eliminate A, B with the first two rows).  That vanishes identically at k2 = 0 (beta = k0)
+    and at k1 = 0, roots of the scaling, not modes; written with e_i = (n^2 p^2/rho^2 - p'^2) /
+    k1^2 and e_o = (n^2 f g/rho^2 - f' g') / k2^2 (:func:`_rod_inner_e`, :func:`_rod_outer_e`,
+    both finite) and N^2 = (K^2 - k2^2) n^2 / rho^2, K^2 = c / (eps - 1), it is K^2 k1^2 k2^2 H:
+
+        H = -(1 + eps) n^2/rho^2 p^2 f g + eps k2^2 e_i f g + k1^2 e_o p^2 + p p' (g f' + eps f g')
+
+    an entire function of beta^2 without those two factors; H is returned for n >= 1 (for
+    eps = 1 it reduces to -(p f' - p' f)(p g' - p' g): TM and TE of the empty guide).  For
+    n = 0 the system splits into TM (A, C) and TE (B, D), with the factors k1^2, k2^2 removed:
+
+        TM:  -p f' + k2^2 eps (p' / k1^2) f,      TE:  g (p' / k1^2) - p (g' / k2^2).
+    """
+
+    def func(kap1):
+        kap1 = np.asarray(kap1, dtype=float)
+        k1sq = kap1 * kap1
+        k2sq = k1sq - k0b * k0b * (eps_r - 1.0)
+        p, dp, dp_k = _rod_inner(n, kap1, rho)
+        f, df, g, dg, dg_k = _rod_outer(n, k2sq, rho, rho)
+        if n == 0:
+            if family == "TM":
+                return -p * df + k2sq * eps_r * dp_k * f
+            return g * dp_k - p * dg_k
+        return (-(1.0 + eps_r) * n * n / rho ** 2 * p * p * f * g
+                + eps_r * k2sq * _rod_inner_e(n, kap1, rho) * f * g
+                + k1sq * _rod_outer_e(n, k2sq, rho) * p * p
+                + p * dp * (g * df + eps_r * f * dg))
+
+    return func
+
+
+def rod_in_circular_guide_betas(a: float, b: float, eps_r: float, frequency: float,
+                                azimuthal_order: int, count: int, family=None,
+                                points_per_pi: int = 200) -> List[float]:
+    """beta (rad/m, descending) of the ``count`` propagating modes of largest beta, of azimuthal
+    order n = ``azimuthal_order``, of a circular PEC guide of radius b with a concentric
+    dielectric rod of radius a < b (relative permittivity eps_r >= 1, mu_r = 1; vacuum outside).
+
+    Fewer are returned when fewer propagate.  For n >= 1 the modes are hybrid (HE/EH); each beta
+    is a degenerate pair (cos / sin n phi), listed once.  For n = 0 the TE_0m and TM_0m families
+    separate: ``family`` 'TE' or 'TM' gives one of them, None both (merged); for n >= 1 family
+    must be None.  The equations are in :func:`_rod_characteristic`.
+
+    Every propagating mode has 0 < beta < k0 sqrt(eps_r) (the Rayleigh bound, common practice),
+    i.e. 0 < k1 b < k0 b sqrt(eps_r) with k1^2 = k0^2 eps_r - beta^2.  The characteristic
+    function, which has no poles, is scanned on ``points_per_pi`` points per pi in k1 b and
+    every sign change refined by Brent's method; a refined root whose value is not small against
+    the bracket ends (a jump, not a zero) raises RuntimeError.
+    """
+    a = _check_length("a", a)
+    b = _check_length("b", b)
+    if not a < b:
+        raise ValueError(f"rod radius a must be below the guide radius b = {b!r} m, got {a!r}")
+    eps_r = float(eps_r)
+    if not (math.isfinite(eps_r) and eps_r >= 1.0):
+        raise ValueError(f"eps_r must be a finite number >= 1 (vacuum outside the rod), got {eps_r!r}")
+    f = float(frequency)
+    if not (math.isfinite(f) and f > 0):
+        raise ValueError(f"frequency must be a positive number of Hz, got {frequency!r}")
+    if isinstance(azimuthal_order, bool) or not isinstance(azimuthal_order, (int, np.integer)) \
+            or azimuthal_order < 0:
+        raise ValueError(f"azimuthal_order must be a non-negative integer, got {azimuthal_order!r}")
+    n = int(azimuthal_order)
+    count = _check_count(count)
+    if n == 0:
+        if family not in (None, "TE", "TM"):
+            raise ValueError(f"family must be None, 'TE' or 'TM' for n = 0, got {family!r}")
+        families = ("TE", "TM") if family is None else (family,)
+    else:
+        if family is not None:
+            raise ValueError(f"modes of azimuthal order {n} >= 1 are hybrid: family must be None, got {family!r}")
+        families = ("hybrid",)
+    rho = a / b
+    k0b = 2 * math.pi * f / C0 * b
+    top = k0b * math.sqrt(eps_r)  # k1 b at beta = 0
+    num = max(8, int(math.ceil(top / math.pi * points_per_pi)))
+    grid = np.linspace(0.0, top, num + 1)
+    grid[0] = 1e-6 * grid[1]  # k1 = 0 (beta = k0 sqrt(eps_r)) itself is excluded
+    roots = []
+    for fam in families:
+        func = _rod_characteristic(n, rho, eps_r, k0b, fam)
+        with np.errstate(all="ignore"):
+            vals = func(grid)
+        if not np.all(np.isfinite(vals)):
+            raise ArithmeticError(f"non-finite characteristic value at k1 b = {grid[~np.isfinite(vals)][:3]}")
+
+        def scalar(x):
+            return float(func(np.array([x]))[0])
+
+        for i in range(num):
+            v0, v1 = vals[i], vals[i + 1]
+            if v0 == 0.0:
+                roots.append(float(grid[i]))
+            elif v0 * v1 < 0:
+                r = optimize.brentq(scalar, grid[i], grid[i + 1], xtol=1e-15 * top,
+                                    rtol=4 * np.finfo(float).eps, maxiter=200)
+                if abs(scalar(r)) > 1e-6 * max(abs(v0), abs(v1)):
+                    raise RuntimeError(f"sign change without a zero near k1 b = {r!r} (a jump): "
+                                       "the characteristic function should have no poles")
+                roots.append(float(r))
+    betas = [math.sqrt(k0b * k0b * eps_r - x * x) / b for x in roots if x < top]
+    return sorted(betas, reverse=True)[:count]
