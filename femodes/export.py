@@ -935,8 +935,8 @@ def loaded_table(study, title=None) -> str:
     rows = [[str(c.index + 1), c.label, format_ghz(c.fc, c.fc_error), _err_text(c.fc_error),
              _significant(299792458.0 / c.fc * 1e3, _sig_digits(c.fc, c.fc_error))] for c in study.cutoffs]
     lines += _grid(["#", "type at cutoff", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"], rows, {0, 2, 3, 4})
-    lines.append("  (TE-type: only transverse E at cutoff; TM-type: only E_z.  Above cutoff the modes are "
-                 "hybrid in general.)")
+    lines.append("  (TE-type: only transverse E at cutoff; TM-type: only E_z; 'from': the empty-guide mode "
+                 "whose field at cutoff it mostly has.  Above cutoff the modes are hybrid in general.)")
     band = study.single_mode_band
     if band is not None:
         c1, c2 = study.cutoffs[0], study.cutoffs[1]
@@ -994,8 +994,8 @@ def loaded_document(study, title=None) -> dict:
         "accuracy": study.accuracy,
         "discretisation": {"unknowns": int(study.n_dofs), "element_order": int(study.order),
                            "elements": "Nedelec (transverse E) and Lagrange (E_z)"},
-        "cutoffs": [{"index": c.index, "label": c.label, "field": c.field, "fc": c.fc, "fc_error": c.fc_error}
-                    for c in study.cutoffs],
+        "cutoffs": [{"index": c.index, "label": c.label, "field": c.field, "fc": c.fc, "fc_error": c.fc_error,
+                     "parent": c.parent, "parent_share": _finite(c.parent_share)} for c in study.cutoffs],
         "single_mode_band": None if study.single_mode_band is None else
         {"f_low": study.single_mode_band[0], "f_high": study.single_mode_band[1]},
     }

@@ -122,13 +122,21 @@ class LoadedMode:
 @dataclass(frozen=True, eq=False)
 class LoadedCutoff:
     """A cutoff (beta = 0) of a loaded guide: ``field`` 'TE' (transverse E only at cutoff) or
-    'TM' (E_z only); ``fc`` Hz, ``fc_error`` its estimated error (Hz)."""
+    'TM' (E_z only); ``fc`` Hz, ``fc_error`` its estimated error (Hz).
+
+    label  : 'TE-type from TE10' when the field at cutoff is mostly (``parent_share`` >= 0.8) that
+             of one empty-guide mode or degenerate group at its cutoff (transverse E compared with
+             the TE modes' for a TE-type cutoff, E_z with the TM modes' for a TM-type one), else
+             'TE-type 2' (the ordinal among its type)
+    """
 
     field: str
     label: str
     fc: float
     fc_error: float
     index: int
+    parent: str | None = None
+    parent_share: float = math.nan
 
     @property
     def rel_error(self):
@@ -188,8 +196,9 @@ PARENT_SHARE = 0.8  # share of int |E_t|^2 in one or two empty-guide modes that 
 
 
 def _empty_guide(problem, count):
-    """The empty guide's lowest modes on ``problem``'s mesh: [(family, kc^2, E_t)], E_t (2, ne, nq)
-    at the quadrature points of ``problem.basis_t``.
+    """The empty guide's lowest modes on ``problem``'s mesh: [(family, kc^2, E_t, u)], E_t (2, ne, nq)
+    and the potential u (H_z of TE, E_z of TM, phi of TEM; (ne, nq)) at the quadrature points of
+    ``problem.basis_t``.
 
     The empty (homogeneous) guide's modes are pure (common practice): TE from the Neumann
     eigenproblem of H_z, E_t = z x grad H_z; TM from the Dirichlet one of E_z, E_t = grad E_z;
@@ -210,18 +219,20 @@ def _empty_guide(problem, count):
     scale = float(np.sum(problem.basis_t.dx))  # the area
     sigma = -1.0 / scale  # below every eigenvalue (kc^2 > 0, or 0 for the constant H_z)
 
-    def gradients(cols):
-        return [np.asarray(bz.interpolate(c).grad) for c in cols.T]
+    def fields(cols):
+        for c in cols.T:
+            f = bz.interpolate(c)
+            yield np.asarray(f.grad), np.asarray(f)
 
     out = []
-    lam, X, _ = lowest_eigenpairs(S, T, count + 1, sigma)
-    for kc2, g in zip(lam, gradients(X)):
+    lam, X, _ = lowest_eigenpairs(S, T, count + 1, sigma, tol=1e-9)  # labels and shares only
+    for kc2, (g, u) in zip(lam, fields(X)):
         if kc2 > 1e-8 / scale:  # not the constant
-            out.append(("TE", float(kc2), np.array([-g[1], g[0]])))
-    lam, X, _ = lowest_eigenpairs(S[iz][:, iz], T[iz][:, iz], count, sigma)
+            out.append(("TE", float(kc2), np.array([-g[1], g[0]]), u))
+    lam, X, _ = lowest_eigenpairs(S[iz][:, iz], T[iz][:, iz], count, sigma, tol=1e-9)
     full = np.zeros((bz.N, X.shape[1]))
     full[iz] = X
-    out += [("TM", float(kc2), g) for kc2, g in zip(lam, gradients(full))]
+    out += [("TM", float(kc2), g, u) for kc2, (g, u) in zip(lam, fields(full))]
     groups = _conductors(bz.mesh)
     if len(groups) > 1:
         cond = [np.unique(bz.get_dofs(facets=gr).flatten()) for gr in groups]
@@ -230,12 +241,12 @@ def _empty_guide(problem, count):
         for i in range(1, len(groups)):
             phis[cond[i], i - 1] = 1.0
             phis[iz, i - 1] = spsolve(S[iz][:, iz].tocsc(), -(S[iz][:, bnd] @ phis[bnd, i - 1]))
-        out += [("TEM", 0.0, g) for g in gradients(phis)]
+        out += [("TEM", 0.0, g, u) for g, u in fields(phis)]
     return sorted(out, key=lambda m: m[1])
 
 
 def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
-    """For each loaded VectorMode: (parent label or None, share).  The empty guide (the section
+    """For each loaded VectorMode (or VectorCutoff): (parent label or None, share).  The empty guide (the section
     without its regions) is solved on the same mesh (:func:`_empty_guide`); its modes are pure
     TE / TM / TEM and are named by matching their kc to the scalar solver's labelled modes of the
     bare section.  A loaded mode's parent is the empty-guide mode (or pair of them) holding >=
@@ -243,7 +254,9 @@ def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
     orthogonal (common practice: the modal orthogonality of homogeneous guides), so the shares
     add up to at most 1.  A degenerate group (TE11 and TM11 of a rectangle, a circle's TE11 pair,
     the TEM modes of several inner conductors) is one parent, its share the projection on the
-    group's span."""
+    group's span.  At a cutoff the comparison is of like with like: the transverse E of a TE-type
+    cutoff with the empty guide's TE and TEM modes, the E_z of a TM-type cutoff with its TM modes
+    (an empty-guide TM mode has no transverse E at cutoff, a TE mode no E_z)."""
     from dataclasses import replace as _replace
 
     from .solver import solve as _solve_scalar
@@ -257,12 +270,12 @@ def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
     ref = _solve_scalar(_replace(section, materials=()), modes=count, eps_r=eps_r, mu_r=mu_r, accuracy=1e-4)
     kmax2 = max([r.kc ** 2 for r in ref] + [m[1] for m in empty])
     names = []
-    for fam, kc2, _ in empty:
+    for fam, kc2, _, _ in empty:
         hits = [r for r in ref if r.family == fam and abs(r.kc ** 2 - kc2) <= 1e-3 * max(r.kc ** 2, 1e-6 * kmax2)]
         names.append(hits[0].label if hits else None)
     # group the empty modes by kc (degenerate groups); unnamed ones stay alone
     groups = []
-    for j, (fam, kc2, _) in enumerate(empty):
+    for j, (fam, kc2, _, _) in enumerate(empty):
         for gr in groups:
             i = gr[0]
             if names[i] and names[j] and abs(empty[i][1] - kc2) <= 1e-5 * max(kc2, 1e-6 * kmax2):
@@ -273,25 +286,40 @@ def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
     dx = problem.basis_t.dx
     bt = problem.basis_t
     ip = lambda a, b: float(np.sum(np.einsum("kij,kij->ij", a, b) * dx))  # noqa: E731
-    group_names, grams = [], []
-    for gr in groups:
-        labs = [names[i] for i in gr if names[i]]
-        if "TEM" in {empty[i][0] for i in gr} and len(labs) > 1:
-            group_names.append("TEM")
-        else:
-            group_names.append("/".join(dict.fromkeys(sorted(labs, key=lambda t: (t[:2] != "TE", t)))) or None)
-        grams.append(np.array([[ip(empty[a][2], empty[b][2]) for b in gr] for a in gr]))
+    ips = lambda a, b: float(np.sum(a * b * dx))  # noqa: E731
+    grams = [np.array([[ip(empty[a][2], empty[b][2]) for b in gr] for a in gr]) for gr in groups]
+    grams_z = [np.array([[ips(empty[a][3], empty[b][3]) for b in gr] for a in gr]) for gr in groups]
+
+    def group_name(members):
+        labs = [names[i] for i in members if names[i]]
+        if len(labs) < len(members):
+            return None
+        if len(labs) > 1 and all(empty[i][0] == "TEM" for i in members):
+            return "TEM"
+        return "/".join(dict.fromkeys(sorted(labs, key=lambda t: (t[:2] != "TE", t))))
+
     out = []
     for lm in loaded_modes:
-        e = np.asarray(bt.interpolate(lm.et))
-        ee = ip(e, e)
+        cutoff = hasattr(lm, "field")  # a VectorCutoff
+        if cutoff and lm.field == "TM":
+            e = np.asarray(problem.basis_z.interpolate(lm.coeffs))
+            prod, slot, G_all, want = ips, 3, grams_z, {"TM"}
+        else:
+            e = np.asarray(bt.interpolate(lm.coeffs if cutoff else lm.et))
+            prod, slot, G_all = ip, 2, grams
+            want = {"TE", "TEM"} if cutoff else {"TE", "TM", "TEM"}
+        ee = prod(e, e)
         share = {}
-        for k, (gr, G) in enumerate(zip(groups, grams)):
-            c = np.array([ip(e, empty[i][2]) for i in gr])
-            v = float(c @ np.linalg.solve(G, c)) / ee
-            key = group_names[k] if group_names[k] else f"?{k}"
+        for k, (gr, G) in enumerate(zip(groups, G_all)):
+            pos = [q for q, i in enumerate(gr) if empty[i][0] in want]
+            if not pos:
+                continue
+            members = [gr[q] for q in pos]
+            c = np.array([prod(e, empty[i][slot]) for i in members])
+            v = float(c @ np.linalg.solve(G[np.ix_(pos, pos)], c)) / ee
+            key = group_name(members) or f"?{k}"
             share[key] = share.get(key, 0.0) + v
-        ranked = sorted(share.items(), key=lambda kv: -kv[1])
+        ranked = sorted(share.items(), key=lambda kv: -kv[1]) or [("?", 0.0)]
         top = ranked[0]
         if not top[0].startswith("?") and top[1] >= PARENT_SHARE:
             out.append((top[0], top[1]))
@@ -362,10 +390,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     out = []
     counts = {}
     keep = [i for i in range(n) if frequency is None or evanescent or objs[i].beta2 > 0]
-    if frequency is not None and parents:
-        named = dict(zip(keep, _parents(section, fine[3], frequency, [objs[i] for i in keep], eps_r, mu_r)))
-    else:
-        named = {}
+    named = dict(zip(keep, _parents(section, fine[3], frequency, [objs[i] for i in keep], eps_r, mu_r))) if parents else {}
     for i in keep:
         o = objs[i]
         if frequency is not None:
@@ -380,7 +405,9 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             fam = o.field
             counts[fam] = counts.get(fam, 0) + 1
             fc = o.frequency
-            out.append(LoadedCutoff(fam, f"{fam}-type {counts[fam]}", fc, float(fc * err[i] / (2 * vals[i])), len(out)))
+            parent, share = named.get(i, (None, math.nan))
+            label = f"{fam}-type from {parent}" if parent else f"{fam}-type {counts[fam]}"
+            out.append(LoadedCutoff(fam, label, fc, float(fc * err[i] / (2 * vals[i])), len(out), parent, share))
     return (tuple(out), fine[3]) if _return_problem else tuple(out)
 
 

@@ -482,7 +482,7 @@ def test_loaded_case_table(tmp_path, capsys):
     path.write_text(SIDE_SLAB.replace("points = 9", "points = 3"), encoding="utf-8")
     code, out, err = run(capsys, "solve", str(path), "--no-figures", "--csv", str(tmp_path / "m.csv"))
     assert code == 0, err
-    for words in ("cutoffs (beta = 0)", "TE-type 1", "single-mode band", "at f = 9 GHz", "TE from TE10",
+    for words in ("cutoffs (beta = 0)", "TE-type from TE10", "single-mode band", "at f = 9 GHz", "TE from TE10",
                   "v_g/c", "dielectric [dB/m]", "not computed for loaded guides", "dispersion:"):
         assert words in out, words
     rows = list(csv.DictReader(open(tmp_path / "m.csv", encoding="utf-8")))

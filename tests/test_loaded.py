@@ -44,6 +44,10 @@ def test_slab_loaded_cutoffs_computed_directly(slab_guide):
     for c, r in zip(cuts, want):
         err = abs(c.fc / r.frequency - 1)
         assert err <= 1e-7 and err <= c.rel_error
+        # at cutoff an LSE/LSM_mn field is that of the empty guide's TE_mn (transverse E) or TM_mn
+        # (E_z only) with the same indices (Collin, ch. 6)
+        assert c.field == r.field and c.parent == f"{r.field}{r.indices[0]}{r.indices[1]}", (c.label, r.label)
+        assert c.label == f"{c.field}-type from {c.parent}" and c.parent_share >= 0.8
 
 
 def test_beta_at_another_frequency_points_to_dispersion(slab_guide):
