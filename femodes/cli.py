@@ -123,9 +123,11 @@ def _solve(args):
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         modeset = run_case(case)
+    shown = set()  # each distinct message once (the refinement repeats solves on similar meshes)
     for w in caught:
-        if issubclass(w.category, (RuntimeWarning, UserWarning)):
-            msg = str(w.message)
+        msg = str(w.message)
+        if issubclass(w.category, (RuntimeWarning, UserWarning)) and msg not in shown:
+            shown.add(msg)
             print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
                   file=sys.stderr)
     if case.loaded:
