@@ -155,20 +155,19 @@ def _solve(args):
 
 def _report_loaded(case, study, args):
     """Print / write the results of a guide with material regions (a LoadedStudy)."""
-    from .export import loaded_document, loaded_table, write_loaded_csv, write_loaded_figures
+    from .export import (loaded_document, loaded_table, write_loaded_csv, write_loaded_fields,
+                         write_loaded_figures)
 
-    if args.fields:
-        raise FemodesError("--fields (mesh file with the mode fields) is not available for guides with "
-                           "[[region]] tables yet; use --figures for field patterns")
     csv_path = write_loaded_csv(study, args.csv) if args.csv else None
+    fields_path = write_loaded_fields(study, args.fields) if args.fields else None
     figures = write_loaded_figures(study, case.output)
     if args.json:
         doc = loaded_document(study, title=case.title)
-        doc["files"] = {"csv": csv_path, "figures": figures}
+        doc["files"] = {"csv": csv_path, "fields": fields_path, "figures": figures}
         print(json.dumps(doc, indent=2, allow_nan=False))
         return 0
     sys.stdout.write(loaded_table(study, title=case.title))
-    for p in [csv_path] + figures:
+    for p in [csv_path, fields_path] + figures:
         if p:
             print(f"wrote {p}")
     return 0

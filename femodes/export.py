@@ -1051,6 +1051,51 @@ def write_loaded_csv(study, path):
     return str(path)
 
 
+def write_loaded_fields(study, path, subdivisions=2):
+    """The modes at the frequency of a loaded study as a field file through meshio (format from
+    the file name: .vtu for ParaView, .xdmf, ...).  The mesh is written element by element, each
+    element cut into ``subdivisions``^2 triangles with points of its own, so that the jump of the
+    normal E across material interfaces is kept (vertices on an interface appear once per side).
+
+    Point data per propagating mode ``NN_label`` (SI, the normalisation of
+    femodes.vector.VectorMode: int (|E_t|^2 + |E_z|^2) dA = 1, units 1/m for E, A/(V m) x 1/m for
+    H): ``_Et`` and ``_Ht`` the transverse fields (z component 0), ``_Ez`` and ``_Hz`` the
+    longitudinal ones (which are in quadrature with the transverse: their imaginary part is
+    written, the real part is zero), ``_absE`` = |E|.  Cell data: ``region`` (0 the fill, i the
+    i-th region) and ``eps_r``.  Returns the path."""
+    import meshio
+
+    from .figures import safe_name
+    from .mesh import triangle_regions
+
+    if study.frequency is None or not any(m.propagating for m in study.modes):
+        raise FemodesError("--fields writes the modes at a frequency: give [analysis] frequency (at which "
+                           "at least one mode propagates) in the case file")
+    modes = [m for m in study.modes if m.propagating]
+    prob = modes[0].vector.problem
+    data, tri, xy = {}, None, None
+    for m in modes:
+        x, y, t, F = prob.sample(m.vector, subdivisions)
+        tri, xy = t, (x, y)
+        key = f"{m.index + 1:02d}_{safe_name(m.label)}"
+        zero = np.zeros_like(x)
+        data[key + "_Et"] = np.column_stack([F[0].real, F[1].real, zero])
+        data[key + "_Ez"] = F[2].imag
+        data[key + "_Ht"] = np.column_stack([F[3].real, F[4].real, zero])
+        data[key + "_Hz"] = F[5].imag
+        data[key + "_absE"] = np.sqrt(np.abs(F[0]) ** 2 + np.abs(F[1]) ** 2 + np.abs(F[2]) ** 2)
+    per_element = tri.shape[0] // prob.mesh.t.shape[1]
+    regions = np.repeat(triangle_regions(study.section, prob.mesh.p, prob.mesh.t[:3]), per_element)
+    eps = np.repeat(prob.eps_r, per_element)
+    xyz = np.column_stack([xy[0], xy[1], np.zeros_like(xy[0])])
+    try:
+        meshio.write(str(path), meshio.Mesh(xyz, [("triangle", tri)], point_data=data,
+                                            cell_data={"region": [regions], "eps_r": [eps]}))
+    except Exception as exc:  # meshio raises its own types for unknown formats
+        raise FemodesError(f"cannot write field file {path}: {exc}; use a name ending in .vtu or .xdmf") from None
+    return str(path)
+
+
 def write_loaded_figures(study, output):
     """The figures of [output] for a loaded study: field patterns of the modes at the frequency
     ("fields") and the dispersion chart ("dispersion").  Returns the written paths."""

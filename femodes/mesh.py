@@ -381,8 +381,14 @@ def _material_loops(section):
 def _triangle_regions(mesh: Mesh, section: Section) -> np.ndarray:
     """Material index of each triangle from its centroid (the mesh conforms to the interfaces,
     so each triangle lies in one region); the last region containing it wins."""
-    c = mesh.points[:, mesh.triangles].mean(axis=1)
-    out = np.zeros(mesh.n_triangles, dtype=np.int64)
+    return triangle_regions(section, mesh.points, mesh.triangles)
+
+
+def triangle_regions(section: Section, points, triangles) -> np.ndarray:
+    """Material index (0 the fill, i the i-th of ``section.materials``) of each triangle
+    (``triangles`` (3, m) indices into ``points`` (2, n)), from its centroid."""
+    c = np.asarray(points)[:, np.asarray(triangles)].mean(axis=1)
+    out = np.zeros(c.shape[1], dtype=np.int64)
     for i, mat in enumerate(section.materials, start=1):
         out[mat.contains(c[0], c[1])] = i
     return out

@@ -489,8 +489,44 @@ def test_loaded_case_table(tmp_path, capsys):
     assert rows[0]["label"] == "TE from TE10" and float(rows[0]["beta_rad_per_m"]) > 0
 
 
-def test_loaded_case_refuses_fields_file(tmp_path, capsys):
+def test_loaded_case_fields_file_has_the_slab_mode_profile(tmp_path, capsys):
+    # The TE10-like mode of WR-90 with a full-height slab (eps_r 2.56, width t) against the side
+    # wall is TE_10 of the x-layered guide (Collin, Field Theory of Guided Waves, ch. 6; Pozar,
+    # Microwave Engineering, sec. 3.3, from memory): E = y E_y(x), E_y = sin(kx1 x) in the slab
+    # and C sin(kx2 (a - x)) in the air, kx1^2 = k0^2 eps_r - beta^2, kx2^2 = k0^2 - beta^2,
+    # C from the continuity of E_y at x = t; beta from the transverse-resonance reference.
+    import meshio
+    import numpy as np
+
+    from femodes import reference as ref
+
     path = tmp_path / "slab.toml"
-    path.write_text(SIDE_SLAB, encoding="utf-8")
+    path.write_text(SIDE_SLAB.replace("points = 9", "points = 3"), encoding="utf-8")
     code, out, err = run(capsys, "solve", str(path), "--no-figures", "--fields", str(tmp_path / "f.vtu"))
-    assert code == 2 and "--fields" in err and "[[region]]" in err
+    assert code == 0, err
+    assert str(tmp_path / "f.vtu") in out
+    got = meshio.read(str(tmp_path / "f.vtu"))
+    a, t, f = 22.86e-3, 4e-3, 9e9
+    k0 = 2 * math.pi * f / C0
+    beta2 = ref.layered_guide_modes(a, 10.16e-3, [(t, 2.56, 1.0), (a - t, 1.0, 1.0)], f, count=1, axis="x")[0].beta2
+    k1, k2 = math.sqrt(k0 ** 2 * 2.56 - beta2), math.sqrt(k0 ** 2 - beta2)
+    x = got.points[:, 0] + a / 2
+    shape = np.where(x <= t, np.sin(k1 * x), math.sin(k1 * t) / math.sin(k2 * (a - t)) * np.sin(k2 * (a - x)))
+    et = got.point_data["01_TE-from-TE10_Et"]
+    scale = float(et[:, 1] @ shape / (shape @ shape))
+    peak = np.max(np.abs(et[:, 1]))
+    # fields converge like the square root of the eigenvalue (common practice for Galerkin
+    # eigenproblems): accuracy 1e-6 on beta^2 gives about 1e-3 on the field (measured 1.0e-3)
+    assert np.max(np.abs(et[:, 1] - scale * shape)) < 4e-3 * peak
+    assert np.max(np.abs(et[:, 0])) < 4e-3 * peak and np.max(np.abs(got.point_data["01_TE-from-TE10_Ez"])) < 4e-3 * peak
+    eps = got.cell_data["eps_r"][0]
+    assert set(np.unique(got.cell_data["region"][0])) == {0, 1} and set(np.unique(eps)) == {1.0, 2.56}
+
+
+def test_loaded_case_fields_file_needs_a_frequency(tmp_path, capsys):
+    path = tmp_path / "slab.toml"
+    path.write_text(SIDE_SLAB.replace("[analysis]\n", "").replace("frequency = 9\n", "").replace("band = [7, 11]\n", "")
+                    .replace("points = 9\n", "").replace('figures = ["fields", "dispersion"]', "figures = []"),
+                    encoding="utf-8")
+    code, out, err = run(capsys, "solve", str(path), "--no-figures", "--fields", str(tmp_path / "f.vtu"))
+    assert code == 2 and "--fields" in err and "frequency" in err
