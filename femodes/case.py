@@ -54,9 +54,10 @@ takes a shape of the list below except mesh, with its keys and placement, in the
     A later region wins where two overlap; parts of a region outside the guide are ignored.
     Such a case reports the lowest cutoffs (beta = 0) of the loaded guide and, with [analysis],
     the propagating modes at the frequency (beta, guide wavelength, phase and group velocity,
-    dielectric loss; which empty-guide mode each grows from) and, with a band, their dispersion
-    (figure "dispersion").  Wall loss, impedance and power handling are not computed for
-    loaded guides yet; the conductor keys of [analysis] are then refused.
+    dielectric loss, wall loss with the [analysis] conductor and roughness_um; which empty-guide
+    mode each grows from) and, with a band, their dispersion (figure "dispersion").  Impedance
+    and power handling are not computed for loaded guides yet; breakdown_field, safety_factor
+    and impedance in [analysis] are then refused.
 
 ``[fill]`` (optional) -- the homogeneous filling (the background, where there are regions):
 
@@ -255,8 +256,8 @@ SHAPES = {
 # the other tables: key -> (type check, default)
 _TOP_KEYS = ("title", "guide", "region", "fill", "solve", "analysis", "output")
 _REGION_KEYS = ("eps_r", "mu_r", "tan_delta", "name")
-#: [analysis] keys that concern the walls (not computed for loaded guides yet)
-_WALL_KEYS = ("conductor", "roughness_um", "breakdown_field", "safety_factor", "impedance")
+#: [analysis] keys not computed for loaded guides yet (impedance and power handling)
+_WALL_KEYS = ("breakdown_field", "safety_factor", "impedance")
 _FILL_KEYS = ("eps_r", "mu_r", "tan_delta")
 _ANALYSIS_KEYS = ("frequency", "band", "points", "frequency_units", "conductor", "roughness_um",
                   "breakdown_field", "safety_factor", "impedance")
@@ -359,8 +360,6 @@ class Case:
         if no_figures and figures_dir is not None:
             raise FemodesError("--figures and --no-figures contradict each other; give one of them")
         an = self.analysis
-        if conductor is not None and self.loaded:
-            raise FemodesError("--conductor: wall loss is not computed for guides with [[region]] tables yet")
         if frequency is not None or band is not None or conductor is not None:
             if an is None:
                 if frequency is None and band is None:
@@ -475,7 +474,8 @@ def run_case(case: Case):
         an = case.analysis
         kw = dict(case.solve)
         if an is not None:
-            kw.update(frequency=an.table_frequency, band=an.band, points=an.points)
+            kw.update(frequency=an.table_frequency, band=an.band, points=an.points,
+                      conductivity=an.conductivity, roughness=an.roughness, conductor=an.conductor_text)
         return study(case.section, tan_delta=case.tan_delta, **kw)
     from .solver import solve
 
@@ -560,7 +560,7 @@ def _build_case(data, base_dir, path):
         if loaded:
             wall = [k for k in an if k in _WALL_KEYS]
             if wall:
-                raise FemodesError(f"{', '.join(wall)} in [analysis]: wall loss, impedance and power handling "
+                raise FemodesError(f"{', '.join(wall)} in [analysis]: impedance and power handling "
                                    "are not computed for guides with [[region]] tables yet; leave "
                                    f"{'it' if len(wall) == 1 else 'them'} out")
         analysis = _build_analysis(an, tan_delta)

@@ -880,6 +880,7 @@ def analysis_document(an) -> dict:
 #: units of the numbers in :func:`loaded_document` (SI)
 LOADED_UNITS = {"length": "m", "fc": "Hz", "fc_error": "Hz", "frequency": "Hz", "beta": "rad/m",
                 "beta_error": "rad/m", "guide_wavelength": "m", "alpha_dielectric": "Np/m",
+                "alpha_conductor": "Np/m", "alpha_conductor_error": "Np/m", "conductivity": "S/m", "roughness": "m",
                 "phase_velocity": "1 (v_p / c0)", "group_velocity": "1 (v_g / c0)",
                 "effective_permittivity": "1 ((beta / k0)^2)",
                 "accuracy": "1 (relative: on beta^2 / (k0^2 eps_max mu_max) at a frequency, on fc for cutoffs)"}
@@ -900,13 +901,14 @@ def _share(x):
     return "0" if abs(x) < 1e-12 else _g(x, 3)
 
 
-def _loaded_mode_row(m):
+def _loaded_mode_row(m, study):
     from .quantities import NP_TO_DB
 
     b = m.beta()
     prop = m.propagating
     sig = _sig_digits(abs(b), m.beta_error) if prop else 5
     ad = m.dielectric_attenuation() if prop else math.nan
+    ac, ac_err = _loaded_wall_loss(m, study)
     return [str(m.index + 1), m.label, m.family,
             _significant(b, sig) if prop else f"-j{_g(abs(b))}",
             f"{m.beta_error:.0e}" if m.beta_error > 0 else "-",
@@ -915,7 +917,17 @@ def _loaded_mode_row(m):
             f"{m.phase_velocity():.4f}" if prop else "-",
             f"{m.group_velocity():.4f}" if prop else "-",
             _share(m.e_share), _share(m.h_share),
-            (_g(ad * NP_TO_DB, 4) if ad > 0 else "0") if prop else "-"]
+            (_g(ad * NP_TO_DB, 4) if ad > 0 else "0") if prop else "-",
+            _g(ac * NP_TO_DB, 4) if prop else "-",
+            (f"{ac_err * NP_TO_DB:.0e}" if math.isfinite(ac_err) else "?") if prop else "-"]
+
+
+def _loaded_wall_loss(m, study):
+    """(alpha_c, its estimated error) Np/m of a loaded mode with the study's wall metal."""
+    if not m.propagating:
+        return math.nan, math.nan
+    kw = dict(conductivity=study.conductivity, roughness=study.roughness)
+    return m.conductor_attenuation(**kw), m.conductor_attenuation_error(**kw)
 
 
 def loaded_table(study, title=None) -> str:
@@ -950,15 +962,17 @@ def loaded_table(study, title=None) -> str:
             lines.append("  no mode propagates at this frequency")
         else:
             head = ["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
-                    "v_g/c", "Ez share", "Hz share", "dielectric [dB/m]"]
-            lines += _grid(head, [_loaded_mode_row(m) for m in prop], {0, 3, 4, 5, 6, 7, 8, 9, 10, 11})
+                    "v_g/c", "Ez share", "Hz share", "dielectric [dB/m]", "walls [dB/m]", "± [dB/m]"]
+            lines += _grid(head, [_loaded_mode_row(m, study) for m in prop], set(range(3, 14)) | {0})
             lines.append("  (label: the empty-guide mode it grows from, where its transverse E is mostly that "
                          "mode's; Ez / Hz share: the longitudinal share of the electric / magnetic energy, 0 "
                          "for TE / TM; eps_eff = (beta/k0)^2)")
             if study.more_propagate:
                 lines.append(f"  every one of the {len(study.modes)} modes asked for propagates: more may; "
                              "ask for more modes ([solve] modes or --modes) to see them all")
-        lines.append("  wall loss, impedance and power handling are not computed for loaded guides yet.")
+        rough = f", rms roughness {study.roughness * 1e6:g} um" if study.roughness else ""
+        lines.append(f"  walls: {study.conductor}{rough}; wall loss by the power-loss method (not valid close "
+                     "to cutoff).  Impedance and power handling are not computed for loaded guides yet.")
     disp = study.dispersion
     if disp is not None:
         fs = disp.frequencies
@@ -994,6 +1008,8 @@ def loaded_document(study, title=None) -> dict:
         "accuracy": study.accuracy,
         "discretisation": {"unknowns": int(study.n_dofs), "element_order": int(study.order),
                            "elements": "Nedelec (transverse E) and Lagrange (E_z)"},
+        "walls": {"conductor": study.conductor, "conductivity": _finite(study.conductivity),
+                  "roughness": _finite(study.roughness)},
         "cutoffs": [{"index": c.index, "label": c.label, "field": c.field, "fc": c.fc, "fc_error": c.fc_error,
                      "parent": c.parent, "parent_share": _finite(c.parent_share)} for c in study.cutoffs],
         "single_mode_band": None if study.single_mode_band is None else
@@ -1012,6 +1028,8 @@ def loaded_document(study, title=None) -> dict:
                                    "phase_velocity": _finite(m.phase_velocity()),
                                    "group_velocity": _finite(m.group_velocity()),
                                    "alpha_dielectric": _finite(m.dielectric_attenuation()),
+                                   "alpha_conductor": _finite(_loaded_wall_loss(m, study)[0]),
+                                   "alpha_conductor_error": _finite(_loaded_wall_loss(m, study)[1]),
                                    "e_share": _finite(m.e_share), "h_share": _finite(m.h_share)}
                                    for m in study.modes]}
     d = study.dispersion
@@ -1035,14 +1053,15 @@ def write_loaded_csv(study, path):
     if study.frequency is not None:
         w.writerow(["index", "label", "family", "frequency_Hz", "beta_rad_per_m", "beta_error_rad_per_m",
                     "guide_wavelength_m", "effective_permittivity", "vp_over_c", "vg_over_c", "e_share",
-                    "h_share", "alpha_dielectric_Np_per_m"])
+                    "h_share", "alpha_dielectric_Np_per_m", "alpha_conductor_Np_per_m",
+                    "alpha_conductor_error_Np_per_m"])
         for m in study.modes:
             if not m.propagating:
                 continue
             w.writerow([m.index, m.label, m.family, repr(study.frequency), repr(float(m.beta())),
                         repr(m.beta_error), repr(m.guide_wavelength()), repr(m.effective_permittivity),
                         repr(m.phase_velocity()), repr(m.group_velocity()), repr(m.e_share), repr(m.h_share),
-                        repr(m.dielectric_attenuation())])
+                        repr(m.dielectric_attenuation())] + [repr(v) for v in _loaded_wall_loss(m, study)])
     else:
         w.writerow(["index", "label", "field_at_cutoff", "fc_Hz", "fc_error_Hz"])
         for c in study.cutoffs:

@@ -60,6 +60,8 @@ class LoadedMode:
     vector: object = field(repr=False)
     parent: str | None = None
     parent_share: float = math.nan
+    coarse: object = field(default=None, repr=False)  # the same mode on the coarser mesh
+    field_rate_factor: float = 1.0  # (N_fine / N_coarse)^(p / 2) - 1, for field-based errors
 
     def beta(self, f=None):
         """beta (rad/m) at the solve frequency, -1j alpha if evanescent.  Asking at another
@@ -96,6 +98,34 @@ class LoadedMode:
         tan_delta; femodes.vector.VectorMode.dielectric_attenuation); NaN if evanescent."""
         self.beta(f)
         return self.vector.dielectric_attenuation
+
+    def conductor_attenuation(self, f=None, conductivity=5.8e7, roughness=0.0):
+        """Wall-loss attenuation alpha_c (Np/m) by the power-loss method, as for the homogeneous
+        modes (femodes.quantities.conductor_attenuation):
+
+            alpha_c = P_loss / (2 P),   P_loss = (K R_s / 2) oint |H_tan|^2 dl,
+
+        P the Poynting flux of the hybrid mode and H_tan its field tangential to the walls (H_z
+        and the tangential part of H_t), from the full-vector fields; ``conductivity`` in S/m or
+        a metal name, ``roughness`` rms (m, Hammerstad-Jensen factor K).  A perturbation of the
+        lossless mode: not valid close to cutoff, and it ignores the coupling of degenerate
+        modes; NaN if evanescent.  Its error: :meth:`conductor_attenuation_error`."""
+        self.beta(f)
+        if not self.propagating:
+            return math.nan
+        return _alpha_c(self.vector, conductivity, roughness)
+
+    def conductor_attenuation_error(self, f=None, conductivity=5.8e7, roughness=0.0):
+        """Estimated error (Np/m) of :meth:`conductor_attenuation`: the same quantity on the
+        coarser of the last two meshes, the difference extrapolated at the rate p of the fields
+        (slower than beta's: a TEM mode's beta is exact on any mesh while its fields are not)
+        with the safety factor.  NaN when no coarse-mesh partner is known."""
+        self.beta(f)
+        if not self.propagating or self.coarse is None:
+            return math.nan
+        fine = _alpha_c(self.vector, conductivity, roughness)
+        coarse = _alpha_c(self.coarse, conductivity, roughness)
+        return abs(fine - coarse) / self.field_rate_factor * SAFETY
 
     @property
     def e_share(self):
@@ -141,6 +171,16 @@ class LoadedCutoff:
     @property
     def rel_error(self):
         return self.fc_error / self.fc if self.fc > 0 else 0.0
+
+
+def _alpha_c(vm, conductivity, roughness):
+    """alpha_c = K R_s oint |H_tan|^2 dl / (4 P) of a VectorMode (Np/m)."""
+    from .quantities import conductivity_of, roughness_factor, surface_resistance
+
+    sigma = conductivity_of(conductivity)
+    f = vm.frequency
+    rs = float(surface_resistance(f, sigma)) * float(roughness_factor(f, sigma, roughness))
+    return rs * vm.wall_integral() / (4.0 * vm.power())
 
 
 def _material_arrays(section, mesh, eps_r, mu_r, tan_delta=0.0):
@@ -331,6 +371,15 @@ def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
     return out
 
 
+def _coarse_partner(vm, candidates):
+    """The mode among ``candidates`` (VectorModes on the coarser mesh) nearest in beta^2 and of
+    the same family, or None."""
+    same = [c for c in candidates if c.family == vm.family and c.beta2 > 0]
+    if not same:
+        return None
+    return min(same, key=lambda c: abs(c.beta2 - vm.beta2))
+
+
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
                  evanescent=False, max_iterations=5, tan_delta=0.0, parents=True, _return_problem=False):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions.
@@ -400,7 +449,9 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             beta_err = err[i] / (2 * abs(b)) if abs(b) > 0 else math.sqrt(err[i])
             parent, share = named.get(i, (None, math.nan))
             label = f"{fam} from {parent}" if parent else f"{fam} {counts[fam]}"
-            out.append(LoadedMode(fam, label, float(frequency), b, float(beta_err), len(out), o, parent, share))
+            partner = _coarse_partner(o, coarse[1])
+            out.append(LoadedMode(fam, label, float(frequency), b, float(beta_err), len(out), o, parent, share,
+                                  partner, max((fine[2] / coarse[2]) ** (p / 2) - 1.0, 0.5)))
         else:
             fam = o.field
             counts[fam] = counts.get(fam, 0) + 1
@@ -473,6 +524,9 @@ class LoadedStudy:
     more_propagate: bool = False
     dispersion: object = None
     empty_modes: tuple = ()
+    conductor: str = "copper (5.8e+07 S/m)"
+    conductivity: float = 5.8e7
+    roughness: float = 0.0
 
     @property
     def single_mode_band(self):
@@ -483,15 +537,18 @@ class LoadedStudy:
 
 
 def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_delta=0.0,
-          frequency=None, band=None, points=41):
+          frequency=None, band=None, points=41, conductivity=5.8e7, roughness=0.0, conductor=None):
     """Cutoffs, modes at ``frequency`` (Hz) and dispersion over ``band`` (f1, f2 Hz, ``points``
     frequencies) of a section with material regions: the loaded-guide part of a case file.  The
-    dispersion follows the modes whose cutoff (of the ``modes`` computed) lies below f2."""
+    dispersion follows the modes whose cutoff (of the ``modes`` computed) lies below f2.
+    ``conductivity`` (S/m), ``roughness`` (m) and ``conductor`` (its description) are the wall
+    metal for the wall loss of the modes at ``frequency``."""
     p = ORDER if order is None else int(order)
     cuts, prob = solve_loaded(section, modes, None, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
                               _return_problem=True)
     out = LoadedStudy(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), p, cuts,
-                      prob.n_dofs)
+                      prob.n_dofs, conductor=conductor or f"{float(conductivity):.4g} S/m",
+                      conductivity=float(conductivity), roughness=float(roughness))
     if frequency is not None:
         ms, prob_f = solve_loaded(section, modes, frequency, eps_r, mu_r, accuracy, order=p,
                                   tan_delta=tan_delta, _return_problem=True)

@@ -53,7 +53,7 @@ __all__ = [
     "sector_modes",
     "L_SHAPE_DIRICHLET", "L_SHAPE_NEUMANN", "l_shape_eigenvalue_mps",
     "mathieu_tridiagonal", "mathieu_characteristic", "ellipse_modes", "ellipse_ritz_kc",
-    "rod_in_circular_guide_betas",
+    "rod_in_circular_guide_betas", "side_slab_te_m0_wall_loss",
 ]
 
 # ---------------------------------------------------------------------------
@@ -1355,6 +1355,51 @@ def side_slab_te_m0_equation(beta2: float, a: float, t: float, eps_r: float, k0:
     cd, sd = cos_and_sin_over_k(eps_r * k0 * k0 - beta2, t)
     ca, sa = cos_and_sin_over_k(k0 * k0 - beta2, l)
     return cd * sa + ca * sd
+
+
+def side_slab_te_m0_wall_loss(a: float, b: float, t: float, eps_r: float, frequency: float,
+                              beta2: float, surface_resistance: float) -> float:
+    """Wall-loss attenuation alpha_c (Np/m) of a TE_m0 mode (E_y(x) only) of the guide a x b
+    with a full-height slab eps_r of width t against the side wall x = 0, by the power-loss method
+    (Pozar, Microwave Engineering, sec. 3.3 and 3.1, from memory), from the exact fields:
+
+        E_y = sin(k_d x) / k_d (x < t),   A sin(k_a (a - x)) / k_a (x > t),   A from E_y at x = t,
+        H_x = -beta E_y / (omega mu0),    H_z = (j / (omega mu0)) dE_y/dx,
+        P = beta b int E_y^2 dx / (2 omega mu0),
+        oint |H_tan|^2 dl = [2 int (beta^2 E_y^2 + E_y'^2) dx + b (E_y'(0)^2 + E_y'(a)^2)] / (omega mu0)^2
+        alpha_c = R_s oint |H_tan|^2 dl / (4 P)
+
+    (top and bottom walls carry H_x and H_z, the side walls H_z; sin(k x)/k -> sinh(kappa x)/kappa
+    for k^2 < 0).  ``beta2`` from :func:`layered_guide_modes` (axis "x") or the TE_m0 equation."""
+    from scipy.integrate import quad
+
+    k0 = 2 * math.pi * float(frequency) / C0
+    l = a - t
+
+    def cs(k2, x):  # (cos-like, sin(k x) / k)
+        if k2 > 0:
+            k = math.sqrt(k2)
+            return math.cos(k * x), math.sin(k * x) / k
+        if k2 < 0:
+            k = math.sqrt(-k2)
+            return math.cosh(k * x), math.sinh(k * x) / k
+        return 1.0, x
+
+    kd2, ka2 = eps_r * k0 * k0 - beta2, k0 * k0 - beta2
+    amp = cs(kd2, t)[1] / cs(ka2, l)[1]
+
+    def e(x):
+        return cs(kd2, x)[1] if x <= t else amp * cs(ka2, a - x)[1]
+
+    def de(x):
+        return cs(kd2, x)[0] if x <= t else -amp * cs(ka2, a - x)[0]
+
+    opts = dict(points=[t], epsabs=0.0, epsrel=1e-12, limit=200)
+    e2 = quad(lambda x: e(x) ** 2, 0.0, a, **opts)[0]
+    de2 = quad(lambda x: de(x) ** 2, 0.0, a, **opts)[0]
+    wall = 2.0 * (beta2 * e2 + de2) + b * (de(0.0) ** 2 + de(a) ** 2)
+    omega_mu = 2 * math.pi * float(frequency) * MU0
+    return float(surface_resistance) * wall / (2.0 * omega_mu * math.sqrt(beta2) * b * e2)
 
 
 def filled_guide_modes(a: float, b: float, eps_r: float, mu_r: float, frequency: float,

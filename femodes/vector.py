@@ -156,6 +156,16 @@ class VectorMode:
         (Pozar, Microwave Engineering, sec. 3.1).  0 without losses; NaN if evanescent."""
         return self.problem._sensitivity(self)[1]
 
+    def power(self):
+        """Time-average power P = 1/2 Re int (E_t x H_t*) . z dA (W) of the mode as normalised
+        (int (|E_t|^2 + |E_z|^2) dA = 1, E in units 1/m): :meth:`VectorProblem.power`."""
+        return self.problem.power(self)
+
+    def wall_integral(self):
+        """oint |H_tan|^2 dl over every wall (PEC boundary), for the normalisation of
+        :meth:`power`: :meth:`VectorProblem.wall_integral`."""
+        return self.problem.wall_integral(self)
+
     def fields(self, points, cells=None):
         """(E_x, E_y, E_z, H_x, H_y, H_z) at points (2, n), complex, NaN outside the mesh.
 
@@ -505,6 +515,79 @@ class VectorProblem:
         Y = np.vstack([E * np.asarray(b2)[None, :], W])
         yBx = np.einsum("ij,ij->j", Y, pm["B"] @ X)
         return -np.einsum("ij,ij->j", Y, pm["A2"] @ X) / yBx, Y, X, yBx
+
+    # -- power flow and wall loss ----------------------------------------------------
+    def _h_fields(self, mode, bt, bz):
+        """(E_t (2, ., q) real, H_t (2, ., q), H_z (., q)) complex at the quadrature points of the
+        bases ``bt`` (Nedelec) and ``bz`` (Lagrange) on the same cells / facets: Faraday's law
+        H = j curl E / (omega mu) with d/dz = -j beta (module docstring); cells of the bases from
+        their ``tind`` (facet bases) or all cells."""
+        from .modes import MU0
+
+        et = bt.interpolate(mode.et)
+        e = np.asarray(et)
+        curl = np.asarray(et.curl)
+        gz = np.asarray(bz.interpolate(mode.ez.real).grad) + 1j * np.asarray(bz.interpolate(mode.ez.imag).grad)
+        cells = getattr(bt, "tind", None)
+        mu = (self.mu_r if cells is None else self.mu_r[cells]) * MU0
+        w_mu = 2 * math.pi * mode.frequency * mu[:, None]
+        g = gz + 1j * mode.beta * e
+        H_t = np.array([1j * g[1], -1j * g[0]]) / w_mu
+        H_z = 1j * curl / w_mu
+        return e, H_t, H_z
+
+    def power(self, mode):
+        """P = 1/2 Re int (E_x H_y* - E_y H_x*) dA (W) for the mode's normalised fields (common
+        practice: the Poynting flux along the guide; Pozar, Microwave Engineering, sec. 3.1)."""
+        e, H_t, _ = self._h_fields(mode, self.basis_t, self.basis_z)
+        s_z = 0.5 * np.real(e[0] * np.conj(H_t[1]) - e[1] * np.conj(H_t[0]))
+        return float(np.sum(s_z * self.basis_t.dx))
+
+    def wall_integral(self, mode):
+        """oint |H_tan|^2 dl over every wall (all boundary edges are PEC), H_tan = H_z z + (H_t . t) t
+        with t the unit tangent of the wall.  Gauss quadrature on each boundary edge, evaluated in
+        its element on the (curved) geometry: the wall edges are grouped by which local edge of
+        their element they are, so each group shares its reference points (scikit-fem's facet
+        bases do not take the third-order edge elements)."""
+        from .modes import MU0
+
+        skm = self.mesh
+        bt, bz = self.basis_t, self.basis_z
+        facets = skm.boundary_facets()
+        cells = skm.f2t[0, facets]
+        local = np.argmax(skm.t2f[:, cells] == facets[None, :], axis=0)
+        s, w = np.polynomial.legendre.leggauss(self.order + 3)
+        s, w = 0.5 * (s + 1.0), 0.5 * w
+        # reference edges of scikit-fem's triangle: (0,1), (1,2), (0,2): start point, direction
+        edges = {0: ((0.0, 0.0), (1.0, 0.0)), 1: ((1.0, 0.0), (-1.0, 1.0)), 2: ((0.0, 0.0), (0.0, 1.0))}
+        omega = 2 * math.pi * mode.frequency
+        total = 0.0
+        for l, (start, d) in edges.items():
+            c = cells[local == l]
+            if c.size == 0:
+                continue
+            X = np.array([start[0] + s * d[0], start[1] + s * d[1]])
+            e = np.zeros((2, c.size, s.size))
+            curl = np.zeros((c.size, s.size))
+            gz = np.zeros((2, c.size, s.size), dtype=complex)
+            for k in range(bt.Nbfun):
+                fk = bt.elem.gbasis(bt.mapping, X, k, tind=c)[0]
+                ck = mode.et[bt.element_dofs[k][c]][:, None]
+                e += ck[None] * np.asarray(fk)
+                curl += ck * np.asarray(fk.curl)
+            for k in range(bz.Nbfun):
+                fk = bz.elem.gbasis(bz.mapping, X, k, tind=c)[0]
+                gz += mode.ez[bz.element_dofs[k][c]][None, :, None] * np.asarray(fk.grad)
+            DF = bt.mapping.DF(X, tind=c)                         # (2, 2, ne, q)
+            tan = DF[:, 0] * d[0] + DF[:, 1] * d[1]               # (2, ne, q): d x / d s
+            dl = np.hypot(tan[0], tan[1])
+            tx, ty = tan[0] / dl, tan[1] / dl
+            w_mu = omega * MU0 * self.mu_r[c][:, None]
+            g = gz + 1j * mode.beta * e
+            h_tan = (1j * g[1] * tx - 1j * g[0] * ty) / w_mu
+            h_z = 1j * curl / w_mu
+            total += float(np.sum((np.abs(h_tan) ** 2 + np.abs(h_z) ** 2) * dl * w[None, :]))
+        return total
 
     def _sensitivity(self, mode):
         """(v_g / c0, alpha_d in Np/m) of a mode from its right and left eigenvectors (see
