@@ -465,6 +465,12 @@ def test_loaded_case_json_against_the_slab_equation(tmp_path, capsys):
     assert first["family"] == "TE" and first["label"] == "TE from TE10"
     assert doc["regions"] == [{"name": None, "eps_r": 2.56, "mu_r": 1.0, "tan_delta": 5e-4}]
     assert 0 < first["alpha_dielectric"] and 0 < first["group_velocity"] < 1
+    # wall loss (default copper) against the power-loss integrals of the exact fields
+    from femodes.quantities import surface_resistance
+
+    wall = ref.side_slab_te_m0_wall_loss(a, 10.16e-3, t, 2.56, 9e9, want, float(surface_resistance(9e9, 5.8e7)))
+    assert doc["walls"]["conductivity"] == 5.8e7
+    assert abs(first["alpha_conductor"] - wall) <= first["alpha_conductor_error"] < 1e-2 * wall
     disp = doc["dispersion"]
     assert len(disp["frequencies"]) == 9 and disp["labels"][0] == "TE from TE10"
     for f, row in zip(disp["frequencies"], disp["beta"]):
