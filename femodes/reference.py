@@ -1342,19 +1342,21 @@ def side_slab_te_m0_equation(beta2: float, a: float, t: float, eps_r: float, k0:
     separately from the transfer matrices of :func:`layered_guide_modes` (axis "x"), to check them.
     """
     l = a - t
-
-    def cos_and_sin_over_k(k2, x):
-        if k2 > 0:
-            k = math.sqrt(k2)
-            return math.cos(k * x), math.sin(k * x) / k
-        if k2 < 0:
-            k = math.sqrt(-k2)
-            return math.cosh(k * x), math.sinh(k * x) / k
-        return 1.0, x
-
-    cd, sd = cos_and_sin_over_k(eps_r * k0 * k0 - beta2, t)
-    ca, sa = cos_and_sin_over_k(k0 * k0 - beta2, l)
+    cd, sd = _cos_and_sin_over_k(eps_r * k0 * k0 - beta2, t)
+    ca, sa = _cos_and_sin_over_k(k0 * k0 - beta2, l)
     return cd * sa + ca * sd
+
+
+def _cos_and_sin_over_k(k2: float, x: float) -> Tuple[float, float]:
+    """(cos(k x), sin(k x) / k) for k^2 = k2 > 0; (cosh, sinh(kappa x) / kappa) for k2 = -kappa^2
+    < 0; (1, x) at k2 = 0: the transverse standing waves of a layer, continuous in k2."""
+    if k2 > 0:
+        k = math.sqrt(k2)
+        return math.cos(k * x), math.sin(k * x) / k
+    if k2 < 0:
+        k = math.sqrt(-k2)
+        return math.cosh(k * x), math.sinh(k * x) / k
+    return 1.0, x
 
 
 def side_slab_te_m0_wall_loss(a: float, b: float, t: float, eps_r: float, frequency: float,
@@ -1375,16 +1377,7 @@ def side_slab_te_m0_wall_loss(a: float, b: float, t: float, eps_r: float, freque
 
     k0 = 2 * math.pi * float(frequency) / C0
     l = a - t
-
-    def cs(k2, x):  # (cos-like, sin(k x) / k)
-        if k2 > 0:
-            k = math.sqrt(k2)
-            return math.cos(k * x), math.sin(k * x) / k
-        if k2 < 0:
-            k = math.sqrt(-k2)
-            return math.cosh(k * x), math.sinh(k * x) / k
-        return 1.0, x
-
+    cs = _cos_and_sin_over_k
     kd2, ka2 = eps_r * k0 * k0 - beta2, k0 * k0 - beta2
     amp = cs(kd2, t)[1] / cs(ka2, l)[1]
 
