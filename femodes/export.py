@@ -1028,10 +1028,9 @@ def loaded_document(study, title=None) -> dict:
                                    "phase_velocity": _finite(m.phase_velocity()),
                                    "group_velocity": _finite(m.group_velocity()),
                                    "alpha_dielectric": _finite(m.dielectric_attenuation()),
-                                   "alpha_conductor": _finite(_loaded_wall_loss(m, study)[0]),
-                                   "alpha_conductor_error": _finite(_loaded_wall_loss(m, study)[1]),
+                                   "alpha_conductor": _finite(ac), "alpha_conductor_error": _finite(ac_err),
                                    "e_share": _finite(m.e_share), "h_share": _finite(m.h_share)}
-                                   for m in study.modes]}
+                                   for m in study.modes for ac, ac_err in (_loaded_wall_loss(m, study),)]}
     d = study.dispersion
     if d is not None:
         b2 = np.asarray(d.beta2, dtype=float)

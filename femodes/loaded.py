@@ -127,7 +127,7 @@ class LoadedMode:
         self.beta(f)
         if not self.propagating or self.lower is None:
             return math.nan
-        partner = _coarse_partner(self.vector, self.lower())
+        partner = _partner(self.vector, self.lower())
         if partner is None:
             return math.nan
         return abs(_alpha_c(self.vector, conductivity, roughness) - _alpha_c(partner, conductivity, roughness))
@@ -292,7 +292,7 @@ def _empty_guide(problem, count):
     return sorted(out, key=lambda m: m[1])
 
 
-def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
+def _parents(section, problem, loaded_modes, eps_r, mu_r):
     """For each loaded VectorMode (or VectorCutoff): (parent label or None, share).  The empty guide (the section
     without its regions) is solved on the same mesh (:func:`_empty_guide`); its modes are pure
     TE / TM / TEM and are named by matching their kc to the scalar solver's labelled modes of the
@@ -378,9 +378,9 @@ def _parents(section, problem, frequency, loaded_modes, eps_r, mu_r):
     return out
 
 
-def _coarse_partner(vm, candidates):
-    """The mode among ``candidates`` (VectorModes on the coarser mesh) nearest in beta^2 and of
-    the same family, or None."""
+def _partner(vm, candidates):
+    """The mode among ``candidates`` (VectorModes of another discretisation of the same guide)
+    nearest in beta^2 and of the same family, or None."""
     same = [c for c in candidates if c.family == vm.family and c.beta2 > 0]
     if not same:
         return None
@@ -464,7 +464,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
         return prob.solve(frequency, modes=len(objs) + 2, evanescent=False)
 
     lower = functools.lru_cache(maxsize=1)(lower_modes) if frequency is not None and p > 1 else None
-    named = dict(zip(keep, _parents(section, fine[3], frequency, [objs[i] for i in keep], eps_r, mu_r))) if parents else {}
+    named = dict(zip(keep, _parents(section, fine[3], [objs[i] for i in keep], eps_r, mu_r))) if parents else {}
     for i in keep:
         o = objs[i]
         if frequency is not None:
@@ -517,7 +517,7 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     if not labels:
         return disp
     first = disp.modes[0]
-    named = _parents(section, problem, fs[0], [m for m in first], eps_r, mu_r)
+    named = _parents(section, problem, list(first), eps_r, mu_r)
     names = tuple(f"{m.family} from {par}" if par else "" for m, (par, _) in zip(first, named))
     return replace(disp, labels=names)
 
