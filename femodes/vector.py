@@ -516,31 +516,48 @@ class VectorProblem:
         yBx = np.einsum("ij,ij->j", Y, pm["B"] @ X)
         return -np.einsum("ij,ij->j", Y, pm["A2"] @ X) / yBx, Y, X, yBx
 
-    # -- power flow and wall loss ----------------------------------------------------
-    def _h_fields(self, mode, bt, bz):
-        """(E_t (2, ., q) real, H_t (2, ., q), H_z (., q)) complex at the quadrature points of the
-        bases ``bt`` (Nedelec) and ``bz`` (Lagrange) on the same cells / facets: Faraday's law
-        H = j curl E / (omega mu) with d/dz = -j beta (module docstring); cells of the bases from
-        their ``tind`` (facet bases) or all cells."""
+    # -- fields at reference points, power flow and wall loss ------------------------
+    def _reference_fields(self, mode, X, cells=None):
+        """(E_t (2, ne, q), curl E_t (ne, q), E_z (ne, q), grad E_z (2, ne, q)) of ``mode`` at the
+        reference points X (2, q) of ``cells`` (default all), through the (curved) mapping: the
+        same points in every element, so each basis function is evaluated once for all of them."""
+        bt, bz = self.basis_t, self.basis_z
+        kw = {} if cells is None else {"tind": cells}
+        rows = slice(None) if cells is None else cells
+        ne, q = (self.mesh.t.shape[1] if cells is None else len(cells)), X.shape[1]
+        ev, ec = np.zeros((2, ne, q)), np.zeros((ne, q))
+        zv, zg = np.zeros((ne, q), dtype=complex), np.zeros((2, ne, q), dtype=complex)
+        for k in range(bt.Nbfun):
+            fk = bt.elem.gbasis(bt.mapping, X, k, **kw)[0]
+            ck = mode.et[bt.element_dofs[k][rows]][:, None]
+            ev += ck[None] * np.asarray(fk)
+            ec += ck * np.asarray(fk.curl)
+        for k in range(bz.Nbfun):
+            fk = bz.elem.gbasis(bz.mapping, X, k, **kw)[0]
+            ck = mode.ez[bz.element_dofs[k][rows]][:, None]
+            zv += ck * np.asarray(fk)
+            zg += ck[None] * np.asarray(fk.grad)
+        return ev, ec, zv, zg
+
+    def _magnetic(self, mode, ev, ec, zg, cells=None):
+        """(H_t (2, ...), H_z (...)) by Faraday's law H = j curl E / (omega mu) with d/dz = -j beta:
+        curl E = z curl_t E_t - z x (grad E_z + j beta E_t), -z x (g_x, g_y) = (g_y, -g_x); from
+        E_t, curl E_t and grad E_z of ``cells`` (default all), shaped (2, ne, q) / (ne, q) or, one
+        point per cell, (2, n) / (n,)."""
         from .modes import MU0
 
-        et = bt.interpolate(mode.et)
-        e = np.asarray(et)
-        curl = np.asarray(et.curl)
-        gz = np.asarray(bz.interpolate(mode.ez.real).grad) + 1j * np.asarray(bz.interpolate(mode.ez.imag).grad)
-        cells = getattr(bt, "tind", None)
-        mu = (self.mu_r if cells is None else self.mu_r[cells]) * MU0
-        w_mu = 2 * math.pi * mode.frequency * mu[:, None]
-        g = gz + 1j * mode.beta * e
-        H_t = np.array([1j * g[1], -1j * g[0]]) / w_mu
-        H_z = 1j * curl / w_mu
-        return e, H_t, H_z
+        mu = self.mu_r if cells is None else self.mu_r[cells]
+        mu = mu.reshape(mu.shape + (1,) * (np.ndim(ec) - 1)) * MU0
+        w_mu = 2 * math.pi * mode.frequency * mu
+        g = zg + 1j * mode.beta * ev
+        return np.array([1j * g[1], -1j * g[0]]) / w_mu, 1j * ec / w_mu
 
     def power(self, mode):
         """P = 1/2 Re int (E_x H_y* - E_y H_x*) dA (W) for the mode's normalised fields (common
         practice: the Poynting flux along the guide; Pozar, Microwave Engineering, sec. 3.1)."""
-        e, H_t, _ = self._h_fields(mode, self.basis_t, self.basis_z)
-        s_z = 0.5 * np.real(e[0] * np.conj(H_t[1]) - e[1] * np.conj(H_t[0]))
+        ev, ec, _, zg = self._reference_fields(mode, self.basis_t.X)
+        H_t, _ = self._magnetic(mode, ev, ec, zg)
+        s_z = 0.5 * np.real(ev[0] * np.conj(H_t[1]) - ev[1] * np.conj(H_t[0]))
         return float(np.sum(s_z * self.basis_t.dx))
 
     def wall_integral(self, mode):
@@ -549,10 +566,7 @@ class VectorProblem:
         its element on the (curved) geometry: the wall edges are grouped by which local edge of
         their element they are, so each group shares its reference points (scikit-fem's facet
         bases do not take the third-order edge elements)."""
-        from .modes import MU0
-
         skm = self.mesh
-        bt, bz = self.basis_t, self.basis_z
         facets = skm.boundary_facets()
         cells = skm.f2t[0, facets]
         local = np.argmax(skm.t2f[:, cells] == facets[None, :], axis=0)
@@ -560,33 +574,19 @@ class VectorProblem:
         s, w = 0.5 * (s + 1.0), 0.5 * w
         # reference edges of scikit-fem's triangle: (0,1), (1,2), (0,2): start point, direction
         edges = {0: ((0.0, 0.0), (1.0, 0.0)), 1: ((1.0, 0.0), (-1.0, 1.0)), 2: ((0.0, 0.0), (0.0, 1.0))}
-        omega = 2 * math.pi * mode.frequency
         total = 0.0
         for l, (start, d) in edges.items():
             c = cells[local == l]
             if c.size == 0:
                 continue
             X = np.array([start[0] + s * d[0], start[1] + s * d[1]])
-            e = np.zeros((2, c.size, s.size))
-            curl = np.zeros((c.size, s.size))
-            gz = np.zeros((2, c.size, s.size), dtype=complex)
-            for k in range(bt.Nbfun):
-                fk = bt.elem.gbasis(bt.mapping, X, k, tind=c)[0]
-                ck = mode.et[bt.element_dofs[k][c]][:, None]
-                e += ck[None] * np.asarray(fk)
-                curl += ck * np.asarray(fk.curl)
-            for k in range(bz.Nbfun):
-                fk = bz.elem.gbasis(bz.mapping, X, k, tind=c)[0]
-                gz += mode.ez[bz.element_dofs[k][c]][None, :, None] * np.asarray(fk.grad)
-            DF = bt.mapping.DF(X, tind=c)                         # (2, 2, ne, q)
+            ev, ec, _, zg = self._reference_fields(mode, X, c)
+            H_t, H_z = self._magnetic(mode, ev, ec, zg, c)
+            DF = self.basis_t.mapping.DF(X, tind=c)               # (2, 2, ne, q)
             tan = DF[:, 0] * d[0] + DF[:, 1] * d[1]               # (2, ne, q): d x / d s
             dl = np.hypot(tan[0], tan[1])
-            tx, ty = tan[0] / dl, tan[1] / dl
-            w_mu = omega * MU0 * self.mu_r[c][:, None]
-            g = gz + 1j * mode.beta * e
-            h_tan = (1j * g[1] * tx - 1j * g[0] * ty) / w_mu
-            h_z = 1j * curl / w_mu
-            total += float(np.sum((np.abs(h_tan) ** 2 + np.abs(h_z) ** 2) * dl * w[None, :]))
+            h_tan = (H_t[0] * tan[0] + H_t[1] * tan[1]) / dl
+            total += float(np.sum((np.abs(h_tan) ** 2 + np.abs(H_z) ** 2) * dl * w[None, :]))
         return total
 
     def _sensitivity(self, mode):
@@ -979,8 +979,6 @@ class VectorProblem:
         for all elements): returns (x (P,), y (P,), triangles (T, 3), F (6, P)) with F the
         components of :meth:`VectorMode.fields`.  Points are per element (the normal E jumps
         across material interfaces and is kept so); curved elements are followed."""
-        from .modes import MU0
-
         n = max(1, int(subdivisions))
         ij = [(i, j) for j in range(n + 1) for i in range(n + 1 - j)]
         X = np.array(ij, dtype=float).T / n                       # (2, q) reference points
@@ -992,35 +990,15 @@ class VectorProblem:
                 if i + j + 1 < n:
                     tri.append((num[(i + 1, j)], num[(i + 1, j + 1)], num[(i, j + 1)]))
         tri = np.array(tri)
-        bt, bz = self.basis_t, self.basis_z
         ne, q = self.mesh.t.shape[1], X.shape[1]
-        ev = np.zeros((2, ne, q))
-        ec = np.zeros((ne, q))
-        zv = np.zeros((ne, q), dtype=complex)
-        zg = np.zeros((2, ne, q), dtype=complex)
-        for k in range(bt.Nbfun):
-            fk = bt.elem.gbasis(bt.mapping, X, k)[0]
-            ck = mode.et[bt.element_dofs[k]][:, None]
-            ev += ck[None] * np.asarray(fk)
-            ec += ck * np.asarray(fk.curl)
-        for k in range(bz.Nbfun):
-            fk = bz.elem.gbasis(bz.mapping, X, k)[0]
-            ck = mode.ez[bz.element_dofs[k]][:, None]
-            zv += ck * np.asarray(fk)
-            zg += ck[None] * np.asarray(fk.grad)
-        xy = bt.mapping.F(X)                                      # (2, ne, q)
-        omega = 2 * math.pi * mode.frequency
-        mu = (self.mu_r * MU0)[:, None]
-        beta = mode.beta
-        gx, gy = zg[0] + 1j * beta * ev[0], zg[1] + 1j * beta * ev[1]
-        F = np.array([ev[0], ev[1], zv, 1j * gy / (omega * mu), -1j * gx / (omega * mu),
-                      1j * ec / (omega * mu)], dtype=complex)
+        ev, ec, zv, zg = self._reference_fields(mode, X)
+        H_t, H_z = self._magnetic(mode, ev, ec, zg)
+        xy = self.basis_t.mapping.F(X)                            # (2, ne, q)
+        F = np.array([ev[0], ev[1], zv, H_t[0], H_t[1], H_z], dtype=complex)
         triangles = (tri[None, :, :] + q * np.arange(ne)[:, None, None]).reshape(-1, 3)
         return xy[0].ravel(), xy[1].ravel(), triangles, F.reshape(6, -1)
 
     def _fields(self, mode, points, cells=None):
-        from .modes import MU0
-
         pts = np.asarray(points, dtype=float).reshape(2, -1)
         if cells is None:
             cells, ref = _locate(self.mesh, pts)
@@ -1034,18 +1012,10 @@ class VectorProblem:
         n = pts.shape[1]
         et_val, et_curl = _eval_hcurl(self.basis_t, mode.et, cells[ok], ref[:, ok])
         ez_val, ez_grad = _eval_h1(self.basis_z, mode.ez, cells[ok], ref[:, ok])
-        omega = 2 * math.pi * mode.frequency
-        mu = self.mu_r[cells[ok]] * MU0
-        beta = mode.beta
         out = np.full((6, n), np.nan + 0j)
         out[0, ok], out[1, ok], out[2, ok] = et_val[0], et_val[1], ez_val
-        # curl E = z curl_t E_t - z x (grad E_z + j beta E_t);  H = j curl E / (omega mu)
-        gx = ez_grad[0] + 1j * beta * et_val[0]
-        gy = ez_grad[1] + 1j * beta * et_val[1]
-        # -z x (gx, gy) = (gy, -gx)
-        out[3, ok] = 1j * gy / (omega * mu)
-        out[4, ok] = -1j * gx / (omega * mu)
-        out[5, ok] = 1j * et_curl / (omega * mu)
+        H_t, H_z = self._magnetic(mode, np.asarray(et_val), np.asarray(et_curl), np.asarray(ez_grad), cells[ok])
+        out[3, ok], out[4, ok], out[5, ok] = H_t[0], H_t[1], H_z
         return tuple(out)
 
 
