@@ -212,14 +212,18 @@ def _material_arrays(section, mesh, eps_r, mu_r, tan_delta=0.0):
 GRADING_FLOOR = 1e-3
 
 
-def _problem(section, h, eps_r, mu_r, order, tan_delta=0.0, k_max=None, mesh_order=None):
-    """The VectorProblem of elements ``order`` on the mesh of size h graded for ``mesh_order``
-    (default ``order``)."""
+def _mesh(section, h, order, k_max=None):
+    """The mesh of size h for edge elements of ``order``, graded over 1 / k_max (GRADING_FLOOR)."""
     from .mesh import mesh_section
-    from .vector import VectorProblem
 
     radius = None if not k_max else 1.0 / float(k_max)
-    mesh = mesh_section(section, h, order=mesh_order or order, grading_radius=radius, grading_floor=GRADING_FLOOR)
+    return mesh_section(section, h, order=order, grading_radius=radius, grading_floor=GRADING_FLOOR)
+
+
+def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0):
+    """The VectorProblem of elements ``order`` on ``mesh`` with the section's materials."""
+    from .vector import VectorProblem
+
     eps, mu, tand = _material_arrays(section, mesh, eps_r, mu_r, tan_delta)
     return VectorProblem(mesh, eps, mu, order=order, tan_delta=tand)
 
@@ -292,7 +296,17 @@ def _empty_guide(problem, count):
     return sorted(out, key=lambda m: m[1])
 
 
-def _parents(section, problem, loaded_modes, eps_r, mu_r):
+def _bare_modes(section, count, eps_r, mu_r):
+    """The scalar solver's labelled modes of the section without its regions (labels only: kc
+    is matched to 1e-3, so accuracy 1e-4 is plenty)."""
+    from dataclasses import replace as _replace
+
+    from .solver import solve as _solve_scalar
+
+    return _solve_scalar(_replace(section, materials=()), modes=count, eps_r=eps_r, mu_r=mu_r, accuracy=1e-4)
+
+
+def _parents(section, problem, loaded_modes, eps_r, mu_r, ref=None):
     """For each loaded VectorMode (or VectorCutoff): (parent label or None, share).  The empty guide (the section
     without its regions) is solved on the same mesh (:func:`_empty_guide`); its modes are pure
     TE / TM / TEM and are named by matching their kc to the scalar solver's labelled modes of the
@@ -303,18 +317,16 @@ def _parents(section, problem, loaded_modes, eps_r, mu_r):
     the TEM modes of several inner conductors) is one parent, its share the projection on the
     group's span.  At a cutoff the comparison is of like with like: the transverse E of a TE-type
     cutoff with the empty guide's TE and TEM modes, the E_z of a TM-type cutoff with its TM modes
-    (an empty-guide TM mode has no transverse E at cutoff, a TE mode no E_z)."""
-    from dataclasses import replace as _replace
-
-    from .solver import solve as _solve_scalar
-
+    (an empty-guide TM mode has no transverse E at cutoff, a TE mode no E_z).  ``ref``: the
+    bare section's scalar modes (:func:`_bare_modes`) when the caller has them."""
     n = len(loaded_modes)
     if n == 0:
         return []
     count = n + 8
     empty = _empty_guide(problem, count)
     # labels only: kc is matched to 1e-3, so 1e-4 is plenty
-    ref = _solve_scalar(_replace(section, materials=()), modes=count, eps_r=eps_r, mu_r=mu_r, accuracy=1e-4)
+    if ref is None or len(ref) < count:
+        ref = _bare_modes(section, count, eps_r, mu_r)
     kmax2 = max([r.kc ** 2 for r in ref] + [m[1] for m in empty])
     names = []
     for fam, kc2, _, _ in empty:
@@ -388,7 +400,8 @@ def _partner(vm, candidates):
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5, tan_delta=0.0, parents=True, _return_problem=False):
+                 evanescent=False, max_iterations=5, tan_delta=0.0, parents=True, _return_problem=False,
+                 _bare=None):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions.
 
     ``eps_r``, ``mu_r``, ``tan_delta``: the background fill (the regions carry their own);
@@ -407,12 +420,15 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
         k_max = math.sqrt(2 * math.pi * (modes + 1) / section.area * 1.15) * math.sqrt(eps_max * mu_max)
     h = min(L / 4, 1.5 / k_max)
 
-    def run(prob):
+    def run(size):
+        """(values, mode objects, unknowns, problem, mesh) on the mesh of element size ``size``."""
+        mesh = _mesh(section, size, p, k_max)
+        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta)
         if frequency is not None:
             got = prob.solve(frequency, modes=modes, evanescent=True)
-            return np.array([m.beta2 for m in got]), got, prob.n_dofs, prob
+            return np.array([m.beta2 for m in got]), got, prob.n_dofs, prob, mesh
         got = prob.cutoffs(modes=modes)
-        return np.array([c.k0 ** 2 for c in got]), got, prob.n_dofs, prob
+        return np.array([c.k0 ** 2 for c in got]), got, prob.n_dofs, prob, mesh
 
     def estimate(runs):
         """Error of the finest run's values: for each consecutive pair of the last three runs the
@@ -430,7 +446,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             worst = np.maximum(worst, np.abs(c[0][:n] - f[0][:n]) / s_rate / carry)
         return worst * SAFETY
 
-    runs = [run(_problem(section, k * h, eps_r, mu_r, p, tan_delta, k_max)) for k in (1.35 ** 2, 1.35, 1.0)]
+    runs = [run(k * h) for k in (1.35 ** 2, 1.35, 1.0)]
     for _ in range(max_iterations):
         fine = runs[-1]
         err = estimate(runs)
@@ -446,7 +462,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
                           f"with {fine[2]} unknowns", RuntimeWarning, stacklevel=3)
             break
         h *= min(0.75, max(0.4, (0.3 * accuracy / worst) ** (1.0 / rate))) if worst > 0 else 0.75
-        runs = runs[-2:] + [run(_problem(section, h, eps_r, mu_r, p, tan_delta, k_max))]
+        runs = runs[-2:] + [run(h)]
     else:
         warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached after {max_iterations} "
                       f"refinements; estimated {worst:.1e}", RuntimeWarning, stacklevel=3)
@@ -457,14 +473,14 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     out = []
     counts = {}
     keep = [i for i in range(n) if frequency is None or evanescent or objs[i].beta2 > 0]
-    def lower_modes(h_final=h):
-        """The modes with elements of order p - 1 on the final mesh (the same gmsh call gives
-        the same mesh: meshing is deterministic), for the error of field-based quantities."""
-        prob = _problem(section, h_final, eps_r, mu_r, p - 1, tan_delta, k_max, mesh_order=p)
+    def lower_modes(mesh=fine[4]):
+        """The modes with elements of order p - 1 on the final mesh, for the error of field-based
+        quantities."""
+        prob = _problem(section, mesh, eps_r, mu_r, p - 1, tan_delta)
         return prob.solve(frequency, modes=len(objs) + 2, evanescent=False)
 
     lower = functools.lru_cache(maxsize=1)(lower_modes) if frequency is not None and p > 1 else None
-    named = dict(zip(keep, _parents(section, fine[3], [objs[i] for i in keep], eps_r, mu_r))) if parents else {}
+    named = dict(zip(keep, _parents(section, fine[3], [objs[i] for i in keep], eps_r, mu_r, _bare))) if parents else {}
     for i in keep:
         o = objs[i]
         if frequency is not None:
@@ -487,7 +503,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
 
 
 def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-               tan_delta=0.0, labels=True):
+               tan_delta=0.0, labels=True, _bare=None):
     """beta(f) of the ``modes`` modes of largest beta at the first frequency, tracked along
     ``frequencies`` (Hz) by field overlap, so crossing curves keep their identities
     (:meth:`femodes.vector.VectorProblem.dispersion`).
@@ -517,7 +533,7 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     if not labels:
         return disp
     first = disp.modes[0]
-    named = _parents(section, problem, list(first), eps_r, mu_r)
+    named = _parents(section, problem, list(first), eps_r, mu_r, _bare)
     names = tuple(f"{m.family} from {par}" if par else "" for m, (par, _) in zip(first, named))
     return replace(disp, labels=names)
 
@@ -568,14 +584,15 @@ def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_
     ``conductivity`` (S/m), ``roughness`` (m) and ``conductor`` (its description) are the wall
     metal for the wall loss of the modes at ``frequency``."""
     p = ORDER if order is None else int(order)
+    bare = _bare_modes(section, modes + 8, eps_r, mu_r)  # the labels of every part, solved once
     cuts, prob = solve_loaded(section, modes, None, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
-                              _return_problem=True)
+                              _return_problem=True, _bare=bare)
     out = LoadedStudy(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), p, cuts,
                       prob.n_dofs, conductor=conductor or f"{float(conductivity):.4g} S/m",
                       conductivity=float(conductivity), roughness=float(roughness))
     if frequency is not None:
         ms, prob_f = solve_loaded(section, modes, frequency, eps_r, mu_r, accuracy, order=p,
-                                  tan_delta=tan_delta, _return_problem=True)
+                                  tan_delta=tan_delta, _return_problem=True, _bare=bare)
         out = replace(out, frequency=float(frequency), modes=ms, n_dofs_at_f=prob_f.n_dofs,
                       more_propagate=len(ms) >= modes)
     if band is not None:
@@ -583,10 +600,7 @@ def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_
         # that propagate somewhere in it), at least one
         fs = np.linspace(float(band[0]), float(band[1]), int(points))
         n_band = max(1, sum(1 for c in cuts if c.fc < fs[-1]))
-        from .solver import solve as _solve_scalar
-
-        bare = _solve_scalar(replace(section, materials=()), modes=n_band, eps_r=eps_r, mu_r=mu_r)
-        empty = tuple((m.label, float(m.kc)) for m in bare if m.fc < fs[-1])
+        empty = tuple((m.label, float(m.kc)) for m in bare[:n_band] if m.fc < fs[-1])
         out = replace(out, dispersion=dispersion(section, fs, n_band, eps_r, mu_r, accuracy, order=p,
-                                                 tan_delta=tan_delta), empty_modes=empty)
+                                                 tan_delta=tan_delta, _bare=bare), empty_modes=empty)
     return out
