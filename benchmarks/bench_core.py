@@ -32,9 +32,9 @@ import numpy as np
 
 import femodes as fm
 from femodes import reference as ref
-from femodes.discretise import discretise
-from femodes.eigen import lowest_eigenpairs, restrict, single_thread
-from femodes.mesh import mesh_section
+from femodes.geometry.mesh import mesh_section
+from femodes.solvers.discretise import discretise
+from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
 
 L_VERTS = [(-1, -1), (0, -1), (0, 0), (1, 0), (1, 1), (-1, 1)]
 L_TM1 = 9.6397238440219

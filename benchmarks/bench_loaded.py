@@ -9,9 +9,9 @@ femodes.reference.slab_on_wall_modes with no finite-element code.
 Prints time and error of
   1. beta of the first 4 modes (largest beta) at 13 GHz, worst relative error of beta, for
        a. femodes' public path, ``femodes.solve(section, modes=4, frequency=13e9, accuracy=...)``
-          (accuracy is asked on beta^2 relative to k0^2 eps_max, see femodes.loaded; the row for
+          (accuracy is asked on beta^2 relative to k0^2 eps_max, see femodes.solvers.loaded; the row for
           the target converts 1e-7 relative on beta into that measure with the smallest beta^2),
-       b. the direct core, femodes.vector.VectorProblem at order 3 on a chosen mesh (no error
+       b. the direct core, femodes.solvers.vector.VectorProblem at order 3 on a chosen mesh (no error
           control): meshing, then assembly + solve,
        c. a plain baseline: uniform mesh, first-order edge and nodal elements, the same eigensolver,
           no error control, refined h -> h / sqrt 2 until one solve would exceed the budget;
@@ -30,7 +30,7 @@ Prints time and error of
      A curve that leaves its reference curve is listed.
 
 Speed targets are ratios measured in the same process (shared machines are noisy); nothing here
-is a timed test.  BLAS is held to one thread for every side (femodes.eigen.single_thread).
+is a timed test.  BLAS is held to one thread for every side (femodes.solvers.eigen.single_thread).
 
     python benchmarks/bench_loaded.py                 # about a minute
     python benchmarks/bench_loaded.py --budget 20     # let the baseline refine further
@@ -48,11 +48,11 @@ import numpy as np
 
 import femodes as fm
 from femodes import reference as ref
-from femodes.eigen import single_thread
+from femodes.api import _loaded_modes
 from femodes.errors import FemodesError
-from femodes.loaded import solve_loaded
-from femodes.mesh import mesh_section
-from femodes.vector import VectorProblem, layered_rectangle_mesh
+from femodes.geometry.mesh import mesh_section
+from femodes.solvers.eigen import single_thread
+from femodes.solvers.vector import VectorProblem, layered_rectangle_mesh
 
 C0 = 299792458.0
 A, B = 22.86e-3, 10.16e-3   # WR-90 inner size (EIA)
@@ -71,7 +71,7 @@ def section():
 
 
 def k2max(f):
-    """k0^2 eps_max: the scale beta^2 errors are measured against (femodes.loaded)."""
+    """k0^2 eps_max: the scale beta^2 errors are measured against (femodes.solvers.loaded)."""
     return (2 * math.pi * f / C0) ** 2 * EPS
 
 
@@ -122,7 +122,7 @@ def femodes_solve(sec, exact, accuracy, parents=True):
     if parents:
         ms, t, notes = timed(fm.solve, sec, modes=N_MODES, frequency=F1, accuracy=accuracy)
     else:
-        ms, t, notes = timed(solve_loaded, sec, N_MODES, F1, accuracy=accuracy, parents=False)
+        ms, t, notes = timed(lambda *a, **k: _loaded_modes(*a, **k)[0], sec, N_MODES, F1, accuracy=accuracy, parents=False)
     err = beta_error([m.beta() for m in ms], exact)
     est = max(m.beta_error / abs(m.beta()) for m in ms)
     return t, err, est, ms[0].vector.problem.n_dofs, ms, notes
@@ -224,7 +224,7 @@ def part1(sec, budget):
     print(f"  {'':40s} target '4 betas to 1e-7 relative within 1 s': {verdict(t, 1.0, err, 1e-7)}")
     t2, err2, _, N2, _, notes = femodes_solve(sec, exact, acc_target, parents=False)
     row("  the same without parent labels", t2, err2,
-        f"{N2} unknowns (solve_loaded(..., parents=False): labelling took {t - t2:.2f} s)")
+        f"{N2} unknowns (_loaded_modes(..., parents=False): labelling took {t - t2:.2f} s)")
     note(notes)
     print("   labels given: " + ", ".join(f"{lab} = '{m.label}'" for lab, m in zip(labels, best_modes)))
 

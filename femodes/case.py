@@ -126,8 +126,11 @@ import os
 from dataclasses import dataclass, field, replace
 from typing import Callable
 
-from . import section as _sec
-from .errors import FemodesError
+from femodes.api import solve, study
+from femodes.errors import FemodesError
+from femodes.geometry import section as _sec
+from femodes.geometry.mesh import read_mesh
+from femodes.quantities import METALS, conductivity_of
 
 try:  # Python >= 3.11
     import tomllib as _toml
@@ -469,7 +472,6 @@ def run_case(case: Case):
     [[region]] tables :func:`femodes.loaded.study` -> LoadedStudy (cutoffs, the modes at the
     [analysis] frequency, the dispersion over its band)."""
     if case.loaded:
-        from .loaded import study
 
         an = case.analysis
         kw = dict(case.solve)
@@ -477,7 +479,6 @@ def run_case(case: Case):
             kw.update(frequency=an.table_frequency, band=an.band, points=an.points,
                       conductivity=an.conductivity, roughness=an.roughness, conductor=an.conductor_text)
         return study(case.section, tan_delta=case.tan_delta, **kw)
-    from .solver import solve
 
     return solve(case.section, **case.solve)
 
@@ -669,7 +670,6 @@ def _parse_conductor(text):
 
 def _conductor_value(where, value):
     """(name or None, conductivity in S/m) from a metal name or a number in S/m."""
-    from .quantities import METALS, conductivity_of
 
     if isinstance(value, str):
         try:
@@ -705,7 +705,6 @@ def _build_guide(guide, base_dir):
     scale = UNITS[units]
 
     if spec.build is None:  # mesh file
-        from .mesh import read_mesh
 
         rel = guide["file"]
         if not isinstance(rel, str) or not rel:

@@ -18,7 +18,24 @@ import os
 import sys
 import warnings
 
-from .errors import FemodesError
+from femodes.case import FORMATS, load_case, run_case, shapes_help
+from femodes.constants import __version__
+from femodes.errors import FemodesError
+from femodes.report import (
+    analyse,
+    analysis_table,
+    check_figures,
+    loaded_document,
+    loaded_table,
+    modes_document,
+    modes_table,
+    write_csv,
+    write_fields,
+    write_figures,
+    write_loaded_csv,
+    write_loaded_fields,
+    write_loaded_figures,
+)
 
 __all__ = ["main"]
 
@@ -37,8 +54,6 @@ class _Parser(argparse.ArgumentParser):
 
 
 def _parser():
-    from . import __version__
-    from .case import FORMATS
 
     p = _Parser(prog="femodes", description="Cutoffs and mode labels of hollow metal waveguides "
                 "(finite elements), from a TOML case file.",
@@ -92,7 +107,6 @@ def main(argv=None) -> int:
         if args.command == "solve":
             return _solve(args)
         if args.command == "shapes":
-            from .case import shapes_help
 
             print(shapes_help())
             return 0
@@ -110,9 +124,6 @@ def _fail(message):
 
 
 def _solve(args):
-    from .case import load_case, run_case
-    from .export import (analyse, analysis_table, check_figures, modes_document, modes_table, write_csv,
-                         write_fields, write_figures)
 
     case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
                                              fmt=args.format, no_figures=args.no_figures, frequency=args.frequency,
@@ -155,8 +166,6 @@ def _solve(args):
 
 def _report_loaded(case, study, args):
     """Print / write the results of a guide with material regions (a LoadedStudy)."""
-    from .export import (loaded_document, loaded_table, write_loaded_csv, write_loaded_fields,
-                         write_loaded_figures)
 
     csv_path = write_loaded_csv(study, args.csv) if args.csv else None
     fields_path = write_loaded_fields(study, args.fields) if args.fields else None

@@ -253,7 +253,7 @@ def test_bad_values_say_what_and_what_is_valid(tmp_path, text, words):
 
 
 def test_geometry_errors_pass_through(tmp_path):
-    # gap 12 mm in a 10 mm high guide: the shape function's own check (femodes.section.ridged)
+    # gap 12 mm in a 10 mm high guide: the shape function's own check (femodes.geometry.section.ridged)
     msg = error_of(tmp_path, '[guide]\nshape = "double_ridge"\nwidth = 22\nheight = 10\nridge_width = 5\ngap = 12\n')
     assert "gap (12 mm) must be smaller than the guide height (10 mm)" in msg
     msg = error_of(tmp_path, '[guide]\nshape = "circle"\nradius = -5\n')

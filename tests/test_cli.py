@@ -223,7 +223,7 @@ def test_error_in_a_real_process_has_no_traceback(tmp_path):
                           cwd=REPO, env=dict(os.environ, PYTHONPATH=str(REPO)), timeout=120)
     assert proc.returncode == 2
     assert proc.stderr.startswith("femodes: error: ") and len(proc.stderr.splitlines()) == 1
-    # the shape function's own message, passed through (femodes.section.ridged)
+    # the shape function's own message, passed through (femodes.geometry.section.ridged)
     assert "gap (12 mm) must be smaller than the guide height (10 mm)" in proc.stderr
     assert "Traceback" not in proc.stderr
 

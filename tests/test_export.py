@@ -23,7 +23,7 @@ import femodes as fm
 from femodes import FemodesError
 from femodes import quantities as Q
 from femodes.case import AnalysisSettings
-from femodes.export import analyse, analysis_document, analysis_table, modes_document, power_text
+from femodes.report import analyse, analysis_document, analysis_table, modes_document, power_text
 
 C0 = 299792458.0
 ETA0 = math.sqrt(fm.MU0 / fm.EPS0)
@@ -226,7 +226,7 @@ def test_field_file_round_trip(tmp_path):
     import meshio
 
     ms = fm.solve(fm.rectangle(A, B), modes=2, accuracy=1e-5)
-    path = fm.export.write_fields(ms, tmp_path / "wr90.vtu")
+    path = fm.report.write_fields(ms, tmp_path / "wr90.vtu")
     back = meshio.read(path)
     psi = back.point_data["01_TE10_psi"]
     absE = back.point_data["01_TE10_absE"]
@@ -243,4 +243,4 @@ def test_field_file_round_trip(tmp_path):
 def test_field_file_bad_format(tmp_path):
     ms = fm.solve(fm.rectangle(A, B), modes=1, accuracy=1e-4)
     with pytest.raises(FemodesError, match="field file"):
-        fm.export.write_fields(ms, tmp_path / "wr90.nosuchformat")
+        fm.report.write_fields(ms, tmp_path / "wr90.nosuchformat")

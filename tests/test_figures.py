@@ -20,7 +20,7 @@ import pytest
 
 import femodes
 from femodes import FemodesError
-from femodes import figures as F
+from femodes.report import figures as F
 
 C0 = 299792458.0
 A_WR90, B_WR90 = 22.86e-3, 10.16e-3

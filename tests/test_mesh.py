@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 import femodes as fm
-from femodes.mesh import mesh_section
+from femodes.geometry.mesh import mesh_section
 
 
 def _sizes(p):

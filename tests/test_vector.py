@@ -17,7 +17,7 @@ import pytest
 import femodes as fm
 from femodes import FemodesError
 from femodes import reference as ref
-from femodes.vector import FAMILY_THRESHOLD, VectorProblem, layered_rectangle_mesh
+from femodes.solvers.vector import FAMILY_THRESHOLD, VectorProblem, layered_rectangle_mesh
 
 C0 = 299792458.0  # m/s, exact (SI definition)
 A, B = 22.86e-3, 10.16e-3  # WR-90 inner dimensions (EIA WR-90)

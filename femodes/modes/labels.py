@@ -21,7 +21,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from .modes import Mode, ModeField, interpolation_matrices, reference_points_matrix
+from femodes.modes.model import Mode
+from femodes.solvers.fields import ModeField, interpolation_matrices, reference_points_matrix
 
 _CENTROID = np.array([[1 / 3], [1 / 3]])
 _MAX_SAMPLES = 3000

@@ -68,7 +68,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import FemodesError
+from femodes.constants import MU0
+from femodes.errors import FemodesError, check_positive
+from femodes.geometry.locate import locate_straight
+from femodes.geometry.mesh import Mesh, _mesh_from_connectivity, gmsh_session
+from femodes.solvers.eigen import lowest_eigenpairs, single_thread
 
 __all__ = ["VectorProblem", "VectorMode", "VectorCutoff", "Dispersion", "layered_rectangle_mesh",
            "VECTOR_ORDERS", "FAMILY_THRESHOLD"]
@@ -290,7 +294,6 @@ def _skfem_mesh(mesh, order):
     """A scikit-fem triangle mesh with sorted vertex order (see DEVELOPERS.md)."""
     from skfem import MeshTri1
 
-    from .mesh import Mesh
 
     if isinstance(mesh, Mesh):
         return mesh.to_skfem(order=max(2, order)) if mesh.is_curved else mesh.to_skfem()
@@ -446,7 +449,6 @@ class VectorProblem:
         complex modes left out (fewer columns then)."""
         from scipy.sparse.linalg import LinearOperator, eigs
 
-        from .eigen import single_thread
 
         nt = self.interior_t.size
         nev = min(nev, nt - 2)
@@ -544,7 +546,6 @@ class VectorProblem:
         curl E = z curl_t E_t - z x (grad E_z + j beta E_t), -z x (g_x, g_y) = (g_y, -g_x); from
         E_t, curl E_t and grad E_z of ``cells`` (default all), shaped (2, ne, q) / (ne, q) or, one
         point per cell, (2, n) / (n,)."""
-        from .modes import MU0
 
         mu = self.mu_r if cells is None else self.mu_r[cells]
         mu = mu.reshape(mu.shape + (1,) * (np.ndim(ec) - 1)) * MU0
@@ -704,7 +705,6 @@ class VectorProblem:
         import scipy.sparse as sp
         from scipy.sparse.linalg import LinearOperator, eigsh, splu
 
-        from .eigen import lowest_eigenpairs, single_thread
 
         n = _count("modes", modes)
         tt, tz, zz = self.mats["tt"], self.mats["tz"], self.mats["zz"]
@@ -1023,7 +1023,6 @@ class VectorProblem:
 def _locate(mesh, pts):
     """Cell (-1 outside) and reference coordinates of points (2, n) on straight triangles
     (curved meshes: by their straight-sided vertices, good away from curved walls)."""
-    from .modes import locate_straight
 
     cells, ref, best = locate_straight(mesh.p, mesh.t, pts, 12)
     cells[best < -1e-9] = -1
@@ -1086,8 +1085,6 @@ def layered_rectangle_mesh(width, height, interfaces_y=(), interfaces_x=(), h=No
     layers stacked in y it is simply the layer index from the bottom.  ``h``: maximum element size
     (m), default height / 8.
     """
-    from .errors import check_positive
-    from .mesh import _mesh_from_connectivity, gmsh_session
 
     W = check_positive("width", width)
     H = check_positive("height", height)

@@ -19,18 +19,19 @@ next coarse one.  The estimate is checked against closed forms in the tests.
 from __future__ import annotations
 
 import math
+import os
 import warnings
+from dataclasses import dataclass
 
 import numpy as np
 
-from .discretise import ELEMENT_ORDERS, discretise
-from .eigen import lowest_eigenpairs, restrict, single_thread
-from .errors import FemodesError, positive_number
-from .mesh import Mesh, mesh_section
-from .modes import ModeSet
-from .section import Section
+from femodes.errors import FemodesError
+from femodes.geometry.mesh import mesh_section
+from femodes.geometry.section import Section
+from femodes.solvers.discretise import discretise
+from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
 
-__all__ = ["solve", "DEFAULT_ORDER"]
+__all__ = ["solve_scalar", "solve_scalar_mesh", "ScalarSolution", "DEFAULT_ORDER", "MAX_DOFS"]
 
 DEFAULT_ORDER = 4
 # reported error = SAFETY x Richardson estimate.  Smallest (raw estimate / true error) seen over the
@@ -51,55 +52,37 @@ _J01 = 2.404825557695773
 MAX_DOFS = 3_000_000
 
 
-def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, order=None,
-          mesh_size=None, max_iterations=6, frequency=None, evanescent=False):
-    """The ``modes`` lowest-cutoff modes of a homogeneously filled guide.
+@dataclass(frozen=True, eq=False)
+class ScalarSolution:
+    """What the scalar accuracy loop found, before the modes are named (femodes.modes.labels).
 
-    Parameters
-    ----------
-    section  : a Section (from the shape functions) or a Mesh (from :func:`femodes.read_mesh`)
-    modes    : how many mode objects to return (each member of a degenerate pair counts; TEM count)
-    eps_r, mu_r : relative permittivity and permeability of the filling (real, > 0)
-    accuracy : relative error on each kc that the solver aims for and estimates (default 1e-6)
-    family   : None for all, or 'TE', 'TM' to return one family only
-    order    : Lagrange element order 1..4 (default 4: most accuracy per second here)
-    mesh_size: fix the fine element size h (m) instead of choosing it from the accuracy
-    frequency, evanescent : for sections with material regions only (see femodes.loaded): the
-               modes of largest beta at ``frequency`` (evanescent ones too if asked); without a
-               frequency such a section gives its lowest cutoffs
-
-    Returns a :class:`ModeSet` (a tuple of :class:`Mode`, ascending in cutoff).
+    fine    : the final discrete solve (dict: mesh, disc, n_dofs, h, and per family (lam, X, res))
+    merged  : wanted rows (kc^2, error of kc^2, family, column in fine[family], residual), ascending
+    tem     : [(phi, int |grad phi|^2 dA)] electrostatic potentials, one per inner conductor
+    safety  : the factor the raw Richardson estimates carry (SAFETY)
+    mesh_size : the fine element size h (m), None on a fixed mesh
     """
-    n_modes = _check_count(modes)
-    eps_r = positive_number("eps_r", eps_r)
-    mu_r = positive_number("mu_r", mu_r)
-    try:
-        accuracy = float(accuracy)
-    except (TypeError, ValueError):
-        raise FemodesError(f"accuracy must be a number, got {accuracy!r}") from None
-    if not (1e-11 <= accuracy < 0.1):
-        raise FemodesError(f"accuracy must lie between 1e-11 (the double-precision floor of this solver) and "
-                           f"0.1 (relative error on kc), got {accuracy!r}")
-    if family is not None and family not in ("TE", "TM"):
-        raise FemodesError(f"family must be None, 'TE' or 'TM', got {family!r}")
-    p = DEFAULT_ORDER if order is None else int(order) if order in ELEMENT_ORDERS else None
-    if p is None:
-        raise FemodesError(f"order must be one of {ELEMENT_ORDERS}, got {order!r}")
 
-    if isinstance(section, Mesh):
-        return _solve_fixed_mesh(section, n_modes, eps_r, mu_r, accuracy, family, p)
-    if not isinstance(section, Section):
-        raise FemodesError(f"solve() needs a section (e.g. femodes.rectangle(...)) or a mesh, got {type(section).__name__}")
-    if section.materials:
-        from .loaded import solve_loaded
+    fine: dict
+    merged: list
+    tem: list
+    safety: float
+    order: int
+    mesh_size: float | None
 
-        return solve_loaded(section, n_modes, frequency, eps_r, mu_r, accuracy, order=order,
-                            evanescent=evanescent)
-    if frequency is not None:
-        raise FemodesError("frequency= is for sections with material regions (hybrid modes); a guide "
-                           "filled with one material is solved for its cutoffs: use mode.beta(f) and the "
-                           "other methods of each mode at any frequency")
+    @property
+    def mesh(self):
+        return self.fine["mesh"]
 
+    @property
+    def n_dofs(self):
+        return self.fine["n_dofs"]
+
+
+def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iterations=6):
+    """The accuracy loop of a homogeneously filled Section: TE (Neumann) and TM (Dirichlet)
+    eigenvalues kc^2 with Richardson error estimates, and the TEM potentials; see the module
+    docstring.  Arguments are checked by the caller (femodes.api.solve)."""
     fams = ("TE", "TM") if family is None else (family,)
     n_tem = len(section.holes) if family is None else 0
     want = max(0, n_modes - n_tem)
@@ -172,15 +155,10 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
             warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached; estimated {worst:.1e} "
                           f"with {fine['n_dofs']} unknowns", RuntimeWarning, stacklevel=2)
         tem = _tem_modes(fine, section) if n_tem else []
-    from .labels import build_modes
-
-    mode_list = build_modes(section, fine, merged, tem, eps_r, mu_r, _safety(fine), n_modes)
-    return ModeSet(mode_list, section=section, mesh=fine["mesh"], eps_r=eps_r, mu_r=mu_r,
-                   accuracy=accuracy, n_dofs=fine["n_dofs"], order=p, mesh_size=h, family=family)
+    return ScalarSolution(fine, merged, tem, _safety(fine), p, h)
 
 
 def _debug(msg):
-    import os
     if os.environ.get("FEMODES_DEBUG"):
         print("femodes:", msg)
 
@@ -378,10 +356,8 @@ def _tem_modes(fine, section):
     return out
 
 
-def _solve_fixed_mesh(mesh, n_modes, eps_r, mu_r, accuracy, family, p):
+def solve_scalar_mesh(mesh, n_modes, family, p):
     """Solve on a given mesh; the error estimate compares order p with order p - 1 on it."""
-    from .labels import build_modes
-
     if p == 1:
         raise FemodesError("on a fixed mesh the error estimate needs order >= 2")
     fams = ("TE", "TM") if family is None else (family,)
@@ -396,9 +372,7 @@ def _solve_fixed_mesh(mesh, n_modes, eps_r, mu_r, accuracy, family, p):
         want = max(0, n_modes - n_tem)
         merged = _merge(fine, coarse, p, want, same_mesh=True)
         tem = _tem_modes(fine, None) if n_tem else []
-    mode_list = build_modes(None, fine, merged, tem, eps_r, mu_r, 1.0, n_modes)
-    return ModeSet(mode_list, section=None, mesh=mesh, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy,
-                   n_dofs=fine["n_dofs"], order=p, mesh_size=None, family=family)
+    return ScalarSolution(fine, merged, tem, 1.0, p, None)
 
 
 def _areas(mesh):

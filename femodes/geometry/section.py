@@ -17,7 +17,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .errors import FemodesError, check_nonnegative, check_positive, nonnegative_number, positive_number
+from femodes.errors import FemodesError, check_nonnegative, check_positive, nonnegative_number, positive_number
 
 __all__ = [
     "Line", "Arc", "Loop", "Corner", "Section", "Material",
@@ -782,14 +782,19 @@ def ridged(width, height, ridge_width, gap, ridges=2, ridge_corner_radius=0.0, b
     ya, yb = -b / 2, b / 2
     # counter-clockwise, starting at the bottom-left outer corner
     v, r = [], []
-    v += [(-a / 2, ya)]; r += [0]
+    v += [(-a / 2, ya)]
+    r += [0]
     y_bot = ya + depth
-    v += [(-s / 2, ya), (-s / 2, y_bot), (s / 2, y_bot), (s / 2, ya)]; r += [rb, rt, rt, rb]
-    v += [(a / 2, ya), (a / 2, yb)]; r += [0, 0]
+    v += [(-s / 2, ya), (-s / 2, y_bot), (s / 2, y_bot), (s / 2, ya)]
+    r += [rb, rt, rt, rb]
+    v += [(a / 2, ya), (a / 2, yb)]
+    r += [0, 0]
     if ridges == 2:
         y_top = yb - depth
-        v += [(s / 2, yb), (s / 2, y_top), (-s / 2, y_top), (-s / 2, yb)]; r += [rb, rt, rt, rb]
-    v += [(-a / 2, yb)]; r += [0]
+        v += [(s / 2, yb), (s / 2, y_top), (-s / 2, y_top), (-s / 2, yb)]
+        r += [rb, rt, rt, rb]
+    v += [(-a / 2, yb)]
+    r += [0]
     loop = _filleted_loop(v, r) if (rt or rb) else _polygon_loop(v)
     params = {"width": a, "height": b, "ridge_width": s, "gap": g}
     if rt:

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import FemodesError
+from femodes.errors import FemodesError
 
 __all__ = ["Discretisation", "discretise", "ELEMENT_ORDERS"]
 

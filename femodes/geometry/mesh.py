@@ -24,8 +24,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .errors import FemodesError
-from .section import Arc, Line, Section
+from femodes.errors import FemodesError
+from femodes.geometry.section import Arc, Corner, Line, Section, _point_edge_distances
 
 __all__ = ["Mesh", "mesh_section", "read_mesh", "write_mesh"]
 
@@ -238,7 +238,6 @@ def singular_corners(section):
     material regions.  A region corner is graded like a 270-degree conducting corner (exponent
     2/3), a conservative choice for any contrast; a right-angled region corner standing on a
     straight wall is regular (its image in the wall is a straight interface) and is left out."""
-    from .section import Corner, _point_edge_distances
 
     L0 = section.size
     walls = np.hstack([l.polyline(64, line_pieces=1) for l in section.loops])

@@ -1,0 +1,255 @@
+"""The front door: ``solve``, ``dispersion`` and ``study`` choose the solver for a guide and name
+its modes.
+
+A homogeneously filled section (or a mesh file) goes to the scalar solver
+(:mod:`femodes.solvers.scalar`), whose eigenpairs :mod:`femodes.modes.labels` turns into a
+:class:`~femodes.modes.ModeSet`; a section with material regions goes to the full-vector solver
+(:mod:`femodes.solvers.loaded`), whose modes :mod:`femodes.modes.parents` names after the
+empty-guide mode each grows from.  Arguments are checked here, once, with messages that say what
+would be valid.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from femodes.errors import FemodesError, positive_number
+from femodes.geometry.mesh import Mesh
+from femodes.geometry.section import Section
+from femodes.modes.labels import build_modes
+from femodes.modes.loaded import LoadedCutoff, LoadedMode
+from femodes.modes.model import ModeSet
+from femodes.modes.parents import _parents
+from femodes.solvers.discretise import ELEMENT_ORDERS
+from femodes.solvers.loaded import ORDER, solve_loaded
+from femodes.solvers.scalar import DEFAULT_ORDER, solve_scalar, solve_scalar_mesh
+
+__all__ = ["solve", "dispersion", "study", "LoadedStudy", "DEFAULT_ORDER"]
+
+MAX_MODES = 500
+
+
+def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, order=None,
+          mesh_size=None, max_iterations=6, frequency=None, evanescent=False):
+    """The ``modes`` lowest-cutoff modes of a guide.
+
+    Parameters
+    ----------
+    section  : a Section (from the shape functions) or a Mesh (from :func:`femodes.read_mesh`)
+    modes    : how many mode objects to return (each member of a degenerate pair counts; TEM count)
+    eps_r, mu_r : relative permittivity and permeability of the filling (real, > 0)
+    accuracy : relative error on each kc that the solver aims for and estimates (default 1e-6)
+    family   : None for all, or 'TE', 'TM' to return one family only
+    order    : element order (default 4 for homogeneous guides, Lagrange 1..4; 3 for loaded
+               guides, edge elements 1..3)
+    mesh_size: fix the fine element size h (m) instead of choosing it from the accuracy
+    frequency, evanescent : for sections with material regions only: the modes of largest beta
+               at ``frequency`` (evanescent ones too if asked); without a frequency such a
+               section gives its lowest cutoffs
+
+    Returns a :class:`ModeSet` (a tuple of :class:`Mode`, ascending in cutoff) for a
+    homogeneous guide; for a loaded one a tuple of :class:`LoadedMode` (at ``frequency``) or
+    :class:`LoadedCutoff`.
+    """
+    n_modes = _check_count(modes)
+    eps_r = positive_number("eps_r", eps_r)
+    mu_r = positive_number("mu_r", mu_r)
+    try:
+        accuracy = float(accuracy)
+    except (TypeError, ValueError):
+        raise FemodesError(f"accuracy must be a number, got {accuracy!r}") from None
+    if not (1e-11 <= accuracy < 0.1):
+        raise FemodesError(f"accuracy must lie between 1e-11 (the double-precision floor of this solver) and "
+                           f"0.1 (relative error on kc), got {accuracy!r}")
+    if family is not None and family not in ("TE", "TM"):
+        raise FemodesError(f"family must be None, 'TE' or 'TM', got {family!r}")
+    p = DEFAULT_ORDER if order is None else int(order) if order in ELEMENT_ORDERS else None
+    if p is None:
+        raise FemodesError(f"order must be one of {ELEMENT_ORDERS}, got {order!r}")
+
+    if isinstance(section, Mesh):
+        sol = solve_scalar_mesh(section, n_modes, family, p)
+        return _mode_set(sol, None, n_modes, eps_r, mu_r, accuracy, family)
+    if not isinstance(section, Section):
+        raise FemodesError(f"solve() needs a section (e.g. femodes.rectangle(...)) or a mesh, got {type(section).__name__}")
+    if section.materials:
+        return _loaded_modes(section, n_modes, frequency, eps_r, mu_r, accuracy, order=order,
+                             evanescent=evanescent)[0]
+    if frequency is not None:
+        raise FemodesError("frequency= is for sections with material regions (hybrid modes); a guide "
+                           "filled with one material is solved for its cutoffs: use mode.beta(f) and the "
+                           "other methods of each mode at any frequency")
+    if mesh_size is not None:
+        mesh_size = positive_number("mesh_size", mesh_size, "m")
+    sol = solve_scalar(section, n_modes, accuracy, family, p, mesh_size, max_iterations)
+    return _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family)
+
+
+def _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family):
+    """Name the scalar solution's modes (femodes.modes.labels) and wrap them in a ModeSet."""
+    modes = build_modes(section, sol.fine, sol.merged, sol.tem, eps_r, mu_r, sol.safety, n_modes)
+    return ModeSet(modes, section=section, mesh=sol.mesh, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy,
+                   n_dofs=sol.n_dofs, order=sol.order, mesh_size=sol.mesh_size, family=family)
+
+
+def _check_count(modes):
+    if isinstance(modes, bool):
+        raise FemodesError(f"modes must be a whole number >= 1, got {modes!r}")
+    try:
+        n = int(modes)
+    except (TypeError, ValueError):
+        raise FemodesError(f"modes must be a whole number >= 1, got {modes!r}") from None
+    if n < 1 or n != modes:
+        raise FemodesError(f"modes must be a whole number >= 1, got {modes!r}")
+    if n > MAX_MODES:
+        raise FemodesError(f"modes={n} is more than this solver is meant for (at most {MAX_MODES})")
+    return n
+
+
+def _bare_modes(section, count, eps_r, mu_r):
+    """The scalar solver's labelled modes of the section without its regions (labels only: kc
+    is matched to 1e-3, so accuracy 1e-4 is plenty)."""
+    return solve(replace(section, materials=()), modes=count, eps_r=eps_r, mu_r=mu_r, accuracy=1e-4)
+
+
+def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
+                  evanescent=False, tan_delta=0.0, parents=True, bare=None):
+    """(modes, final VectorProblem) of a section with material regions: LoadedModes at
+    ``frequency`` or LoadedCutoffs without, each named after the empty-guide mode it grows from
+    when ``parents`` (an extra solve of the empty guide on the final mesh; ``bare`` the bare
+    section's labelled scalar modes when the caller has them)."""
+    sol = solve_loaded(section, modes, frequency, eps_r, mu_r, accuracy, order=order, evanescent=evanescent,
+                       tan_delta=tan_delta)
+    objs, err, vals = sol.objects, sol.errors, sol.values
+    picked = [objs[i] for i in sol.keep]
+    named = {}
+    if parents and picked:
+        if bare is None or len(bare) < len(picked) + 8:
+            bare = _bare_modes(section, len(picked) + 8, eps_r, mu_r)
+        named = dict(zip(sol.keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare)))
+    out, counts = [], {}
+    for i in sol.keep:
+        o = objs[i]
+        parent, share = named.get(i, (None, math.nan))
+        if frequency is not None:
+            fam = o.family
+            counts[fam] = counts.get(fam, 0) + 1
+            b = o.beta
+            beta_err = err[i] / (2 * abs(b)) if abs(b) > 0 else math.sqrt(err[i])
+            label = f"{fam} from {parent}" if parent else f"{fam} {counts[fam]}"
+            out.append(LoadedMode(fam, label, float(frequency), b, float(beta_err), len(out), o, parent, share,
+                                  sol.lower))
+        else:
+            fam = o.field
+            counts[fam] = counts.get(fam, 0) + 1
+            fc = o.frequency
+            label = f"{fam}-type from {parent}" if parent else f"{fam}-type {counts[fam]}"
+            out.append(LoadedCutoff(fam, label, fc, float(fc * err[i] / (2 * vals[i])), len(out), parent, share))
+    return tuple(out), sol.problem
+
+
+def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
+               tan_delta=0.0, labels=True, _bare=None):
+    """beta(f) of the ``modes`` modes of largest beta at the first frequency, tracked along
+    ``frequencies`` (Hz) by field overlap, so crossing curves keep their identities
+    (:meth:`femodes.vector.VectorProblem.dispersion`).
+
+    The mesh is the one :func:`solve_loaded` refines at the highest frequency (the hardest: the
+    shortest wavelength) to ``accuracy`` (f_min / f_max)^2 / 4, so that the error of beta^2
+    relative to k0^2 eps_max mu_max stays within ``accuracy`` down to the lowest frequency (the 4:
+    a margin for modes away from the top frequency); assembled once, the curves are computed on it.  Returns a
+    :class:`femodes.vector.Dispersion` (``frequencies``, ``beta`` (F, N), ``family``, ``overlap``).
+    """
+    if not isinstance(section, Section):
+        raise FemodesError(f"dispersion() needs a section, got {type(section).__name__}")
+    fs = np.atleast_1d(np.asarray(frequencies, dtype=float))
+    if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0):
+        raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}")
+    p = ORDER if order is None else int(order)
+    # the error of beta^2 is measured relative to k0^2 eps_max mu_max, which is smallest at the
+    # lowest frequency: ask the top-frequency solve for that much more, and a margin of 4 for
+    # the tracked modes away from the top frequency, whose errors its estimate does not see
+    # (measured on the slab-loaded WR-90, 8-16 GHz: 1.5e-6 at accuracy 1e-6 without the margin)
+    acc = float(accuracy) * (float(fs.min()) / float(fs.max())) ** 2 / 4.0
+    problem = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, acc, order=p,
+                           evanescent=True, tan_delta=tan_delta).problem
+    disp = problem.dispersion(fs, modes=modes)  # the same assembled problem, reused
+    if not labels:
+        return disp
+    first = disp.modes[0]
+    if _bare is None:
+        _bare = _bare_modes(section, len(first) + 8, eps_r, mu_r)
+    named = _parents(section, problem, list(first), eps_r, mu_r, _bare)
+    names = tuple(f"{m.family} from {par}" if par else "" for m, (par, _) in zip(first, named))
+    return replace(disp, labels=names)
+
+
+@dataclass(frozen=True, eq=False)
+class LoadedStudy:
+    """What a case file asks of a loaded guide, solved: the lowest cutoffs, the modes at one
+    frequency, and the dispersion over a band (each None / empty when not asked).
+
+    n_dofs : unknowns of the final cutoff mesh; n_dofs_at_f : of the mesh at the frequency
+    more_propagate : True when every mode asked for propagates at ``frequency`` (more may: ask
+                     for more modes to see them all)
+    empty_modes : (label, kc) of the empty guide's modes with a cutoff below the band top (for
+                  comparison curves), with a band
+    """
+
+    section: object
+    eps_r: float
+    mu_r: float
+    tan_delta: float
+    accuracy: float
+    order: int
+    cutoffs: tuple
+    n_dofs: int
+    frequency: float | None = None
+    modes: tuple = ()
+    n_dofs_at_f: int = 0
+    more_propagate: bool = False
+    dispersion: object = None
+    empty_modes: tuple = ()
+    conductor: str = "copper (5.8e+07 S/m)"
+    conductivity: float = 5.8e7
+    roughness: float = 0.0
+
+    @property
+    def single_mode_band(self):
+        """(f1, f2) Hz between the two lowest cutoffs, or None with fewer than two."""
+        if len(self.cutoffs) < 2:
+            return None
+        return (self.cutoffs[0].fc, self.cutoffs[1].fc)
+
+
+def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_delta=0.0,
+          frequency=None, band=None, points=41, conductivity=5.8e7, roughness=0.0, conductor=None):
+    """Cutoffs, modes at ``frequency`` (Hz) and dispersion over ``band`` (f1, f2 Hz, ``points``
+    frequencies) of a section with material regions: the loaded-guide part of a case file.  The
+    dispersion follows the modes whose cutoff (of the ``modes`` computed) lies below f2.
+    ``conductivity`` (S/m), ``roughness`` (m) and ``conductor`` (its description) are the wall
+    metal for the wall loss of the modes at ``frequency``."""
+    p = ORDER if order is None else int(order)
+    bare = _bare_modes(section, modes + 8, eps_r, mu_r)  # the labels of every part, solved once
+    cuts, prob = _loaded_modes(section, modes, None, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
+                               bare=bare)
+    out = LoadedStudy(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), p, cuts,
+                      prob.n_dofs, conductor=conductor or f"{float(conductivity):.4g} S/m",
+                      conductivity=float(conductivity), roughness=float(roughness))
+    if frequency is not None:
+        ms, prob_f = _loaded_modes(section, modes, frequency, eps_r, mu_r, accuracy, order=p,
+                                   tan_delta=tan_delta, bare=bare)
+        out = replace(out, frequency=float(frequency), modes=ms, n_dofs_at_f=prob_f.n_dofs,
+                      more_propagate=len(ms) >= modes)
+    if band is not None:
+        # the curves worth drawing: the modes with a cutoff below the top of the band (those
+        # that propagate somewhere in it), at least one
+        fs = np.linspace(float(band[0]), float(band[1]), int(points))
+        n_band = max(1, sum(1 for c in cuts if c.fc < fs[-1]))
+        empty = tuple((m.label, float(m.kc)) for m in bare[:n_band] if m.fc < fs[-1])
+        out = replace(out, dispersion=dispersion(section, fs, n_band, eps_r, mu_r, accuracy, order=p,
+                                                 tan_delta=tan_delta, _bare=bare), empty_modes=empty)
+    return out

@@ -1,0 +1,122 @@
+"""The modes of a guide partly loaded with dielectric: :class:`LoadedMode` (a hybrid mode at the
+frequency it was solved at, with its error and the empty-guide mode it grows from) and
+:class:`LoadedCutoff` (a cutoff, beta = 0).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from femodes.constants import C0
+from femodes.errors import FemodesError
+
+
+@dataclass(frozen=True, eq=False)
+class LoadedMode:
+    """One mode of a loaded guide at the frequency it was solved at.
+
+    family : 'TE', 'TM', 'TEM' or 'hybrid', from the longitudinal energy shares (``e_share``,
+             ``h_share``; see femodes.vector.FAMILY_THRESHOLD)
+    label  : 'hybrid from TE10' when the mode's transverse E is mostly (``parent_share`` >= 0.8)
+             that of one empty-guide mode or degenerate group ('hybrid from TE11/TM11': the
+             LSE/LSM mixtures of a rectangle's degenerate pair), or of two ('... from TE10+TE20');
+             else family and ordinal, e.g. 'hybrid 2'
+    parent : the empty-guide label(s) it grows from, or None; ``parent_share`` the share of
+             int |E_t|^2 in their transverse fields (empty guide = the section without its
+             regions, solved with the scalar solver for the labels)
+    frequency : Hz;  beta_error : estimated absolute error of beta (rad/m)
+    vector : the :class:`femodes.vector.VectorMode` with the fields
+    """
+
+    family: str
+    label: str
+    frequency: float
+    beta_value: complex | float
+    beta_error: float
+    index: int
+    vector: object = field(repr=False)
+    parent: str | None = None
+    parent_share: float = math.nan
+    lower: object = field(default=None, repr=False)  # () -> the modes at order p - 1, same mesh
+
+    def beta(self, f=None):
+        """beta (rad/m) at the solve frequency, -1j alpha if evanescent.  Asking at another
+        frequency is an error: the mode was solved at one frequency only."""
+        if f is not None and not math.isclose(float(f), self.frequency, rel_tol=1e-12):
+            raise FemodesError(f"this mode was solved at {self.frequency / 1e9:.9g} GHz, not {float(f) / 1e9:.9g} GHz; "
+                               "for beta at other frequencies use femodes.dispersion(section, frequencies, "
+                               "modes=N), or solve again at that frequency")
+        return self.beta_value
+
+    @property
+    def propagating(self):
+        return self.vector.beta2 > 0
+
+    def guide_wavelength(self, f=None):
+        """2 pi / beta (m); inf for an evanescent mode."""
+        b = self.beta(f)
+        return 2 * math.pi / b if isinstance(b, float) and b > 0 else math.inf
+
+    def phase_velocity(self, f=None):
+        """v_p / c0 = k0 / beta (inf if evanescent)."""
+        b = self.beta(f)
+        k0 = 2 * math.pi * self.frequency / C0
+        return k0 / b if isinstance(b, float) and b > 0 else math.inf
+
+    def group_velocity(self, f=None):
+        """v_g / c0 = d omega / d beta / c0, by perturbation of the pencil at this frequency
+        (femodes.vector.VectorMode.group_velocity); NaN if evanescent."""
+        self.beta(f)
+        return self.vector.group_velocity
+
+    def dielectric_attenuation(self, f=None):
+        """Attenuation by the loss tangents of the fill and the regions, Np/m (first order in
+        tan_delta; femodes.vector.VectorMode.dielectric_attenuation); NaN if evanescent."""
+        self.beta(f)
+        return self.vector.dielectric_attenuation
+
+    @property
+    def e_share(self):
+        """int eps_r |E_z|^2 / int eps_r |E|^2: how far from TE the mode is (0 for TE)."""
+        return self.vector.e_share
+
+    @property
+    def h_share(self):
+        """int mu_r |H_z|^2 / int mu_r |H|^2: how far from TM the mode is (0 for TM)."""
+        return self.vector.h_share
+
+    @property
+    def effective_permittivity(self):
+        """(beta / k0)^2: the relative permittivity of a medium in which a plane wave would have
+        this beta (below the largest eps_r mu_r of the section for any guided mode)."""
+        k0 = 2 * math.pi * self.frequency / C0
+        return self.vector.beta2 / (k0 * k0)
+
+    def fields(self, points):
+        """(E_x, E_y, E_z, H_x, H_y, H_z) at points (2, n); see VectorMode.fields."""
+        return self.vector.fields(points)
+
+
+@dataclass(frozen=True, eq=False)
+class LoadedCutoff:
+    """A cutoff (beta = 0) of a loaded guide: ``field`` 'TE' (transverse E only at cutoff) or
+    'TM' (E_z only); ``fc`` Hz, ``fc_error`` its estimated error (Hz).
+
+    label  : 'TE-type from TE10' when the field at cutoff is mostly (``parent_share`` >= 0.8) that
+             of one empty-guide mode or degenerate group at its cutoff (transverse E compared with
+             the TE modes' for a TE-type cutoff, E_z with the TM modes' for a TM-type one), else
+             'TE-type 2' (the ordinal among its type)
+    """
+
+    field: str
+    label: str
+    fc: float
+    fc_error: float
+    index: int
+    parent: str | None = None
+    parent_share: float = math.nan
+
+    @property
+    def rel_error(self):
+        return self.fc_error / self.fc if self.fc > 0 else 0.0

@@ -1,0 +1,71 @@
+"""Engineering quantities of a solved mode: propagation, bands, losses, impedance, power handling.
+
+Pure functions of a mode (:class:`femodes.modes.Mode`) or a mode set; SI units in and out (Hz,
+m, rad/m, Np/m, ohm, W, V/m).  Homogeneous fill eps = eps0 eps_r, mu = mu0 mu_r; fields vary as
+exp(j (omega t - beta z)).
+
+Normalisation (see femodes.modes).  A mode is carried by its transverse mode vectors with
+int |e_t|^2 dA = 1 and h_t = z x e_t.  A mode of amplitude V (volts) has
+
+    E_t = V e_t,   H_t = (V / Z_w) h_t,   P = |V|^2 / (2 Z_w)   (Z_w real above cutoff),
+
+with the wave impedance Z_w = omega mu / beta (TE), beta / (omega eps) (TM), eta (TEM).
+psi is the longitudinal potential with int psi^2 dA = 1:
+
+    TE:  e_t =  z x grad psi / kc,   so  h_t = -grad psi / kc
+    TM:  e_t = -grad psi / kc,       so  h_t = -z x grad psi / kc
+    TEM: e_t = -grad phi * scale,    phi = 1 V on the inner conductor, scale = 1/sqrt(int |grad phi|^2)
+
+Longitudinal fields (derived in :func:`longitudinal_factor`):
+
+    TE:  H_z = -j (kc / beta) (V / Z_w) psi          (E_z = 0)
+    TM:  E_z = -j (kc / beta)  V        psi          (H_z = 0)
+
+Losses use the power-loss (perturbation) method on the lossless mode (:mod:`.losses`);
+impedances use the usual power-voltage, power-current and voltage-current definitions
+(:mod:`.impedance`); power handling reports the peak field and the power at which it reaches a
+breakdown field, with the cautions that belong to it (:mod:`.power`); :mod:`.wave` has the wave
+quantities and the band.
+"""
+
+from femodes.constants import ETA0, NP_TO_DB
+from femodes.quantities.impedance import impedance, path_voltage, voltage_path, wall_current
+from femodes.quantities.losses import (
+                                       METALS,
+                                       Losses,
+                                       WallIntegrals,
+                                       attenuation,
+                                       conductivity_of,
+                                       conductor_attenuation,
+                                       dielectric_attenuation,
+                                       loaded_conductor_attenuation,
+                                       loaded_conductor_attenuation_error,
+                                       losses,
+                                       roughness_factor,
+                                       skin_depth,
+                                       surface_resistance,
+                                       to_db,
+                                       wall_integrals,
+)
+from femodes.quantities.power import CAUTIONS, DRY_AIR_BREAKDOWN, PowerHandling, power_handling
+from femodes.quantities.wave import (
+                                       RECOMMENDED_HIGH,
+                                       RECOMMENDED_LOW,
+                                       Band,
+                                       FieldPhasors,
+                                       WaveQuantities,
+                                       band,
+                                       field_phasors,
+                                       longitudinal_factor,
+                                       propagating,
+                                       wave_quantities,
+)
+
+__all__ = [
+    "NP_TO_DB", "ETA0", "METALS", "RECOMMENDED_LOW", "RECOMMENDED_HIGH", "DRY_AIR_BREAKDOWN", "CAUTIONS",
+    "WaveQuantities", "Band", "WallIntegrals", "Losses", "PowerHandling", "FieldPhasors",
+    "wave_quantities", "band", "propagating", "longitudinal_factor", "field_phasors",
+    "conductivity_of", "skin_depth", "surface_resistance", "roughness_factor", "wall_integrals",
+    "conductor_attenuation", "loaded_conductor_attenuation", "loaded_conductor_attenuation_error", "dielectric_attenuation", "attenuation", "losses", "to_db",
+    "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
+]

@@ -1,0 +1,230 @@
+"""Engineering quantities of a case file's [analysis] table, computed once from a solved mode set
+(:mod:`femodes.quantities`, SI units) into an :class:`Analysis`, with the power-handling cautions
+of :data:`femodes.quantities.CAUTIONS`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from femodes import quantities as Q
+from femodes.errors import FemodesError
+from femodes.quantities.losses import loaded_conductor_attenuation, loaded_conductor_attenuation_error
+
+#: units of the numbers in the "analysis" object of :func:`analysis_document`
+ANALYSIS_UNITS = {
+    "frequency": "Hz", "beta": "rad/m", "alpha": "Np/m (decay below cutoff; 0 above)", "guide_wavelength": "m",
+    "phase_velocity": "m/s", "group_velocity": "m/s", "wave_impedance": "ohm", "impedances": "ohm",
+    "attenuation_np_per_m": "Np/m", "attenuation_db_per_m": "dB/m", "conductivity": "S/m", "roughness": "m (rms)",
+    "surface_resistance": "ohm", "skin_depth": "m", "peak_field_per_sqrt_watt": "V/m per sqrt(W)",
+    "peak_location": "m", "breakdown_field": "V/m", "breakdown_power": "W", "rated_power": "W",
+    "corner_exclusion": "m",
+}
+
+
+#: a propagating mode whose loss is not small against its phase constant (alpha / beta above this)
+#: is too close to cutoff for the power-loss (perturbation) method, which assumes alpha << beta
+PERTURBATION_LIMIT = 0.01
+
+
+def reliable_attenuation(mode, f, conductivity, roughness=0.0, tan_delta=0.0):
+    """Attenuation (Np/m, array like ``f``) of ``mode`` at the frequencies ``f`` (Hz) where the
+    power-loss method holds: NaN below cutoff and where alpha / beta > :data:`PERTURBATION_LIMIT`
+    (just above cutoff, where beta -> 0 and the method is not valid)."""
+
+    fs = np.atleast_1d(np.asarray(f, dtype=float))
+    on = np.ones(fs.shape, dtype=bool) if mode.family == "TEM" else np.asarray(mode.propagates(fs))
+    a = np.full(fs.shape, np.nan)
+    if np.any(on):
+        a[on] = np.asarray(Q.attenuation(mode, fs[on], conductivity, roughness, tan_delta), dtype=float)
+        beta = np.asarray(Q.wave_quantities(mode, fs[on]).beta, dtype=float)
+        bad = np.zeros(fs.shape, dtype=bool)
+        bad[on] = a[on] > PERTURBATION_LIMIT * beta
+        a[bad] = np.nan
+    return a
+
+
+@dataclass(frozen=True)
+class ModeQuantities:
+    """The quantities of one mode at the analysis frequency (SI; see :mod:`femodes.quantities`).
+
+    waves      :class:`~femodes.quantities.WaveQuantities` (every mode)
+    losses     :class:`~femodes.quantities.Losses` (propagating modes only, else None)
+    impedances {'PV': ohm, 'PI': ohm, 'VI': ohm} for the dominant mode and TEM modes, else None
+    power      :class:`~femodes.quantities.PowerHandling` (propagating modes only, else None)
+    notes      what limits the numbers of this mode
+    """
+
+    mode: object
+    waves: object
+    losses: object = None
+    impedances: dict | None = None
+    voltage_path: tuple | None = None
+    power: object = None
+    notes: tuple = ()
+
+    @property
+    def propagates(self):
+        return bool(self.waves.propagates)
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """Attenuation over the analysis band: ``frequencies`` (Hz, array) and, per mode index that
+    propagates somewhere in the band, ``attenuation`` (Np/m; NaN below cutoff and just above it,
+    where alpha / beta > PERTURBATION_LIMIT and the power-loss method does not hold) and, for TE
+    and TEM modes with a power-handling result, ``rated_power`` (W, NaN where the attenuation is)."""
+
+    frequencies: np.ndarray
+    attenuation: dict
+    rated_power: dict
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """Everything :func:`analysis_table` and :func:`analysis_document` report (SI units)."""
+
+    settings: object
+    frequency: float
+    modes: tuple
+    band: object
+    sweep: Sweep | None
+    family: str | None
+    top_cutoff: float
+    cautions: tuple
+
+    @property
+    def propagating(self):
+        return tuple(q for q in self.modes if q.propagates)
+
+    @property
+    def evanescent(self):
+        return tuple(q for q in self.modes if not q.propagates)
+
+    @property
+    def warnings(self):
+        """The power-handling warnings of every mode, each once."""
+        out = []
+        for q in self.modes:
+            for w in (q.power.warnings if q.power is not None else ()):
+                if w not in out:
+                    out.append(w)
+        return tuple(out)
+
+
+def _check_below_top(what, f, modeset):
+    top = max(m.fc for m in modeset)
+    if f >= top:
+        raise FemodesError(f"the analysis {what} reaches {f / 1e9:.6g} GHz, at or above the highest cutoff computed "
+                           f"({top / 1e9:.6g} GHz, {modeset[-1].label}): modes that were not computed could "
+                           "propagate there; solve for more modes (modes in [solve] or --modes) or lower the frequency")
+    return top
+
+
+def _voltage_cancels(mode, path, rel=1e-6):
+    """True if int e_t . dl along ``path`` is zero by cancellation: below ``rel`` times the
+    integral of |e_t . dl| (sampled on 400 points)."""
+
+    (x0, y0), (x1, y1) = path
+    t = np.linspace(0.0, 1.0, 401)
+    s = 0.5 * (t[1:] + t[:-1])
+    pts = np.array([x0 + (x1 - x0) * s, y0 + (y1 - y0) * s])
+    ex, ey, _, _ = mode.fields(pts)
+    along = np.abs(ex * (x1 - x0) + ey * (y1 - y0)) / (t.size - 1)
+    total = float(np.nansum(along))
+    return total > 0 and abs(Q.path_voltage(mode, path)) < rel * total
+
+
+def analyse(modeset, settings, family=None) -> Analysis:
+    """The engineering quantities of ``modeset`` asked for by ``settings`` (a
+    :class:`femodes.case.AnalysisSettings`): wave quantities of every mode, losses and power handling
+    of the propagating ones and the characteristic impedances of the dominant (and any TEM) mode at
+    the table frequency, the single-mode and recommended bands, and the attenuation over the band.
+
+    Power handling is computed at the table frequency only (it searches the field for its peak);
+    over the band, the rated power of TE and TEM modes follows from it exactly, since their electric
+    field is purely transverse and its peak per sqrt(W) scales as sqrt(Z_w):
+    P(f) = P(f0) Z_w(f0) / Z_w(f).
+    """
+
+    if not len(modeset):
+        raise FemodesError("the mode set is empty: nothing to analyse")
+    f = float(settings.table_frequency)
+    top = _check_below_top("frequency", f, modeset)
+    if settings.band is not None:
+        _check_below_top("band", settings.band[1], modeset)
+    sigma, rough, td = settings.conductivity, settings.roughness, settings.tan_delta
+    first = modeset[0]
+    rows = []
+    for m in modeset:
+        wq = Q.wave_quantities(m, f)
+        if not wq.propagates:
+            rows.append(ModeQuantities(m, wq))
+            continue
+        notes = []
+        ls = Q.losses(m, f, sigma, rough, td)
+        beta = float(wq.beta)
+        if beta > 0 and float(ls.total) / beta > PERTURBATION_LIMIT:
+            notes.append(f"loss is not small against beta (alpha / beta = {float(ls.total) / beta:.2g}): too close to "
+                         "cutoff for the power-loss method; the loss figure is not reliable")
+        z, path = None, None
+        if m.family == "TEM" or m.index == first.index:
+            z = {}
+            for kind in ("PV", "PI", "VI"):
+                try:
+                    z[kind] = float(Q.impedance(m, f, kind))
+                except FemodesError as exc:
+                    z[kind] = None
+                    notes.append(f"Z_{kind} not available: {exc}")
+            if m.family != "TEM":
+                try:
+                    path = tuple(Q.voltage_path(m))
+                except FemodesError:
+                    path = None
+                if path is not None and _voltage_cancels(m, path):
+                    z["PV"] = z["VI"] = None
+                    notes.append("the voltage along the default path (through the centre, wall to wall) cancels for "
+                                 "this mode (a field null, e.g. by symmetry): Z_PV and Z_VI are not defined for it")
+                if m.degenerate_with:
+                    notes.append("one member of a degenerate pair: its impedances depend on the orientation the "
+                                 "solver gave it")
+        ph = Q.power_handling(m, f, settings.breakdown_field, settings.safety_factor)
+        rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes)))
+    try:
+        band = Q.band(modeset)
+    except (FemodesError, StopIteration):
+        band = None
+    sweep = None
+    if settings.band is not None:
+        fs = np.linspace(settings.band[0], settings.band[1], int(settings.points))
+        att, rated = {}, {}
+        for q in rows:
+            m = q.mode
+            a = reliable_attenuation(m, fs, sigma, rough, td)
+            if not np.any(np.isfinite(a)):
+                continue
+            on = np.isfinite(a)
+            att[m.index] = a
+            if q.power is not None and m.family in ("TE", "TEM"):
+                p = np.full(fs.shape, np.nan)
+                z0 = float(Q.wave_quantities(m, f).wave_impedance)
+                p[on] = q.power.rated_power * z0 / np.asarray(Q.wave_quantities(m, fs[on]).wave_impedance, dtype=float)
+                rated[m.index] = p
+        sweep = Sweep(fs, att, rated)
+    return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=sweep, family=family,
+                    top_cutoff=top, cautions=tuple(Q.CAUTIONS))
+
+
+def _mode_of(an, index):
+    return next(q.mode for q in an.modes if q.mode.index == index)
+
+
+def _loaded_wall_loss(m, study):
+    """(alpha_c, its estimated error) Np/m of a loaded mode with the study's wall metal."""
+    if not m.propagating:
+        return math.nan, math.nan
+    kw = dict(conductivity=study.conductivity, roughness=study.roughness)
+    return loaded_conductor_attenuation(m, **kw), loaded_conductor_attenuation_error(m, **kw)

@@ -1,0 +1,311 @@
+"""Fixed-width text tables of a solve for people (engineering units: GHz, mm, dB/m, ohm, kW / MW).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from femodes.constants import C0, __version__
+from femodes.quantities import NP_TO_DB
+from femodes.report.analysis import PERTURBATION_LIMIT, _loaded_wall_loss, _mode_of
+from femodes.report.text import (
+    _band,
+    _degenerate_text,
+    _err_text,
+    _f_ghz,
+    _g,
+    _grid,
+    _mm,
+    _section_info,
+    _share,
+    _sig_digits,
+    _significant,
+    _symmetry_text,
+    _wrap,
+    format_ghz,
+    power_text,
+)
+
+
+def modes_table(modeset, title=None, family=None) -> str:
+    """The modes as a fixed-width text table in GHz and mm, with header lines and the single-mode
+    band.  ``family`` ('TE' or 'TM') notes that only one family was solved for."""
+
+    lines = [f"femodes {__version__}" + (f" -- {title}" if title else "")]
+    sec = _section_info(modeset)
+    lines.append(f"section: {sec['description']}")
+    if "frame" in sec:
+        fr = sec["frame"]
+        lines.append(f"placed: own origin at ({fr['x0'] * 1e3:.6g}, {fr['y0'] * 1e3:.6g}) mm, "
+                     f"own x axis at {math.degrees(fr['angle']):.6g} deg")
+    lines.append(f"fill: eps_r = {modeset.eps_r:g}, mu_r = {modeset.mu_r:g}")
+    lines.append(f"accuracy asked: {modeset.accuracy:.1e} (relative, on kc); unknowns: {modeset.n_dofs} "
+                 f"(element order {modeset.order})" + (f"; {family} modes only" if family else ""))
+    lines.append("")
+
+    head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
+            "degenerate with", "symmetry", "nodal regions"]
+    right = {0, 3, 4, 5, 6, 9}
+    rows = []
+    for m in modeset:
+        sig = _sig_digits(m.fc, m.fc_error)
+        wl = m.cutoff_wavelength
+        rows.append([
+            str(m.index + 1), m.label, m.family, format_ghz(m.fc, m.fc_error), _err_text(m.fc_error),
+            _significant(wl * 1e3, sig) if math.isfinite(wl) else "-",
+            _significant(m.kc, sig) if m.kc > 0 else "0",
+            _degenerate_text(m),
+            _symmetry_text(m.symmetry),
+            "-" if m.nodal_domains is None else str(m.nodal_domains),
+        ])
+    widths = [max(len(r[j]) for r in rows + [head]) for j in range(len(head))]
+
+    def fmt(r):
+        cells = [c.rjust(w) if j in right else c.ljust(w) for j, (c, w) in enumerate(zip(r, widths))]
+        return "  ".join(cells).rstrip()
+
+    lines.append(fmt(head))
+    lines.append("  ".join("-" * w for w in widths))
+    lines.extend(fmt(r) for r in rows)
+    lines.append("")
+    band = _band(modeset)
+    only = f" (among {family} modes only)" if family else ""
+    if band is None:
+        lines.append("single-mode band: needs at least two distinct cutoffs; solve for more modes")
+    else:
+        f1, f2, ratio, m1, m2 = band
+        text = f"{format_ghz(f1, m1.fc_error)} - {format_ghz(f2, m2.fc_error)} GHz"
+        if ratio is None:
+            lines.append(f"single-mode band{only}: {text} (TEM only below the first higher-order cutoff)")
+        else:
+            who = (f"only the degenerate {m1.label} pair" if (m1.degenerate_with or m1.multiplicity > 1)
+                   else f"{m1.label} alone")
+            lines.append(f"single-mode band{only}: {text} (ratio {ratio:.3f}:1, {who})")
+    return "\n".join(lines) + "\n"
+
+
+def _walls_text(an):
+    s = an.settings
+    rough = "smooth" if s.roughness == 0 else f"rms roughness {s.roughness * 1e6:.4g} um (Hammerstad-Jensen)"
+    fill = "lossless" if s.tan_delta == 0 else f"tan_delta = {s.tan_delta:.3g}"
+    return f"walls: {s.conductor_text}, {rough}; fill: {fill}"
+
+
+def analysis_table(an) -> str:
+    """The quantities of an :class:`Analysis` as text (GHz, mm, dB/m, ohm, kW/MW), ending with
+    the band lines and the power-handling cautions."""
+
+    s = an.settings
+    f = an.frequency
+    fg = _f_ghz(f)
+    where = (f"centre of the analysis band {_f_ghz(s.band[0])} - {_f_ghz(s.band[1])} GHz"
+             if s.frequency is None else "as asked")
+    lines = [f"at f = {fg} GHz ({where})", _walls_text(an)]
+    if an.family:
+        lines.append(f"({an.family} modes only: the other family was not solved for)")
+    lines.append("")
+
+    prop = an.propagating
+    if prop:
+        lines.append(f"propagating at {fg} GHz:")
+        rows = []
+        for q in prop:
+            w, ls = q.waves, q.losses
+            rows.append([str(q.mode.index + 1), q.mode.label, _g(w.beta), _g(w.guide_wavelength * 1e3),
+                         f"{w.phase_velocity / C0:.4f}", f"{w.group_velocity / C0:.4f}",
+                         _g(float(np.real(w.wave_impedance))),
+                         _g(ls.conductor_db, 4), _g(ls.dielectric_db, 4), _g(ls.total_db, 4)])
+        lines += _grid(["#", "label", "beta [rad/m]", "guide wl [mm]", "v_p/c", "v_g/c", "Z_wave [ohm]",
+                        "walls [dB/m]", "fill [dB/m]", "loss [dB/m]"], rows, {0, 2, 3, 4, 5, 6, 7, 8, 9})
+        lines.append("")
+        for q in prop:
+            if q.impedances is None:
+                continue
+            z = q.impedances
+            if q.mode.family == "TEM":
+                val = z.get("PV")
+                lines.append(f"line impedance of {q.mode.label} (#{q.mode.index + 1}): Z0 = {_g(val, 5)} ohm "
+                             "(from the electrostatic capacitance; the same for PV, PI and VI)")
+                continue
+            order = [s.impedance] + [k for k in ("PV", "PI", "VI") if k != s.impedance]
+            parts = [f"Z_{k} = {_g(z[k], 5)} ohm" if z[k] is not None else f"Z_{k} = n/a" for k in order]
+            lines.append(f"impedance of {q.mode.label} (#{q.mode.index + 1}): {parts[0]}  (also {parts[1]}, {parts[2]})")
+            if q.voltage_path is not None:
+                (x0, y0), (x1, y1) = q.voltage_path
+                lines += _wrap(f"V along ({_mm(x0)}, {_mm(y0)}) -> ({_mm(x1)}, {_mm(y1)}) mm "
+                               "(through the centre, wall to wall); I: the longitudinal wall current on the half "
+                               "of the walls above the centre", "  ", "  ", width=110)
+        lines.append("")
+        ref = prop[0].power
+        lines += _wrap(f"power handling at {fg} GHz (matched travelling wave; breakdown taken at a peak field of "
+                       f"{ref.breakdown_field / 1e6:.4g} MV/m; rated = that power / safety factor "
+                       f"{ref.safety_factor:g}):", "", "  ", width=110)
+        rows = []
+        for q in prop:
+            p = q.power
+            x, y = p.peak_location
+            rows.append([str(q.mode.index + 1), q.mode.label, _g(p.peak_field_per_sqrt_watt, 4),
+                         f"({_mm(x)}, {_mm(y)})", power_text(p.breakdown_power), power_text(p.rated_power)])
+        lines += _grid(["#", "label", "peak |E| at 1 W [V/m]", "peak at (x, y) [mm]", "power at breakdown",
+                        "rated power"],
+                       rows, {0, 2, 4, 5})
+        lines.append("")
+    else:
+        lines += [f"no mode propagates at {fg} GHz (below the lowest cutoff)", ""]
+
+    ev = an.evanescent
+    if ev:
+        lines.append(f"below cutoff at {fg} GHz (evanescent: the field decays along the guide, no power is carried):")
+        rows = [[str(q.mode.index + 1), q.mode.label, f"{q.mode.fc / 1e9:.6g}", _g(q.waves.alpha * NP_TO_DB, 5)]
+                for q in ev]
+        lines += _grid(["#", "label", "fc [GHz]", "decay [dB/m]"], rows, {0, 2, 3})
+        lines.append("")
+
+    notes = [(q.mode, n) for q in an.modes for n in q.notes]
+    for m, n in notes:
+        lines += _wrap(f"#{m.index + 1} {m.label}: {n}", "note: ", "      ")
+    lines += _wrap("loss by the power-loss (perturbation) method on the lossless mode; wall loss from the "
+                   "surface resistance of the conductor", "note: ", "      ")
+    lines.append("")
+
+    b = an.band
+    if b is None:
+        lines.append("recommended band: needs at least two distinct cutoffs; solve for more modes")
+    else:
+        n_tem = sum(1 for q in an.modes if q.mode.family == "TEM")
+        lo = "0 (TEM)" if b.low == 0 else f"{b.low / 1e9:.5g}"
+        ratio = "unbounded, TEM" if not math.isfinite(b.ratio) else f"{b.ratio:.3f}:1"
+        what = "single-mode band" if n_tem <= 1 else f"band of the {n_tem} TEM modes only"
+        lines.append(f"{what}: {lo} - {b.high / 1e9:.5g} GHz (ratio {ratio}); next mode {b.next}")
+        if b.recommended is None:
+            lines.append("recommended operating band: none (the single-mode band is narrower than 1.25 fc1 .. "
+                         "0.95 fc2)")
+        else:
+            r1, r2 = b.recommended
+            lines.append(f"recommended operating band: {r1 / 1e9:.5g} - {r2 / 1e9:.5g} GHz (rule of thumb 1.25 fc1 .. "
+                         "0.95 fc2, common practice; not a standard)")
+    if an.sweep is not None:
+        fs = an.sweep.frequencies
+        lines.append(f"analysis band: {_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz, {fs.size} points")
+        if b is not None and b.low > 0 and fs[0] < b.low:
+            lines.append(f"  (it starts below the dominant cutoff {_f_ghz(b.low)} GHz: nothing propagates there)")
+        if b is not None and fs[-1] > b.high:
+            lines.append(f"  (it runs above the next cutoff {_f_ghz(b.high)} GHz: more than one mode can propagate)")
+        for idx, a in an.sweep.attenuation.items():
+            m = _mode_of(an, idx)
+            ok = np.isfinite(a)
+            db = a * NP_TO_DB
+            i_min, i_max = int(np.nanargmin(db)), int(np.nanargmax(db))
+            text = (f"#{m.index + 1} {m.label}: loss {_g(db[i_min], 4)} dB/m (at {_f_ghz(fs[i_min])} GHz) to "
+                    f"{_g(db[i_max], 4)} dB/m (at {_f_ghz(fs[i_max])} GHz)")
+            if not np.all(ok):
+                text += (f" over the {int(ok.sum())} of {ok.size} points where it propagates and the loss method "
+                         f"holds (alpha / beta <= {PERTURBATION_LIMIT:g})")
+            p = an.sweep.rated_power.get(idx)
+            if p is not None:
+                j = int(np.nanargmin(p))
+                text += (f"; rated power down to {power_text(p[j])} (at {_f_ghz(fs[j])} GHz; scaled from {fg} GHz "
+                         "as 1 / Z_w)")
+            lines += _wrap(text, "  ", "    ")
+    lines.append("")
+
+    if prop:
+        for w in an.warnings:
+            lines += _wrap(w, "warning: ", "         ")
+        lines.append("cautions (power handling):")
+        for c in an.cautions:
+            lines += _wrap(c, "  - ", "    ")
+    return "\n".join(lines).rstrip("\n") + "\n"
+
+
+def _regions_text(study):
+    bits = []
+    for i, m in enumerate(study.section.materials, start=1):
+        name = f' "{m.name}"' if m.name else ""
+        extra = (f", mu_r = {m.mu_r:g}" if m.mu_r != 1 else "") + (f", tan_delta = {m.tan_delta:.3g}"
+                                                                   if m.tan_delta else "")
+        bits.append(f"{i}{name}: eps_r = {m.eps_r:g}{extra}")
+    return "; ".join(bits)
+
+
+def _loaded_mode_row(m, study):
+
+    b = m.beta()
+    prop = m.propagating
+    sig = _sig_digits(abs(b), m.beta_error) if prop else 5
+    ad = m.dielectric_attenuation() if prop else math.nan
+    ac, ac_err = _loaded_wall_loss(m, study)
+    return [str(m.index + 1), m.label, m.family,
+            _significant(b, sig) if prop else f"-j{_g(abs(b))}",
+            f"{m.beta_error:.0e}" if m.beta_error > 0 else "-",
+            _g(m.guide_wavelength() * 1e3) if prop else "-",
+            f"{m.effective_permittivity:.5f}" if prop else "-",
+            f"{m.phase_velocity():.4f}" if prop else "-",
+            f"{m.group_velocity():.4f}" if prop else "-",
+            _share(m.e_share), _share(m.h_share),
+            (_g(ad * NP_TO_DB, 4) if ad > 0 else "0") if prop else "-",
+            _g(ac * NP_TO_DB, 4) if prop else "-",
+            (f"{ac_err * NP_TO_DB:.0e}" if math.isfinite(ac_err) else "?") if prop else "-"]
+
+
+def loaded_table(study, title=None) -> str:
+    """A :class:`femodes.loaded.LoadedStudy` as text (GHz, mm, rad/m, dB/m): cutoffs, the
+    single-mode band, the modes at the frequency, and a few rows of the dispersion."""
+
+    sec = study.section
+    lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""),
+             f"section: {sec.describe()}",
+             f"fill: eps_r = {study.eps_r:g}, mu_r = {study.mu_r:g}"
+             + (f", tan_delta = {study.tan_delta:.3g}" if study.tan_delta else "")
+             + f"; regions: {_regions_text(study)}",
+             f"full-vector solve (edge elements of order {study.order}); accuracy asked: {study.accuracy:.1e}; "
+             f"unknowns: {study.n_dofs}",
+             "", "cutoffs (beta = 0) of the loaded guide:"]
+    rows = [[str(c.index + 1), c.label, format_ghz(c.fc, c.fc_error), _err_text(c.fc_error),
+             _significant(299792458.0 / c.fc * 1e3, _sig_digits(c.fc, c.fc_error))] for c in study.cutoffs]
+    lines += _grid(["#", "type at cutoff", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"], rows, {0, 2, 3, 4})
+    lines.append("  (TE-type: only transverse E at cutoff; TM-type: only E_z; 'from': the empty-guide mode "
+                 "whose field at cutoff it mostly has.  Above cutoff the modes are hybrid in general.)")
+    band = study.single_mode_band
+    if band is not None:
+        c1, c2 = study.cutoffs[0], study.cutoffs[1]
+        lines.append(f"single-mode band: {format_ghz(band[0], c1.fc_error)} - {format_ghz(band[1], c2.fc_error)} GHz "
+                     f"(ratio {band[1] / band[0]:.3f}:1, between the two lowest cutoffs)")
+    if study.frequency is not None:
+        lines += ["", f"at f = {_f_ghz(study.frequency)} GHz: the modes of largest beta "
+                  f"(unknowns: {study.n_dofs_at_f})"]
+        prop = [m for m in study.modes if m.propagating]
+        if not prop:
+            lines.append("  no mode propagates at this frequency")
+        else:
+            head = ["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
+                    "v_g/c", "Ez share", "Hz share", "dielectric [dB/m]", "walls [dB/m]", "± [dB/m]"]
+            lines += _grid(head, [_loaded_mode_row(m, study) for m in prop], set(range(3, 14)) | {0})
+            lines.append("  (label: the empty-guide mode it grows from, where its transverse E is mostly that "
+                         "mode's; Ez / Hz share: the longitudinal share of the electric / magnetic energy, 0 "
+                         "for TE / TM; eps_eff = (beta/k0)^2)")
+            if study.more_propagate:
+                lines.append(f"  every one of the {len(study.modes)} modes asked for propagates: more may; "
+                             "ask for more modes ([solve] modes or --modes) to see them all")
+        rough = f", rms roughness {study.roughness * 1e6:g} um" if study.roughness else ""
+        lines.append(f"  walls: {study.conductor}{rough}; wall loss by the power-loss method (not valid close "
+                     "to cutoff).  Impedance and power handling are not computed for loaded guides yet.")
+    disp = study.dispersion
+    if disp is not None:
+        fs = disp.frequencies
+        picks = np.unique(np.round(np.linspace(0, fs.size - 1, min(fs.size, 7))).astype(int))
+        names = [(disp.labels[k] if k < len(disp.labels) and disp.labels[k] else f"mode {k + 1}")
+                 for k in range(disp.beta2.shape[1])]
+        lines += ["", f"dispersion: beta [rad/m] of the tracked modes, {fs.size} frequencies "
+                  f"{_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz (tracked by field overlap; '-' evanescent):"]
+        head = ["f [GHz]"] + [f"{k + 1}: {n}" for k, n in enumerate(names)]
+        rows = [[_f_ghz(fs[i])] + [(_g(math.sqrt(b2), 6) if b2 > 0 else "-") for b2 in disp.beta2[i]]
+                for i in picks]
+        lines += _grid(head, rows, set(range(len(head))))
+        low = float(np.min(disp.overlap))
+        if low < 0.9:
+            lines.append(f"  lowest overlap between neighbouring frequencies {low:.2f}: take more points to be "
+                         "sure of the tracking")
+    return "\n".join(lines) + "\n"
