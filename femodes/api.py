@@ -16,6 +16,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from femodes.constants import C0
 from femodes.errors import FemodesError, positive_number
 from femodes.geometry.mesh import Mesh
 from femodes.geometry.section import Section
@@ -27,7 +28,7 @@ from femodes.solvers.discretise import ELEMENT_ORDERS
 from femodes.solvers.loaded import ORDER, solve_loaded
 from femodes.solvers.scalar import DEFAULT_ORDER, solve_scalar, solve_scalar_mesh
 
-__all__ = ["solve", "dispersion", "study", "LoadedStudy", "DEFAULT_ORDER"]
+__all__ = ["solve", "dispersion", "study", "Study", "LoadedStudy", "DispersionTable", "DEFAULT_ORDER"]
 
 MAX_MODES = 500
 
@@ -188,15 +189,50 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
 
 
 @dataclass(frozen=True, eq=False)
-class LoadedStudy:
-    """What a case file asks of a loaded guide, solved: the lowest cutoffs, the modes at one
-    frequency, and the dispersion over a band (each None / empty when not asked).
+class DispersionTable:
+    """beta(f) of the modes that propagate somewhere in a band, as tables and files want it.
 
-    n_dofs : unknowns of the final cutoff mesh; n_dofs_at_f : of the mesh at the frequency
-    more_propagate : True when every mode asked for propagates at ``frequency`` (more may: ask
-                     for more modes to see them all)
-    empty_modes : (label, kc) of the empty guide's modes with a cutoff below the band top (for
-                  comparison curves), with a band
+    frequencies : (F,) Hz
+    beta        : (F, N) complex, rad/m: beta where the mode propagates, -1j alpha where it is
+                  evanescent (column k is one mode followed along the band)
+    beta_error  : (F, N) estimated error of |beta| (rad/m), or None where not estimated per point
+                  (loaded guides: the whole curve set is solved to the study's accuracy on beta^2
+                  relative to k0^2 eps_max mu_max at every frequency)
+    labels      : (N,) the name of each curve ('' where none)
+    family      : (N,) its family at the top frequency
+    overlap     : (F, N) how surely each point continues its curve (loaded guides, tracked by
+                  field overlap; see femodes.solvers.vector.Dispersion), or None (homogeneous
+                  guides: every curve is closed-form, beta = sqrt(k^2 - kc^2))
+    solved      : the loaded solver's own :class:`femodes.solvers.vector.Dispersion` (for the
+                  dispersion chart), or None
+    """
+
+    frequencies: np.ndarray
+    beta: np.ndarray
+    beta_error: np.ndarray | None
+    labels: tuple
+    family: tuple
+    overlap: np.ndarray | None = None
+    solved: object = None
+
+
+@dataclass(frozen=True, eq=False)
+class Study:
+    """What a case file asks of a guide, solved, for either kind of guide: the lowest cutoffs,
+    the modes at one frequency, and the dispersion over a band (None / empty when not asked).
+
+    section    : the Section, or the Mesh of a mesh file
+    modes      : the lowest cutoffs: a :class:`~femodes.modes.ModeSet` of a homogeneous guide, or
+                 the :class:`~femodes.modes.LoadedCutoff` s of a loaded one (ascending)
+    at_frequency : the modes whose quantities are reported at ``frequency``: the same ModeSet
+                 (closed-form dispersion) or the :class:`~femodes.modes.LoadedMode` s solved there
+    n_dofs     : unknowns of the final cutoff mesh; n_dofs_at_f: of the mesh at the frequency
+    more_propagate : True when every loaded mode asked for propagates at ``frequency`` (more
+                 may: ask for more modes to see them all)
+    dispersion : a :class:`DispersionTable` over the band, or None
+    empty_modes: (label, kc) of the empty guide's modes with a cutoff below the band top (loaded
+                 guides, for comparison curves)
+    family     : None, or 'TE' / 'TM' for a one-family solve of a homogeneous guide
     """
 
     section: object
@@ -205,51 +241,96 @@ class LoadedStudy:
     tan_delta: float
     accuracy: float
     order: int
-    cutoffs: tuple
+    modes: tuple
     n_dofs: int
     frequency: float | None = None
-    modes: tuple = ()
+    at_frequency: tuple = ()
     n_dofs_at_f: int = 0
     more_propagate: bool = False
-    dispersion: object = None
+    dispersion: DispersionTable | None = None
     empty_modes: tuple = ()
-    conductor: str = "copper (5.8e+07 S/m)"
-    conductivity: float = 5.8e7
-    roughness: float = 0.0
+    family: str | None = None
+
+    @property
+    def loaded(self):
+        """True for a guide with material regions (full-vector solve, hybrid modes)."""
+        return not isinstance(self.modes, ModeSet)
+
+    @property
+    def cutoffs(self):
+        """The lowest cutoffs (the same as ``modes``)."""
+        return self.modes
 
     @property
     def single_mode_band(self):
-        """(f1, f2) Hz between the two lowest cutoffs, or None with fewer than two."""
-        if len(self.cutoffs) < 2:
+        """(f1, f2) Hz from the lowest cutoff to the next one not degenerate with it, or None."""
+        if not self.loaded:
+            try:
+                return self.modes.single_mode_band()
+            except FemodesError:
+                return None
+        if len(self.modes) < 2:
             return None
-        return (self.cutoffs[0].fc, self.cutoffs[1].fc)
+        return (self.modes[0].fc, self.modes[1].fc)
+
+
+#: the old name of :class:`Study` (loaded guides only)
+LoadedStudy = Study
 
 
 def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_delta=0.0,
-          frequency=None, band=None, points=41, conductivity=5.8e7, roughness=0.0, conductor=None):
+          frequency=None, band=None, points=41, family=None):
     """Cutoffs, modes at ``frequency`` (Hz) and dispersion over ``band`` (f1, f2 Hz, ``points``
-    frequencies) of a section with material regions: the loaded-guide part of a case file.  The
-    dispersion follows the modes whose cutoff (of the ``modes`` computed) lies below f2.
-    ``conductivity`` (S/m), ``roughness`` (m) and ``conductor`` (its description) are the wall
-    metal for the wall loss of the modes at ``frequency``."""
+    frequencies) of any guide: what a case file asks.  A homogeneous guide is solved once for its
+    cutoffs (its dispersion is closed-form); a loaded one (section with material regions) for its
+    cutoffs, at the frequency, and along the band (following the modes whose cutoff, of the
+    ``modes`` computed, lies below the band top).  ``tan_delta``: the fill's loss tangent (a
+    loaded solve takes it into its modes; a homogeneous one leaves it to the quantities).
+    Returns a :class:`Study`."""
+    fs = None if band is None else np.linspace(float(band[0]), float(band[1]), int(points))
+    if isinstance(section, Mesh) or not section.materials:
+        ms = solve(section, modes=modes, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy, family=family, order=order)
+        disp = None if fs is None else _closed_form_dispersion(ms, fs)
+        return Study(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), ms.order, ms, ms.n_dofs,
+                     frequency=None if frequency is None else float(frequency),
+                     at_frequency=tuple(ms) if frequency is not None else (), n_dofs_at_f=ms.n_dofs,
+                     dispersion=disp, family=family)
+    if family is not None:
+        raise FemodesError("family= is for homogeneously filled guides: a loaded guide's modes are hybrid")
     p = ORDER if order is None else int(order)
     bare = _bare_modes(section, modes + 8, eps_r, mu_r)  # the labels of every part, solved once
     cuts, prob = _loaded_modes(section, modes, None, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
                                bare=bare)
-    out = LoadedStudy(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), p, cuts,
-                      prob.n_dofs, conductor=conductor or f"{float(conductivity):.4g} S/m",
-                      conductivity=float(conductivity), roughness=float(roughness))
+    out = Study(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), p, cuts, prob.n_dofs)
     if frequency is not None:
         ms, prob_f = _loaded_modes(section, modes, frequency, eps_r, mu_r, accuracy, order=p,
                                    tan_delta=tan_delta, bare=bare)
-        out = replace(out, frequency=float(frequency), modes=ms, n_dofs_at_f=prob_f.n_dofs,
+        out = replace(out, frequency=float(frequency), at_frequency=ms, n_dofs_at_f=prob_f.n_dofs,
                       more_propagate=len(ms) >= modes)
-    if band is not None:
+    if fs is not None:
         # the curves worth drawing: the modes with a cutoff below the top of the band (those
         # that propagate somewhere in it), at least one
-        fs = np.linspace(float(band[0]), float(band[1]), int(points))
         n_band = max(1, sum(1 for c in cuts if c.fc < fs[-1]))
         empty = tuple((m.label, float(m.kc)) for m in bare[:n_band] if m.fc < fs[-1])
-        out = replace(out, dispersion=dispersion(section, fs, n_band, eps_r, mu_r, accuracy, order=p,
-                                                 tan_delta=tan_delta, _bare=bare), empty_modes=empty)
+        d = dispersion(section, fs, n_band, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta, _bare=bare)
+        names = tuple(lab or "" for lab in d.labels) or ("",) * d.beta2.shape[1]
+        table = DispersionTable(np.asarray(d.frequencies, dtype=float), np.asarray(d.beta), None, names,
+                                tuple(str(f) for f in d.family[-1]), np.asarray(d.overlap), d)
+        out = replace(out, dispersion=table, empty_modes=empty)
     return out
+
+
+def _closed_form_dispersion(modeset, fs):
+    """DispersionTable of the homogeneous modes with a cutoff below the top of ``fs``:
+    beta = sqrt(k^2 - kc^2) (or -j alpha), its error from each mode's kc error."""
+    picked = [m for m in modeset if m.fc < fs[-1]] or list(modeset[:1])
+    beta = np.column_stack([np.asarray(m.beta(fs), dtype=complex) for m in picked])
+    k = 2 * np.pi * fs[:, None] * math.sqrt(modeset.eps_r * modeset.mu_r) / C0
+    kc = np.array([m.kc for m in picked])
+    dkc = np.array([m.kc_error for m in picked])
+    gap = np.sqrt(np.abs(k * k - kc * kc))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        err = np.where(gap > 0, kc * dkc / np.where(gap > 0, gap, 1.0), np.inf)
+    err[:, kc == 0] = 0.0
+    return DispersionTable(np.asarray(fs, dtype=float), beta, err, tuple(m.label for m in picked),
+                           tuple(m.family for m in picked))

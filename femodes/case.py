@@ -126,7 +126,7 @@ import os
 from dataclasses import dataclass, field, replace
 from typing import Callable
 
-from femodes.api import solve, study
+from femodes.api import study
 from femodes.errors import FemodesError
 from femodes.geometry import section as _sec
 from femodes.geometry.mesh import read_mesh
@@ -468,19 +468,14 @@ def parse_case(text, path=None, base_dir=None) -> Case:
 
 
 def run_case(case: Case):
-    """Solve the case: ``femodes.solve(case.section, **case.solve)`` -> ModeSet; for a guide with
-    [[region]] tables :func:`femodes.loaded.study` -> LoadedStudy (cutoffs, the modes at the
-    [analysis] frequency, the dispersion over its band)."""
-    if case.loaded:
-
-        an = case.analysis
-        kw = dict(case.solve)
-        if an is not None:
-            kw.update(frequency=an.table_frequency, band=an.band, points=an.points,
-                      conductivity=an.conductivity, roughness=an.roughness, conductor=an.conductor_text)
-        return study(case.section, tan_delta=case.tan_delta, **kw)
-
-    return solve(case.section, **case.solve)
+    """Solve the case: :func:`femodes.api.study` of its guide with its [solve] settings, at the
+    [analysis] table frequency and over its band when it has an [analysis] table -> a
+    :class:`femodes.api.Study` (the same kind of result for homogeneous and loaded guides)."""
+    an = case.analysis
+    kw = dict(case.solve)
+    if an is not None:
+        kw.update(frequency=an.table_frequency, band=an.band, points=an.points)
+    return study(case.section, tan_delta=case.tan_delta, **kw)
 
 
 # ----------------------------------------------------------------------------- building

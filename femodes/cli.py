@@ -23,18 +23,12 @@ from femodes.constants import __version__
 from femodes.errors import FemodesError
 from femodes.report import (
     analyse,
-    analysis_table,
     check_figures,
-    loaded_document,
-    loaded_table,
-    modes_document,
-    modes_table,
+    report_document,
+    report_table,
     write_csv,
     write_fields,
     write_figures,
-    write_loaded_csv,
-    write_loaded_fields,
-    write_loaded_figures,
 )
 
 __all__ = ["main"]
@@ -133,7 +127,7 @@ def _solve(args):
         check_figures(case.output)  # fail before a long solve, not after it
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        modeset = run_case(case)
+        study = run_case(case)
     shown = set()  # each distinct message once (the refinement repeats solves on similar meshes)
     for w in caught:
         msg = str(w.message)
@@ -141,42 +135,17 @@ def _solve(args):
             shown.add(msg)
             print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
                   file=sys.stderr)
-    if case.loaded:
-        return _report_loaded(case, modeset, args)
-    family = case.solve.get("family")
-    analysis = analyse(modeset, case.analysis, family=family) if case.analysis is not None else None
-    csv_path = write_csv(modeset, args.csv) if args.csv else None
-    fields_path = write_fields(modeset, args.fields) if args.fields else None
-    figures = write_figures(modeset, case.output, analysis)
+    analysis = analyse(study, case.analysis) if case.analysis is not None else None
+    csv_paths = write_csv(study, args.csv, analysis) if args.csv else None
+    fields_path = write_fields(study, args.fields) if args.fields else None
+    figures = write_figures(study, case.output, analysis)
     if args.json:
-        doc = modes_document(modeset, title=case.title, analysis=analysis)
-        doc["files"] = {"csv": csv_path, "fields": fields_path, "figures": figures}
+        doc = report_document(study, analysis=analysis, title=case.title)
+        doc["files"] = {"csv": csv_paths, "fields": fields_path, "figures": figures}
         print(json.dumps(doc, indent=2, allow_nan=False))
         return 0
-    sys.stdout.write(modes_table(modeset, title=case.title, family=family))
-    if analysis is not None:
-        sys.stdout.write("\n" + analysis_table(analysis))
-    for p in (csv_path, fields_path):
-        if p:
-            print(f"wrote {p}")
-    for p in figures:
-        print(f"wrote {p}")
-    return 0
-
-
-def _report_loaded(case, study, args):
-    """Print / write the results of a guide with material regions (a LoadedStudy)."""
-
-    csv_path = write_loaded_csv(study, args.csv) if args.csv else None
-    fields_path = write_loaded_fields(study, args.fields) if args.fields else None
-    figures = write_loaded_figures(study, case.output)
-    if args.json:
-        doc = loaded_document(study, title=case.title)
-        doc["files"] = {"csv": csv_path, "fields": fields_path, "figures": figures}
-        print(json.dumps(doc, indent=2, allow_nan=False))
-        return 0
-    sys.stdout.write(loaded_table(study, title=case.title))
-    for p in [csv_path, fields_path] + figures:
+    sys.stdout.write(report_table(study, analysis, title=case.title))
+    for p in (csv_paths or []) + [fields_path] + figures:
         if p:
             print(f"wrote {p}")
     return 0

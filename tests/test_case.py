@@ -185,7 +185,7 @@ def test_with_options_overrides(tmp_path):
 def test_run_case_uses_the_fill(tmp_path):
     case = load_text(tmp_path, '[guide]\nshape = "rectangle"\nwidth = 22.86\nheight = 10.16\n'
                      '[fill]\neps_r = 2.25\n[solve]\nmodes = 2\naccuracy = 1e-5\n')
-    ms = run_case(case)
+    ms = run_case(case).modes
     assert len(ms) == 2 and ms[0].label == "TE10"
     # WR-90 TE10 cutoff filled with eps_r = 2.25: fc = c / (2 a sqrt(eps_r)) = 4.371427 GHz,
     # a = 22.86 mm (EIA WR-90); Pozar, Microwave Engineering, 4th ed., sec. 3.3
@@ -483,7 +483,7 @@ def test_loaded_case_solves_against_the_layered_reference(tmp_path):
     want = ref.layered_guide_cutoffs(22.86e-3, 10.16e-3, [(5.08e-3, 2.25, 1.0), (5.08e-3, 1.0, 1.0)], 3)
     for c, r in zip(study.cutoffs, want):
         assert abs(c.fc / r.frequency - 1) < 1e-6
-    betas = sorted((m.beta() for m in study.modes), reverse=True)
+    betas = sorted((m.beta() for m in study.at_frequency), reverse=True)
     refs = ref.slab_on_wall_modes(22.86e-3, 10.16e-3, 5.08e-3, 2.25, 13e9, len(betas))
     for b, r in zip(betas, refs):
         assert abs(b ** 2 - r.beta2) / ((2 * math.pi * 13e9 / C0) ** 2 * 2.25) < 1e-6

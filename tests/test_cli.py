@@ -84,7 +84,7 @@ def test_json_document(capsys, wr90):
     assert doc["units"]["fc"] == "Hz" and doc["units"]["kc"] == "rad/m" and doc["units"]["length"] == "m"
     assert doc["section"]["kind"] == "rectangle"
     assert doc["section"]["params"] == pytest.approx({"width": 0.02286, "height": 0.01016}, rel=1e-12)
-    assert doc["fill"] == {"eps_r": 1.0, "mu_r": 1.0}
+    assert doc["fill"] == {"eps_r": 1.0, "mu_r": 1.0, "tan_delta": 0.0}
     assert doc["accuracy"] == 1e-5
     assert doc["discretisation"]["unknowns"] > 0 and doc["discretisation"]["element_order"] in (1, 2, 3, 4)
     modes = doc["modes"]
@@ -457,26 +457,28 @@ def test_loaded_case_json_against_the_slab_equation(tmp_path, capsys):
     doc = strict_json(out)
     a, t = 22.86e-3, 4e-3
     k0 = 2 * math.pi * 9e9 / C0
-    at_f = doc["at_frequency"]
+    assert doc["guide"] == "loaded" and doc["modes"][0]["label"] == "TE-type from TE10"
+    at_f = doc["analysis"]
     first = at_f["modes"][0]
     layers = [(t, 2.56, 1.0), (a - t, 1.0, 1.0)]
     want = ref.layered_guide_modes(a, 10.16e-3, layers, 9e9, count=1, axis="x")[0].beta2
     assert abs(first["beta"] ** 2 - want) / (k0 ** 2 * 2.56) < 1e-6
     assert first["family"] == "TE" and first["label"] == "TE from TE10"
     assert doc["regions"] == [{"name": None, "eps_r": 2.56, "mu_r": 1.0, "tan_delta": 5e-4}]
-    assert 0 < first["alpha_dielectric"] and 0 < first["group_velocity"] < 1
+    loss = first["attenuation_np_per_m"]
+    assert 0 < loss["dielectric"] and 0 < first["group_velocity"] < C0
     # wall loss (default copper) against the power-loss integrals of the exact fields
     from femodes.quantities import surface_resistance
 
     wall = ref.side_slab_te_m0_wall_loss(a, 10.16e-3, t, 2.56, 9e9, want, float(surface_resistance(9e9, 5.8e7)))
-    assert doc["walls"]["conductivity"] == 5.8e7
-    assert abs(first["alpha_conductor"] - wall) <= first["alpha_conductor_error"] < 1e-2 * wall
+    assert at_f["walls"]["conductivity"] == 5.8e7
+    assert abs(loss["conductor"] - wall) <= loss["conductor_error"] < 1e-2 * wall
     disp = doc["dispersion"]
-    assert len(disp["frequencies"]) == 9 and disp["labels"][0] == "TE from TE10"
-    for f, row in zip(disp["frequencies"], disp["beta"]):
+    assert len(disp["frequencies"]) == 9 and disp["modes"][0]["label"] == "TE from TE10"
+    for f, b in zip(disp["frequencies"], disp["modes"][0]["beta"]):
         w = ref.layered_guide_modes(a, 10.16e-3, layers, f, count=1, axis="x")[0].beta2
         kk = (2 * math.pi * f / C0) ** 2 * 2.56
-        assert abs(row[0] ** 2 - w) / kk < 1e-6
+        assert abs(b ** 2 - w) / kk < 1e-6
     files = doc["files"]["figures"]
     assert any(p.endswith("dispersion.png") for p in files) and any("mode01" in p for p in files)
     for p in files:
@@ -489,10 +491,14 @@ def test_loaded_case_table(tmp_path, capsys):
     code, out, err = run(capsys, "solve", str(path), "--no-figures", "--csv", str(tmp_path / "m.csv"))
     assert code == 0, err
     for words in ("cutoffs (beta = 0)", "TE-type from TE10", "single-mode band", "at f = 9 GHz", "TE from TE10",
-                  "v_g/c", "dielectric [dB/m]", "not computed for loaded guides", "dispersion:"):
+                  "v_g/c", "fill [dB/m]", "walls [dB/m]", "dispersion:"):
         assert words in out, words
     rows = list(csv.DictReader(open(tmp_path / "m.csv", encoding="utf-8")))
+    assert rows[0]["label"] == "TE-type from TE10" and rows[0]["family"] == "hybrid" and rows[0]["kc_rad_per_m"] == ""
+    rows = list(csv.DictReader(open(tmp_path / "m.at_frequency.csv", encoding="utf-8")))
     assert rows[0]["label"] == "TE from TE10" and float(rows[0]["beta_rad_per_m"]) > 0
+    rows = list(csv.DictReader(open(tmp_path / "m.dispersion.csv", encoding="utf-8")))
+    assert len(rows) == 3 and all(float(r["beta_rad_per_m"]) > 0 for r in rows)
 
 
 def test_loaded_case_fields_file_has_the_slab_mode_profile(tmp_path, capsys):

@@ -8,7 +8,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-from femodes.constants import C0
+import numpy as np
+
+from femodes.constants import C0, MU0
 from femodes.errors import FemodesError
 
 
@@ -53,22 +55,56 @@ class LoadedMode:
     def propagating(self):
         return self.vector.beta2 > 0
 
+    def propagates(self, f=None):
+        """True if the mode propagates (beta^2 > 0) at its frequency (the homogeneous modes'
+        ``propagates(f)``, for the one frequency this mode was solved at)."""
+        self.beta(f)
+        return bool(self.propagating)
+
     def guide_wavelength(self, f=None):
         """2 pi / beta (m); inf for an evanescent mode."""
         b = self.beta(f)
         return 2 * math.pi / b if isinstance(b, float) and b > 0 else math.inf
 
     def phase_velocity(self, f=None):
-        """v_p / c0 = k0 / beta (inf if evanescent)."""
+        """omega / beta (m/s); inf if evanescent."""
         b = self.beta(f)
-        k0 = 2 * math.pi * self.frequency / C0
-        return k0 / b if isinstance(b, float) and b > 0 else math.inf
+        return 2 * math.pi * self.frequency / b if isinstance(b, float) and b > 0 else math.inf
 
     def group_velocity(self, f=None):
-        """v_g / c0 = d omega / d beta / c0, by perturbation of the pencil at this frequency
-        (femodes.vector.VectorMode.group_velocity); NaN if evanescent."""
+        """d omega / d beta (m/s), by perturbation of the pencil at this frequency
+        (femodes.solvers.vector.VectorMode.group_velocity, which gives v_g / c0); NaN if evanescent."""
         self.beta(f)
-        return self.vector.group_velocity
+        return C0 * self.vector.group_velocity
+
+    def wave_impedance(self, f=None):
+        """E_t / H_t (ohm) where the mode has one: a TE mode (no E_z) in a guide of uniform mu_r
+        has H_t = (beta / (omega mu)) z x E_t everywhere (Faraday's law with E_z = 0), so
+        Z = omega mu0 mu_r / beta.  A hybrid, TM-like or TEM-like mode of an inhomogeneous fill has
+        no single ratio (it varies over the section with eps_r): NaN, as below cutoff."""
+        b = self.beta(f)
+        mu = getattr(self.vector.problem, "mu", None)
+        uniform = mu is not None and float(np.ptp(np.asarray(mu))) == 0.0
+        if self.family != "TE" or not uniform or not (isinstance(b, float) and b > 0):
+            return math.nan
+        return 2 * math.pi * self.frequency * MU0 * float(np.asarray(mu).flat[0]) / b
+
+    def longitudinal_shares(self, f=None):
+        """(E_z share of the electric energy, H_z share of the magnetic energy) at the mode's
+        frequency: ``e_share``, ``h_share``."""
+        self.beta(f)
+        return self.e_share, self.h_share
+
+    # -- what the homogeneous modes have and a loaded mode at one frequency does not know -------
+    kc = math.nan            # its cutoff is a separate solve (femodes.api.study: ``modes``)
+    kc_error = math.nan
+    fc = math.nan
+    fc_error = math.nan
+    symmetry = {}
+    nodal_domains = None
+    indices = None
+    degenerate_with = ()
+    multiplicity = 1
 
     def dielectric_attenuation(self, f=None):
         """Attenuation by the loss tangents of the fill and the regions, Np/m (first order in
@@ -120,3 +156,27 @@ class LoadedCutoff:
     @property
     def rel_error(self):
         return self.fc_error / self.fc if self.fc > 0 else 0.0
+
+    @property
+    def family(self):
+        """'hybrid': above its cutoff a loaded-guide mode has both E_z and H_z in general; the
+        field at cutoff is ``field`` ('TE' or 'TM')."""
+        return "hybrid"
+
+    @property
+    def cutoff_type(self):
+        return self.field
+
+    @property
+    def cutoff_wavelength(self):
+        """Free-space wavelength c0 / fc at the cutoff frequency (m)."""
+        return C0 / self.fc if self.fc > 0 else math.inf
+
+    # what the homogeneous modes have and a loaded-guide cutoff does not
+    kc = math.nan  # the empty guide's kc has no meaning here: the cutoff is a frequency
+    kc_error = math.nan
+    symmetry = {}
+    nodal_domains = None
+    indices = None
+    degenerate_with = ()
+    multiplicity = 1

@@ -147,6 +147,31 @@ class Mode:
             z = w * mu / b if self.family == "TE" else b / (w * eps)
         return z
 
+    def longitudinal_shares(self, f):
+        """(E_z share of the electric energy, H_z share of the magnetic energy) of the travelling
+        mode at f (Hz), above cutoff.  A TE mode has H_z = -j (kc / beta) (V / Z_TE) psi and
+        H_t = (V / Z_TE) h_t with int psi^2 = int |h_t|^2 = 1, so int |H_z|^2 / int |H_t|^2 =
+        kc^2 / beta^2 and the H_z share is kc^2 / (beta^2 + kc^2) = kc^2 / k^2; a TM mode the same
+        for E_z; a TEM mode (0, 0).  The loaded modes' ``e_share`` / ``h_share`` are the same
+        measures (weighted by eps_r, mu_r, uniform here)."""
+        k = np.asarray(self._k(f), dtype=float)
+        share = np.where(k > 0, (self.kc / np.where(k > 0, k, 1.0)) ** 2, 0.0)[()]
+        if self.family == "TE":
+            return 0.0 * share, share
+        if self.family == "TM":
+            return share, 0.0 * share
+        return 0.0 * share, 0.0 * share
+
+    @property
+    def cutoff_type(self):
+        """The family: a homogeneously filled guide's modes keep their field type at every frequency."""
+        return self.family
+
+    # the empty-guide mode a mode grows from: a homogeneous mode is one itself
+    parent = None
+    parent_share = math.nan
+    frequency = None  # solved for its cutoff; beta(f) is closed-form at any frequency
+
     # -- fields ----------------------------------------------------------------
     def fields(self, points):
         """Transverse mode vectors (e_x, e_y, h_x, h_y) at points (2, n), normalised as in the

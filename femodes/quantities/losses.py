@@ -369,7 +369,9 @@ def to_db(alpha):
 
 @dataclass(frozen=True)
 class Losses:
-    """Attenuation of one mode (Np/m unless stated; arrays like f)."""
+    """Attenuation of one mode (Np/m unless stated; arrays like f).  ``conductor_error``: the
+    estimated error of the wall loss where one is computed (loaded guides: see
+    :func:`loaded_conductor_attenuation_error`), else NaN (not estimated)."""
 
     f: object
     conductor: object
@@ -378,6 +380,7 @@ class Losses:
     surface_resistance: object
     skin_depth: object
     roughness_factor: object
+    conductor_error: object = math.nan
 
     @property
     def total_db(self):
@@ -393,7 +396,23 @@ class Losses:
 
 
 def losses(mode, f, conductivity=5.8e7, roughness=0.0, tan_delta=0.0):
-    """Conductor and dielectric attenuation with the wall data used (see the functions above)."""
+    """Conductor and dielectric attenuation with the wall data used (see the functions above).
+
+    A loaded-guide mode (:class:`~femodes.modes.LoadedMode`), at its own frequency: the wall loss
+    of :func:`loaded_conductor_attenuation` with its error, and the dielectric loss of the loss
+    tangents its fill and regions were solved with (``tan_delta`` here must then be 0: give the
+    fill's loss tangent to the solve)."""
+    if isinstance(mode, LoadedMode):
+        mode.beta(float(_freq(f)))
+        if tan_delta:
+            raise FemodesError("a loaded guide's dielectric loss comes from the tan_delta of its fill and regions "
+                               "given to the solve; pass tan_delta=0 here")
+        fa = float(mode.frequency)
+        c = loaded_conductor_attenuation(mode, conductivity, roughness)
+        d = float(mode.dielectric_attenuation()) if mode.propagates() else math.nan
+        return Losses(fa, c, d, c + d, float(surface_resistance(fa, conductivity)), float(skin_depth(fa, conductivity)),
+                      float(roughness_factor(fa, conductivity, roughness)),
+                      loaded_conductor_attenuation_error(mode, conductivity, roughness))
     fa = _freq(f)
     c = np.asarray(conductor_attenuation(mode, fa, conductivity, roughness))
     d = np.asarray(dielectric_attenuation(mode, fa, tan_delta))

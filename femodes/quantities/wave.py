@@ -12,6 +12,7 @@ import numpy as np
 
 from femodes.constants import C0
 from femodes.errors import FemodesError
+from femodes.modes.loaded import LoadedMode
 from femodes.quantities.common import (
     _beta,
     _field,
@@ -48,6 +49,9 @@ class WaveQuantities:
     wave_impedance   : E_t / H_t (ohm), purely imaginary below cutoff (reactive)
     group_delay      : 1 / v_g (s/m), inf at and below cutoff
     propagates       : True above cutoff
+    beta_error       : estimated error of beta (rad/m; of alpha below cutoff): for a homogeneous
+                       mode from its kc error, |d beta| = kc |d kc| / beta (so it grows without
+                       bound at cutoff, where beta -> 0); for a loaded mode its solve's estimate
     """
 
     f: object
@@ -59,6 +63,7 @@ class WaveQuantities:
     wave_impedance: object
     group_delay: object
     propagates: object
+    beta_error: object = math.nan
 
 
 def wave_quantities(mode, f):
@@ -66,7 +71,11 @@ def wave_quantities(mode, f):
 
     Homogeneous fill: k = omega sqrt(mu eps), beta = sqrt(k^2 - kc^2); below cutoff the field
     decays as exp(-alpha z) with alpha = sqrt(kc^2 - k^2).  v_p v_g = c0^2 / (eps_r mu_r).
+    A loaded-guide mode (:class:`~femodes.modes.LoadedMode`) gives its own solve's values at
+    the one frequency it was solved at (v_g by perturbation of its pencil).
     """
+    if isinstance(mode, LoadedMode):
+        return _loaded_wave_quantities(mode, f)
     fa = _freq(f)
     k = _k(mode, fa)
     d = k * k - mode.kc ** 2
@@ -91,9 +100,29 @@ def wave_quantities(mode, f):
         zw = gamma_b / (w * eps)
     if np.all(prop):
         zw = zw.real
+    gap = np.where(prop, beta, alpha)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        berr = np.where(gap > 0, mode.kc * mode.kc_error / np.where(gap > 0, gap, 1.0), np.inf)
+    if mode.family == "TEM":
+        berr = 0.0 * fa  # beta = k exactly: no cutoff to err on
     return WaveQuantities(f=_out(fa), beta=_out(beta), alpha=_out(alpha), guide_wavelength=_out(lam_g),
                           phase_velocity=_out(vp), group_velocity=_out(vg), wave_impedance=_out(zw),
-                          group_delay=_out(tau), propagates=bool(prop) if prop.ndim == 0 else prop)
+                          group_delay=_out(tau), propagates=bool(prop) if prop.ndim == 0 else prop,
+                          beta_error=_out(berr))
+
+
+def _loaded_wave_quantities(mode, f):
+    """WaveQuantities of a LoadedMode at its own frequency (any other frequency is refused by
+    LoadedMode.beta)."""
+    b = mode.beta(float(_freq(f)))
+    prop = mode.propagates()
+    vg = mode.group_velocity() if prop else 0.0
+    return WaveQuantities(f=mode.frequency, beta=float(b) if prop else 0.0,
+                          alpha=0.0 if prop else float(abs(b)), guide_wavelength=mode.guide_wavelength(),
+                          phase_velocity=mode.phase_velocity(), group_velocity=vg,
+                          wave_impedance=mode.wave_impedance(),
+                          group_delay=1.0 / vg if prop and vg > 0 else math.inf, propagates=prop,
+                          beta_error=float(mode.beta_error))
 
 
 @dataclass(frozen=True)
@@ -219,7 +248,21 @@ class FieldPhasors:
 def field_phasors(mode, f, points, power=1.0):
     """E and H phasors of ``mode`` at frequency ``f`` (Hz, above cutoff) at ``points`` (2, n) for a
     travelling wave carrying ``power`` watts: E_t = V e_t, H_t = (V / Z_w) h_t, V = sqrt(2 Z_w P),
-    and H_z (TE) or E_z (TM) from :func:`longitudinal_factor`.  NaN outside the cross-section."""
+    and H_z (TE) or E_z (TM) from :func:`longitudinal_factor`.  NaN outside the cross-section.
+
+    A loaded-guide mode: its full-vector fields (femodes.solvers.vector.VectorMode.fields)
+    scaled by sqrt(P / P_mode), P_mode = 1/2 Re int E_t x H_t* . z dA of the fields as solved;
+    E_t real, E_z and H_z in quadrature with it (``voltage`` is NaN: a hybrid mode has no
+    single voltage)."""
+    if isinstance(mode, LoadedMode):
+        P = _positive("power", power, "W")
+        mode.beta(float(_freq(f)))
+        if not mode.propagates():
+            raise FemodesError(f"{mode.label} does not propagate at {mode.frequency / 1e9:.6g} GHz: "
+                               "field_phasors() needs a propagating mode")
+        s = math.sqrt(P / mode.vector.power())
+        ex, ey, ez, hx, hy, hz = (s * np.asarray(c) for c in mode.fields(np.asarray(points, dtype=float)))
+        return FieldPhasors(ex, ey, ez, hx, hy, hz, math.nan, P)
     fa = _freq(f)
     if fa.ndim != 0:
         raise FemodesError("field_phasors() takes one frequency (Hz)")

@@ -11,8 +11,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes import quantities as Q
+from femodes.api import Study
 from femodes.errors import FemodesError
-from femodes.quantities.losses import loaded_conductor_attenuation, loaded_conductor_attenuation_error
+from femodes.modes import ModeSet
 
 #: units of the numbers in the "analysis" object of :func:`analysis_document`
 ANALYSIS_UNITS = {
@@ -21,7 +22,8 @@ ANALYSIS_UNITS = {
     "attenuation_np_per_m": "Np/m", "attenuation_db_per_m": "dB/m", "conductivity": "S/m", "roughness": "m (rms)",
     "surface_resistance": "ohm", "skin_depth": "m", "peak_field_per_sqrt_watt": "V/m per sqrt(W)",
     "peak_location": "m", "breakdown_field": "V/m", "breakdown_power": "W", "rated_power": "W",
-    "corner_exclusion": "m",
+    "corner_exclusion": "m", "beta_error": "rad/m", "effective_permittivity": "1 ((beta / k0)^2)",
+    "e_share": "1 (E_z share of the electric energy)", "h_share": "1 (H_z share of the magnetic energy)",
 }
 
 
@@ -138,18 +140,37 @@ def _voltage_cancels(mode, path, rel=1e-6):
     return total > 0 and abs(Q.path_voltage(mode, path)) < rel * total
 
 
-def analyse(modeset, settings, family=None) -> Analysis:
-    """The engineering quantities of ``modeset`` asked for by ``settings`` (a
+def as_study(result):
+    """A :class:`femodes.api.Study` of ``result``: a Study as it is, a ModeSet (what
+    :func:`femodes.solve` returns for a homogeneous guide) wrapped as one."""
+    if isinstance(result, Study):
+        return result
+    if isinstance(result, ModeSet):
+        section = result.section if result.section is not None else result.mesh
+        return Study(section, float(result.eps_r), float(result.mu_r), 0.0, float(result.accuracy), int(result.order),
+                     result, int(result.n_dofs), at_frequency=tuple(result), n_dofs_at_f=int(result.n_dofs),
+                     family=result.family)
+    raise FemodesError(f"expected the result of femodes.solve() or femodes.study(), got {type(result).__name__}")
+
+
+def analyse(result, settings, family=None) -> Analysis:
+    """The engineering quantities of a solve asked for by ``settings`` (a
     :class:`femodes.case.AnalysisSettings`): wave quantities of every mode, losses and power handling
     of the propagating ones and the characteristic impedances of the dominant (and any TEM) mode at
-    the table frequency, the single-mode and recommended bands, and the attenuation over the band.
+    the table frequency, the single-mode and recommended bands, and (homogeneous guides) the
+    attenuation over the band.  ``result``: a ModeSet or a :class:`femodes.api.Study` of either
+    kind of guide; a loaded guide's Study must have been solved at the table frequency.
 
     Power handling is computed at the table frequency only (it searches the field for its peak);
     over the band, the rated power of TE and TEM modes follows from it exactly, since their electric
     field is purely transverse and its peak per sqrt(W) scales as sqrt(Z_w):
     P(f) = P(f0) Z_w(f0) / Z_w(f).
     """
-
+    study = as_study(result)
+    if study.loaded:
+        return _analyse_loaded(study, settings)
+    modeset = study.modes
+    family = family if family is not None else study.family
     if not len(modeset):
         raise FemodesError("the mode set is empty: nothing to analyse")
     f = float(settings.table_frequency)
@@ -218,13 +239,36 @@ def analyse(modeset, settings, family=None) -> Analysis:
                     top_cutoff=top, cautions=tuple(Q.CAUTIONS))
 
 
+def _analyse_loaded(study, settings):
+    """:func:`analyse` for a loaded guide: the quantities of the modes solved at the frequency."""
+    f = float(settings.table_frequency)
+    if study.frequency is None or not math.isclose(study.frequency, f, rel_tol=1e-12):
+        raise FemodesError(f"the loaded guide was not solved at the analysis frequency {f / 1e9:.6g} GHz: "
+                           "pass the same frequency to femodes.study()")
+    sigma, rough = settings.conductivity, settings.roughness
+    rows = []
+    for m in study.at_frequency:
+        wq = Q.wave_quantities(m, f)
+        if not wq.propagates:
+            rows.append(ModeQuantities(m, wq))
+            continue
+        notes = []
+        ls = Q.losses(m, f, sigma, rough)
+        beta = float(wq.beta)
+        if beta > 0 and float(ls.total) / beta > PERTURBATION_LIMIT:
+            notes.append(f"loss is not small against beta (alpha / beta = {float(ls.total) / beta:.2g}): too close to "
+                         "cutoff for the power-loss method; the loss figure is not reliable")
+        z, ph = None, None  # LOADED-Z: impedance and power handling of loaded modes are being added
+        rows.append(ModeQuantities(m, wq, ls, z, None, ph, tuple(notes)))
+    band = None
+    cuts = study.modes
+    if len(cuts) >= 2:
+        f1, f2 = cuts[0].fc, cuts[1].fc
+        lo, hi = Q.RECOMMENDED_LOW * f1, Q.RECOMMENDED_HIGH * f2
+        band = Q.Band(f1, f2, f2 / f1, lo if lo < hi else None, hi if lo < hi else None, cuts[0].label, cuts[1].label)
+    return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=None, family=None,
+                    top_cutoff=math.nan, cautions=tuple(Q.CAUTIONS))
+
+
 def _mode_of(an, index):
     return next(q.mode for q in an.modes if q.mode.index == index)
-
-
-def _loaded_wall_loss(m, study):
-    """(alpha_c, its estimated error) Np/m of a loaded mode with the study's wall metal."""
-    if not m.propagating:
-        return math.nan, math.nan
-    kw = dict(conductivity=study.conductivity, roughness=study.roughness)
-    return loaded_conductor_attenuation(m, **kw), loaded_conductor_attenuation_error(m, **kw)

@@ -9,39 +9,60 @@ import math
 import numpy as np
 
 from femodes import quantities as Q
-from femodes.constants import __version__
-from femodes.report.analysis import ANALYSIS_UNITS, _loaded_wall_loss, _mode_of
+from femodes.constants import C0, __version__
+from femodes.report.analysis import ANALYSIS_UNITS, _mode_of, as_study
 from femodes.report.files import _write_text
 from femodes.report.text import _band, _clean, _finite, _num_list, _section_info
 
-#: units of the numbers in :func:`modes_document` and :func:`write_csv`
+#: units of the numbers in :func:`report_document` and :func:`write_csv`
 DOCUMENT_UNITS = {"length": "m", "angle": "rad", "kc": "rad/m", "kc_error": "rad/m", "fc": "Hz",
-         "fc_error": "Hz", "cutoff_wavelength": "m", "f_low": "Hz", "f_high": "Hz", "accuracy": "1 (relative, on kc)"}
+                  "fc_error": "Hz", "cutoff_wavelength": "m (in the fill; loaded guides: free space)",
+                  "f_low": "Hz", "f_high": "Hz", "frequencies": "Hz", "beta": "rad/m", "alpha": "Np/m",
+                  "beta_error": "rad/m",
+                  "accuracy": "1 (relative: on kc; loaded guides on fc, and at a frequency on beta^2 / "
+                              "(k0^2 eps_max mu_max))"}
 
 
 _ANGLE_PARAMS = {"angle"}
 
 
-def modes_document(modeset, title=None, analysis=None) -> dict:
-    """A JSON-ready dict of the solve, SI units (see the "units" entry); no NaN or infinity.
-    With an :class:`Analysis` it has an "analysis" object too (:func:`analysis_document`)."""
+def report_document(result, analysis=None, title=None) -> dict:
+    """A JSON-ready dict of a solve, one schema for every guide (SI units, see its "units"; no
+    NaN or infinity): "modes" (the lowest cutoffs, the same keys for homogeneous and loaded
+    guides: null where a key has no value for the kind), "single_mode_band", "analysis" (the
+    quantities at the analysis frequency, :func:`analysis_document`) when an :class:`Analysis` is
+    given, and "dispersion" (beta over the band) when the study has one.  ``result``: a ModeSet
+    or a :class:`femodes.api.Study`."""
 
-    band = _band(modeset)
+    study = as_study(result)
+    modes = study.modes
+    band = _band(modes)
+    mesh_triangles = getattr(getattr(modes, "mesh", None), "n_triangles", None)
+    regions = [] if not study.loaded else [
+        {"name": m.name or None, "eps_r": m.eps_r, "mu_r": m.mu_r, "tan_delta": m.tan_delta}
+        for m in study.section.materials]
     doc = {
         "femodes_version": __version__,
         "title": title,
         "units": dict(DOCUMENT_UNITS),
-        "section": _section_info(modeset),
-        "fill": {"eps_r": float(modeset.eps_r), "mu_r": float(modeset.mu_r)},
-        "accuracy": float(modeset.accuracy),
-        "discretisation": {"unknowns": int(modeset.n_dofs), "element_order": int(modeset.order),
-                           "triangles": int(modeset.mesh.n_triangles)},
+        "guide": "loaded" if study.loaded else "homogeneous",
+        "section": _section_info(study),
+        "fill": {"eps_r": float(study.eps_r), "mu_r": float(study.mu_r), "tan_delta": float(study.tan_delta)},
+        "regions": regions,
+        "accuracy": float(study.accuracy),
+        "discretisation": {"unknowns": int(study.n_dofs), "element_order": int(study.order),
+                           "triangles": None if mesh_triangles is None else int(mesh_triangles),
+                           "elements": ("Nedelec (transverse E) and Lagrange (E_z)" if study.loaded else
+                                        "Lagrange (longitudinal field)")},
         "single_mode_band": None if band is None else
         {"f_low": band[0], "f_high": band[1], "ratio": None if band[2] is None else _finite(band[2])},
         "modes": [{
             "index": m.index,
             "label": m.label,
             "family": m.family,
+            "cutoff_type": m.cutoff_type,
+            "parent": m.parent,
+            "parent_share": _finite(m.parent_share),
             "kc": _finite(m.kc),
             "kc_error": _finite(m.kc_error),
             "fc": _finite(m.fc),
@@ -52,11 +73,36 @@ def modes_document(modeset, title=None, analysis=None) -> dict:
             "symmetry": dict(m.symmetry),
             "nodal_domains": None if m.nodal_domains is None else int(m.nodal_domains),
             "indices": None if m.indices is None else [int(i) for i in m.indices],
-        } for m in modeset],
+        } for m in modes],
+        "analysis": None if analysis is None else analysis_document(analysis),
+        "dispersion": None if study.dispersion is None else dispersion_document(study.dispersion),
     }
-    if analysis is not None:
-        doc["analysis"] = analysis_document(analysis)
     return _clean(doc)
+
+
+def modes_document(result, title=None, analysis=None) -> dict:
+    """The JSON document of a solve: :func:`report_document` (the older argument order)."""
+    return report_document(result, analysis=analysis, title=title)
+
+
+def dispersion_document(disp) -> dict:
+    """The "dispersion" object: per followed mode, beta (rad/m; null where evanescent), alpha
+    (Np/m; null where propagating) and beta's error over the frequencies (Hz)."""
+    b = np.asarray(disp.beta, dtype=complex)
+    prop = (b.real > 0) & (np.abs(b.imag) <= 1e-12 * np.abs(b))
+    err = disp.beta_error
+    out = {"frequencies": _num_list(disp.frequencies),
+           "method": "closed form from each cutoff" if disp.overlap is None else "full-vector solves, tracked by "
+                                                                               "field overlap",
+           "modes": []}
+    for k in range(b.shape[1]):
+        out["modes"].append({
+            "label": disp.labels[k] or None, "family": disp.family[k],
+            "beta": [_finite(v.real) if p else None for v, p in zip(b[:, k], prop[:, k])],
+            "alpha": [None if p else _finite(abs(v)) for v, p in zip(b[:, k], prop[:, k])],
+            "beta_error": None if err is None else _num_list(err[:, k]),
+            "overlap": None if disp.overlap is None else _num_list(disp.overlap[:, k])})
+    return out
 
 
 def write_json(document, path):
@@ -76,8 +122,14 @@ def analysis_document(an) -> dict:
     for q in an.modes:
         m, w = q.mode, q.waves
         zw = complex(w.wave_impedance)
-        d = {"index": m.index, "label": m.label, "family": m.family, "propagates": q.propagates,
-             "beta": _finite(w.beta), "alpha": _finite(w.alpha), "guide_wavelength": _finite(w.guide_wavelength),
+        e_sh, h_sh = m.longitudinal_shares(f) if q.propagates else (None, None)
+        k0 = 2 * math.pi * f / C0
+        d = {"index": m.index, "label": m.label, "family": m.family, "parent": m.parent,
+             "parent_share": _finite(m.parent_share), "propagates": q.propagates,
+             "beta": _finite(w.beta), "beta_error": _finite(w.beta_error), "alpha": _finite(w.alpha),
+             "effective_permittivity": _finite((float(w.beta) / k0) ** 2) if q.propagates else None,
+             "e_share": _finite(e_sh), "h_share": _finite(h_sh),
+             "guide_wavelength": _finite(w.guide_wavelength),
              "phase_velocity": _finite(w.phase_velocity), "group_velocity": _finite(w.group_velocity),
              "wave_impedance": {"real": _finite(zw.real + 0.0), "imag": _finite(zw.imag + 0.0)},
              "impedances": None if q.impedances is None else {k: (None if v is None else _finite(v))
@@ -87,8 +139,9 @@ def analysis_document(an) -> dict:
              "notes": list(q.notes)}
         if q.losses is not None:
             ls = q.losses
-            d["attenuation_np_per_m"] = {"conductor": _finite(ls.conductor), "dielectric": _finite(ls.dielectric),
-                                         "total": _finite(ls.total)}
+            d["attenuation_np_per_m"] = {"conductor": _finite(ls.conductor),
+                                         "conductor_error": _finite(ls.conductor_error),
+                                         "dielectric": _finite(ls.dielectric), "total": _finite(ls.total)}
             d["attenuation_db_per_m"] = {"conductor": _finite(ls.conductor_db), "dielectric": _finite(ls.dielectric_db),
                                          "total": _finite(ls.total_db)}
         if q.power is not None:
@@ -155,63 +208,4 @@ def analysis_document(an) -> dict:
         "warnings": list(an.warnings),
         "cautions": list(an.cautions),
     }
-    return _clean(doc)
-
-
-#: units of the numbers in :func:`loaded_document` (SI)
-LOADED_UNITS = {"length": "m", "fc": "Hz", "fc_error": "Hz", "frequency": "Hz", "beta": "rad/m",
-                "beta_error": "rad/m", "guide_wavelength": "m", "alpha_dielectric": "Np/m",
-                "alpha_conductor": "Np/m", "alpha_conductor_error": "Np/m", "conductivity": "S/m", "roughness": "m",
-                "phase_velocity": "1 (v_p / c0)", "group_velocity": "1 (v_g / c0)",
-                "effective_permittivity": "1 ((beta / k0)^2)",
-                "accuracy": "1 (relative: on beta^2 / (k0^2 eps_max mu_max) at a frequency, on fc for cutoffs)"}
-
-
-def loaded_document(study, title=None) -> dict:
-    """A JSON-ready dict of a :class:`femodes.loaded.LoadedStudy` (SI units, no NaN)."""
-
-    sec = study.section
-    doc = {
-        "femodes_version": __version__, "title": title, "units": dict(LOADED_UNITS),
-        "section": {"kind": sec.kind, "description": sec.describe(),
-                    "params": {k: float(v) for k, v in sec.params.items()
-                               if isinstance(v, (int, float)) and not isinstance(v, bool)}},
-        "fill": {"eps_r": study.eps_r, "mu_r": study.mu_r, "tan_delta": study.tan_delta},
-        "regions": [{"name": m.name or None, "eps_r": m.eps_r, "mu_r": m.mu_r, "tan_delta": m.tan_delta}
-                    for m in sec.materials],
-        "accuracy": study.accuracy,
-        "discretisation": {"unknowns": int(study.n_dofs), "element_order": int(study.order),
-                           "elements": "Nedelec (transverse E) and Lagrange (E_z)"},
-        "walls": {"conductor": study.conductor, "conductivity": _finite(study.conductivity),
-                  "roughness": _finite(study.roughness)},
-        "cutoffs": [{"index": c.index, "label": c.label, "field": c.field, "fc": c.fc, "fc_error": c.fc_error,
-                     "parent": c.parent, "parent_share": _finite(c.parent_share)} for c in study.cutoffs],
-        "single_mode_band": None if study.single_mode_band is None else
-        {"f_low": study.single_mode_band[0], "f_high": study.single_mode_band[1]},
-    }
-    if study.frequency is not None:
-        doc["at_frequency"] = {"frequency": study.frequency, "unknowns": int(study.n_dofs_at_f),
-                               "more_may_propagate": bool(study.more_propagate), "modes": [{
-                                   "index": m.index, "label": m.label, "family": m.family, "parent": m.parent,
-                                   "parent_share": _finite(m.parent_share),
-                                   "beta": _finite(m.beta().real) if m.propagating else None,
-                                   "alpha": None if m.propagating else _finite(abs(m.beta())),
-                                   "beta_error": _finite(m.beta_error),
-                                   "guide_wavelength": _finite(m.guide_wavelength()),
-                                   "effective_permittivity": _finite(m.effective_permittivity),
-                                   "phase_velocity": _finite(m.phase_velocity()),
-                                   "group_velocity": _finite(m.group_velocity()),
-                                   "alpha_dielectric": _finite(m.dielectric_attenuation()),
-                                   "alpha_conductor": _finite(ac), "alpha_conductor_error": _finite(ac_err),
-                                   "e_share": _finite(m.e_share), "h_share": _finite(m.h_share)}
-                                   for m in study.modes for ac, ac_err in (_loaded_wall_loss(m, study),)]}
-    d = study.dispersion
-    if d is not None:
-        b2 = np.asarray(d.beta2, dtype=float)
-        doc["dispersion"] = {"frequencies": [float(f) for f in d.frequencies],
-                             "labels": [l or None for l in d.labels] or None,
-                             "beta": [[_finite(math.sqrt(v)) if v > 0 else None for v in row] for row in b2],
-                             "beta_squared": [[float(v) for v in row] for row in b2],
-                             "family": [[str(f) for f in row] for row in d.family],
-                             "overlap": [[float(v) for v in row] for row in d.overlap]}
     return _clean(doc)

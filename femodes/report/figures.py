@@ -1169,3 +1169,4 @@ def loaded_field_pattern(mode, path=None, *, section=None, arrows=True, density=
     if path is not None:
         _save(fig, path, dpi=dpi)
     return fig
+

@@ -4,66 +4,190 @@
 from __future__ import annotations
 
 import csv
+import io
 import math
+from pathlib import Path
 
+import meshio
 import numpy as np
 
+from femodes import quantities as Q
+from femodes.constants import C0
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import triangle_regions
-from femodes.report.analysis import _loaded_wall_loss
+from femodes.report.analysis import as_study
 from femodes.report.figures import safe_name
+from femodes.solvers.fields import _transverse
 
-CSV_COLUMNS = ("index", "label", "family", "fc_Hz", "fc_error_Hz", "kc_rad_per_m", "kc_error_rad_per_m",
-               "cutoff_wavelength_m", "degenerate_with", "symmetry", "nodal_domains")
+CSV_COLUMNS = ("index", "label", "family", "cutoff_type", "parent", "fc_Hz", "fc_error_Hz", "kc_rad_per_m",
+               "kc_error_rad_per_m", "cutoff_wavelength_m", "degenerate_with", "symmetry", "nodal_domains")
+
+#: columns of the quantities at the analysis frequency (``<name>.at_frequency.csv``)
+AT_FREQUENCY_COLUMNS = ("index", "label", "family", "parent", "frequency_Hz", "propagates", "beta_rad_per_m",
+                        "beta_error_rad_per_m", "alpha_Np_per_m", "guide_wavelength_m", "phase_velocity_m_per_s",
+                        "group_velocity_m_per_s", "wave_impedance_ohm", "effective_permittivity", "e_share",
+                        "h_share", "alpha_conductor_Np_per_m", "alpha_conductor_error_Np_per_m",
+                        "alpha_dielectric_Np_per_m", "alpha_total_Np_per_m", "Z_PV_ohm", "Z_PI_ohm", "Z_VI_ohm",
+                        "peak_E_per_sqrt_W_V_per_m", "breakdown_power_W", "rated_power_W")
+
+#: columns of the dispersion over the band (``<name>.dispersion.csv``): one row per frequency and mode
+DISPERSION_COLUMNS = ("frequency_Hz", "mode", "label", "family", "beta_rad_per_m", "alpha_Np_per_m",
+                      "beta_error_rad_per_m")
 
 
-def write_csv(modeset, path):
-    """One row per mode, SI units named in the header; ``index`` and ``degenerate_with`` are
-    0-based positions (space-separated), ``symmetry`` like ``x=odd;y=even``."""
-    def num(x):
-        return "" if not math.isfinite(x) else repr(float(x))
+def _num(x):
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return ""
+    return "" if not math.isfinite(x) else repr(x)
 
+
+def _sibling(path, part):
+    """``modes.csv`` -> ``modes.<part>.csv`` beside it."""
+    p = Path(path)
+    return str(p.with_name(f"{p.stem}.{part}{p.suffix or '.csv'}"))
+
+
+def write_csv(result, path, analysis=None):
+    """The report as CSV tables, SI units named in each header, the same for every guide:
+    ``path`` has one row per mode of the lowest cutoffs (:data:`CSV_COLUMNS`; ``index`` and
+    ``degenerate_with`` are 0-based positions, space-separated; ``symmetry`` like
+    ``x=odd;y=even``; empty where a value does not exist for the kind of guide); with an
+    :class:`Analysis`, ``<name>.at_frequency.csv`` has the quantities at its frequency
+    (:data:`AT_FREQUENCY_COLUMNS`); with a band, ``<name>.dispersion.csv`` has beta of each
+    followed mode at each frequency (:data:`DISPERSION_COLUMNS`).  Returns the paths written."""
+    study = as_study(result)
     rows = [CSV_COLUMNS]
-    for m in modeset:
-        rows.append((m.index, m.label, m.family, num(m.fc), num(m.fc_error), num(m.kc), num(m.kc_error),
-                     num(m.cutoff_wavelength), " ".join(str(i) for i in m.degenerate_with),
+    for m in study.modes:
+        rows.append((m.index, m.label, m.family, m.cutoff_type, m.parent or "", _num(m.fc), _num(m.fc_error),
+                     _num(m.kc), _num(m.kc_error), _num(m.cutoff_wavelength),
+                     " ".join(str(i) for i in m.degenerate_with),
                      ";".join(f"{k}={v}" for k, v in sorted(m.symmetry.items())),
                      "" if m.nodal_domains is None else m.nodal_domains))
-    try:
-        with open(path, "w", newline="", encoding="utf-8") as fh:
-            csv.writer(fh).writerows(rows)
-    except OSError as exc:
-        raise FemodesError(f"cannot write CSV file {path}: {exc.strerror or exc}") from None
+    written = [_write_rows(path, rows)]
+    if analysis is not None:
+        f = analysis.frequency
+        k0 = 2 * math.pi * f / C0
+        rows = [AT_FREQUENCY_COLUMNS]
+        for q in analysis.modes:
+            m, w, ls, z, ph = q.mode, q.waves, q.losses, q.impedances or {}, q.power
+            e_sh, h_sh = m.longitudinal_shares(f) if q.propagates else (math.nan, math.nan)
+            rows.append((m.index, m.label, m.family, m.parent or "", _num(f), int(bool(q.propagates)), _num(w.beta),
+                         _num(w.beta_error), _num(w.alpha), _num(w.guide_wavelength), _num(w.phase_velocity),
+                         _num(w.group_velocity), _num(np.real(w.wave_impedance)) if q.propagates else "",
+                         _num((float(w.beta) / k0) ** 2) if q.propagates else "", _num(e_sh), _num(h_sh),
+                         *((_num(ls.conductor), _num(ls.conductor_error), _num(ls.dielectric), _num(ls.total))
+                           if ls is not None else ("",) * 4),
+                         *(_num(z.get(k)) for k in ("PV", "PI", "VI")),
+                         *((_num(ph.peak_field_per_sqrt_watt), _num(ph.breakdown_power), _num(ph.rated_power))
+                           if ph is not None else ("",) * 3)))
+        written.append(_write_rows(_sibling(path, "at_frequency"), rows))
+    disp = study.dispersion
+    if disp is not None:
+        b = np.asarray(disp.beta, dtype=complex)
+        prop = (b.real > 0) & (np.abs(b.imag) <= 1e-12 * np.abs(b))
+        rows = [DISPERSION_COLUMNS]
+        for i, f in enumerate(disp.frequencies):
+            for k in range(b.shape[1]):
+                rows.append((_num(f), k + 1, disp.labels[k], disp.family[k], _num(b[i, k].real) if prop[i, k] else "",
+                             "" if prop[i, k] else _num(abs(b[i, k])),
+                             "" if disp.beta_error is None else _num(disp.beta_error[i, k])))
+        written.append(_write_rows(_sibling(path, "dispersion"), rows))
+    return written
+
+
+def _write_rows(path, rows):
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerows(rows)
+    _write_text(path, buf.getvalue(), "CSV")
     return str(path)
 
 
-def write_fields(modeset, path):
-    """Write the mesh with each mode's fields as point data through meshio (format from the file
-    name: .vtu for ParaView, .xdmf, .msh, ...).  Per mode, at the mesh vertices (SI units,
-    normalisation of :mod:`femodes.modes`: int psi^2 dA = 1, int |e_t|^2 dA = 1):
-    ``NN_label_psi`` (E_z for TM, H_z for TE, potential for TEM), ``NN_label_E`` (the vector e_t,
-    z component 0) and ``NN_label_absE``.  Returns the path."""
-    import meshio
+def write_fields(result, path, subdivisions=None, frequency=None):
+    """Write each mode's fields through meshio (format from the file name: .vtu for ParaView,
+    .xdmf, ...), the same for every guide.  The mesh is written element by element, each element
+    cut into ``subdivisions``^2 triangles with points of their own (default: the element order,
+    so the points are the element's own interpolation nodes and a high-order field is not thrown
+    away; the jump of normal E across material interfaces is kept too).
 
-
-    mesh = modeset.mesh
-    pts = mesh.points
-    data = {}
-    for m in modeset:
-        if m.potential is None:
-            continue
-        key = f"{m.index + 1:02d}_{safe_name(m.label)}"
-        psi = m.longitudinal(pts)
-        ex, ey, _, _ = m.fields(pts)
-        data[key + "_psi"] = np.nan_to_num(psi)
-        data[key + "_E"] = np.nan_to_num(np.column_stack([ex, ey, np.zeros_like(ex)]))
-        data[key + "_absE"] = np.nan_to_num(np.hypot(ex, ey))
-    xyz = np.column_stack([pts[0], pts[1], np.zeros(pts.shape[1])])
+    At a frequency (``frequency``, else the study's): the propagating modes carrying 1 W, SI
+    units: point data ``NN_label_Et`` and ``_Ht`` (transverse E in V/m and H in A/m, real; z
+    component 0), ``_Ez`` and ``_Hz`` (the longitudinal fields, in quadrature with the
+    transverse ones: their imaginary part is written), ``_absE`` = |E|.  Without a frequency (a
+    homogeneous guide solved for its cutoffs): the normalised mode vectors of
+    :mod:`femodes.modes.model` (int psi^2 dA = 1, int |e_t|^2 dA = 1, units 1/m): ``_psi`` (E_z
+    for TM, H_z for TE, the potential for TEM), ``_E`` (e_t), ``_H`` (h_t = z x e_t), ``_absE``.
+    Cell data: ``region`` (0 the fill, i the i-th region) and ``eps_r``.  Returns the path."""
+    study = as_study(result)
+    f = frequency if frequency is not None else study.frequency
+    if study.loaded:
+        if f is None or not any(m.propagates() for m in study.at_frequency):
+            raise FemodesError("--fields writes a loaded guide's modes at a frequency: give [analysis] frequency "
+                               "(at which at least one mode propagates) in the case file")
+        modes = [m for m in study.at_frequency if m.propagates()]
+        prob = modes[0].vector.problem
+        s = int(subdivisions or study.order)
+        data, tri, xy = {}, None, None
+        for m in modes:
+            x, y, tri, F = prob.sample(m.vector, s)
+            xy = (x, y)
+            _put_phasors(data, m, F * math.sqrt(1.0 / m.vector.power()))
+        per_element = tri.shape[0] // prob.mesh.t.shape[1]
+        regions = np.repeat(triangle_regions(study.section, prob.mesh.p, prob.mesh.t[:3]), per_element)
+        eps = np.repeat(prob.eps_r, per_element)
+    else:
+        modes = [m for m in study.modes if m.potential is not None]
+        s = int(subdivisions or study.order)
+        data, tri, xy = {}, None, None
+        for m in modes:
+            x, y, tri, psi, gx, gy = m.potential.sample(s)
+            xy = (x, y)
+            if f is None:
+                key = f"{m.index + 1:02d}_{safe_name(m.label)}"
+                ex, ey, hx, hy = _transverse(m.family, m.kc, m.potential, gx, gy)
+                zero = np.zeros_like(x)
+                data[key + "_psi"] = psi
+                data[key + "_E"] = np.column_stack([ex, ey, zero])
+                data[key + "_H"] = np.column_stack([hx, hy, zero])
+                data[key + "_absE"] = np.hypot(ex, ey)
+            elif m.family == "TEM" or m.propagates(f):
+                _put_phasors(data, m, _homogeneous_phasors(m, f, psi, gx, gy))
+        if f is not None and not data:
+            raise FemodesError(f"no mode propagates at {f / 1e9:.6g} GHz: nothing to write to the field file")
+        n_cells = tri.shape[0]
+        regions = np.zeros(n_cells, dtype=int)
+        eps = np.full(n_cells, float(study.eps_r))
+    xyz = np.column_stack([xy[0], xy[1], np.zeros_like(xy[0])])
     try:
-        meshio.write(str(path), meshio.Mesh(xyz, [("triangle", mesh.triangles.T)], point_data=data))
+        meshio.write(str(path), meshio.Mesh(xyz, [("triangle", tri)], point_data=data,
+                                            cell_data={"region": [regions], "eps_r": [eps]}))
     except Exception as exc:  # meshio raises its own types for unknown formats
-        raise FemodesError(f"cannot write field file {path}: {exc}; use a name ending in .vtu, .xdmf or .msh") from None
+        raise FemodesError(f"cannot write field file {path}: {exc}; use a name ending in .vtu or .xdmf") from None
     return str(path)
+
+
+def _homogeneous_phasors(mode, f, psi, gx, gy):
+    """(E_x, E_y, E_z, H_x, H_y, H_z) of a homogeneous mode carrying 1 W at f, from psi and its
+    gradient (the relations of femodes.quantities.field_phasors)."""
+    zw = float(np.real(Q.wave_quantities(mode, f).wave_impedance))
+    V = math.sqrt(2 * zw)
+    ex, ey, hx, hy = _transverse(mode.family, mode.kc, mode.potential, gx, gy)
+    c = complex(Q.longitudinal_factor(mode, f)) if mode.family != "TEM" else 0j
+    zero = np.zeros_like(psi) + 0j
+    ez = c * V * psi if mode.family == "TM" else zero
+    hz = c * V * psi if mode.family == "TE" else zero
+    return np.array([V * ex, V * ey, ez, V / zw * hx, V / zw * hy, hz], dtype=complex)
+
+
+def _put_phasors(data, mode, F):
+    key = f"{mode.index + 1:02d}_{safe_name(mode.label)}"
+    zero = np.zeros(F.shape[1])
+    data[key + "_Et"] = np.column_stack([F[0].real, F[1].real, zero])
+    data[key + "_Ez"] = F[2].imag
+    data[key + "_Ht"] = np.column_stack([F[3].real, F[4].real, zero])
+    data[key + "_Hz"] = F[5].imag
+    data[key + "_absE"] = np.sqrt(np.abs(F[0]) ** 2 + np.abs(F[1]) ** 2 + np.abs(F[2]) ** 2)
 
 
 def _write_text(path, text, what):
@@ -72,72 +196,3 @@ def _write_text(path, text, what):
             fh.write(text)
     except OSError as exc:
         raise FemodesError(f"cannot write {what} file {path}: {exc.strerror or exc}") from None
-
-
-def write_loaded_csv(study, path):
-    """The modes at the frequency (or, without one, the cutoffs) of a loaded study as CSV (SI)."""
-    import io
-
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    if study.frequency is not None:
-        w.writerow(["index", "label", "family", "frequency_Hz", "beta_rad_per_m", "beta_error_rad_per_m",
-                    "guide_wavelength_m", "effective_permittivity", "vp_over_c", "vg_over_c", "e_share",
-                    "h_share", "alpha_dielectric_Np_per_m", "alpha_conductor_Np_per_m",
-                    "alpha_conductor_error_Np_per_m"])
-        for m in study.modes:
-            if not m.propagating:
-                continue
-            w.writerow([m.index, m.label, m.family, repr(study.frequency), repr(float(m.beta())),
-                        repr(m.beta_error), repr(m.guide_wavelength()), repr(m.effective_permittivity),
-                        repr(m.phase_velocity()), repr(m.group_velocity()), repr(m.e_share), repr(m.h_share),
-                        repr(m.dielectric_attenuation())] + [repr(v) for v in _loaded_wall_loss(m, study)])
-    else:
-        w.writerow(["index", "label", "field_at_cutoff", "fc_Hz", "fc_error_Hz"])
-        for c in study.cutoffs:
-            w.writerow([c.index, c.label, c.field, repr(c.fc), repr(c.fc_error)])
-    _write_text(path, buf.getvalue(), "CSV")
-    return str(path)
-
-
-def write_loaded_fields(study, path, subdivisions=2):
-    """The modes at the frequency of a loaded study as a field file through meshio (format from
-    the file name: .vtu for ParaView, .xdmf, ...).  The mesh is written element by element, each
-    element cut into ``subdivisions``^2 triangles with points of its own, so that the jump of the
-    normal E across material interfaces is kept (vertices on an interface appear once per side).
-
-    Point data per propagating mode ``NN_label`` (SI, the normalisation of
-    femodes.vector.VectorMode: int (|E_t|^2 + |E_z|^2) dA = 1, units 1/m for E, A/(V m) x 1/m for
-    H): ``_Et`` and ``_Ht`` the transverse fields (z component 0), ``_Ez`` and ``_Hz`` the
-    longitudinal ones (which are in quadrature with the transverse: their imaginary part is
-    written, the real part is zero), ``_absE`` = |E|.  Cell data: ``region`` (0 the fill, i the
-    i-th region) and ``eps_r``.  Returns the path."""
-    import meshio
-
-
-    if study.frequency is None or not any(m.propagating for m in study.modes):
-        raise FemodesError("--fields writes the modes at a frequency: give [analysis] frequency (at which "
-                           "at least one mode propagates) in the case file")
-    modes = [m for m in study.modes if m.propagating]
-    prob = modes[0].vector.problem
-    data, tri, xy = {}, None, None
-    for m in modes:
-        x, y, t, F = prob.sample(m.vector, subdivisions)
-        tri, xy = t, (x, y)
-        key = f"{m.index + 1:02d}_{safe_name(m.label)}"
-        zero = np.zeros_like(x)
-        data[key + "_Et"] = np.column_stack([F[0].real, F[1].real, zero])
-        data[key + "_Ez"] = F[2].imag
-        data[key + "_Ht"] = np.column_stack([F[3].real, F[4].real, zero])
-        data[key + "_Hz"] = F[5].imag
-        data[key + "_absE"] = np.sqrt(np.abs(F[0]) ** 2 + np.abs(F[1]) ** 2 + np.abs(F[2]) ** 2)
-    per_element = tri.shape[0] // prob.mesh.t.shape[1]
-    regions = np.repeat(triangle_regions(study.section, prob.mesh.p, prob.mesh.t[:3]), per_element)
-    eps = np.repeat(prob.eps_r, per_element)
-    xyz = np.column_stack([xy[0], xy[1], np.zeros_like(xy[0])])
-    try:
-        meshio.write(str(path), meshio.Mesh(xyz, [("triangle", tri)], point_data=data,
-                                            cell_data={"region": [regions], "eps_r": [eps]}))
-    except Exception as exc:  # meshio raises its own types for unknown formats
-        raise FemodesError(f"cannot write field file {path}: {exc}; use a name ending in .vtu or .xdmf") from None
-    return str(path)

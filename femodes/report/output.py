@@ -5,9 +5,11 @@ from __future__ import annotations
 
 import importlib.util
 import os
+from pathlib import Path
 
 from femodes.errors import FemodesError
 from femodes.report import figures
+from femodes.report.analysis import as_study
 
 
 def _figures_module(output):
@@ -27,16 +29,22 @@ def check_figures(output):
         _figures_module(output)
 
 
-def write_figures(modeset, output, analysis=None):
-    """Write the figures asked for in ``output`` (a :class:`femodes.case.OutputSettings`);
-    returns the paths written.  Raises FemodesError if figure support is not installed.
+def write_figures(result, output, analysis=None):
+    """Write the figures asked for in ``output`` (a :class:`femodes.case.OutputSettings`) for a
+    ModeSet or a :class:`femodes.api.Study` of either kind of guide; returns the paths written.
+    Raises FemodesError if figure support is not installed.
 
-    ``analysis`` (an :class:`Analysis`) feeds the "attenuation" figure (its band, conductor,
-    roughness and fill loss; needed for that figure) and marks its band and frequency on the
-    "band" figure."""
+    Homogeneous guides: "fields" (field patterns), "chart" (mode chart), "attenuation" and
+    "band"; ``analysis`` (an :class:`Analysis`) feeds the "attenuation" figure (its band,
+    conductor, roughness and fill loss; needed for that figure) and marks its band and frequency
+    on the "band" figure.  Loaded guides: "fields" (the modes at the frequency) and "dispersion"."""
     if not output.figures:
         return []
     figures = _figures_module(output)
+    study = as_study(result)
+    if study.loaded:
+        return _loaded_figures(figures, study, output)
+    modeset = study.modes
     directory = output.directory
     try:
         os.makedirs(directory, exist_ok=True)
@@ -67,19 +75,17 @@ def write_figures(modeset, output, analysis=None):
     return paths
 
 
-def write_loaded_figures(study, output):
-    """The figures of [output] for a loaded study: field patterns of the modes at the frequency
-    ("fields") and the dispersion chart ("dispersion").  Returns the written paths."""
-    if not output.figures:
-        return []
-    figs = _figures_module(output)
-    from pathlib import Path
-
+def _loaded_figures(figs, study, output):
+    """Field patterns of a loaded study's modes at the frequency ("fields") and its dispersion
+    chart ("dispersion")."""
     d = Path(output.directory)
-    d.mkdir(parents=True, exist_ok=True)
+    try:
+        d.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise FemodesError(f"cannot create the figure directory {d}: {exc.strerror or exc}") from None
     out = []
     if "fields" in output.figures and study.frequency is not None:
-        prop = [m for m in study.modes if m.propagating]
+        prop = [m for m in study.at_frequency if m.propagates()]
         n = len(prop) if output.field_count is None else min(output.field_count, len(prop))
         for m in prop[:n]:
             p = d / f"mode{m.index + 1:02d}_{figs.safe_name(m.label)}.{output.format}"
@@ -87,10 +93,7 @@ def write_loaded_figures(study, output):
             out.append(str(p))
     if "dispersion" in output.figures and study.dispersion is not None:
         p = d / f"dispersion.{output.format}"
-        figs.dispersion_chart(study.dispersion, p, section=study.section, eps_r=study.eps_r, mu_r=study.mu_r,
-                              empty=study.empty_modes)
+        figs.dispersion_chart(study.dispersion.solved, p, section=study.section, eps_r=study.eps_r,
+                              mu_r=study.mu_r, empty=study.empty_modes)
         out.append(str(p))
-    import matplotlib.pyplot as plt
-
-    plt.close("all")
     return out

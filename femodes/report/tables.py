@@ -9,7 +9,7 @@ import numpy as np
 
 from femodes.constants import C0, __version__
 from femodes.quantities import NP_TO_DB
-from femodes.report.analysis import PERTURBATION_LIMIT, _loaded_wall_loss, _mode_of
+from femodes.report.analysis import PERTURBATION_LIMIT, _mode_of, as_study
 from femodes.report.text import (
     _band,
     _degenerate_text,
@@ -29,48 +29,56 @@ from femodes.report.text import (
 )
 
 
-def modes_table(modeset, title=None, family=None) -> str:
-    """The modes as a fixed-width text table in GHz and mm, with header lines and the single-mode
-    band.  ``family`` ('TE' or 'TM') notes that only one family was solved for."""
+def modes_table(result, title=None, family=None) -> str:
+    """The lowest cutoffs as a fixed-width text table in GHz and mm, with header lines and the
+    single-mode band, for a ModeSet or a :class:`femodes.api.Study` of either kind of guide.
+    ``family`` ('TE' or 'TM') notes that only one family was solved for."""
 
+    study = as_study(result)
+    family = family if family is not None else study.family
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else "")]
-    sec = _section_info(modeset)
+    sec = _section_info(study)
     lines.append(f"section: {sec['description']}")
     if "frame" in sec:
         fr = sec["frame"]
         lines.append(f"placed: own origin at ({fr['x0'] * 1e3:.6g}, {fr['y0'] * 1e3:.6g}) mm, "
                      f"own x axis at {math.degrees(fr['angle']):.6g} deg")
-    lines.append(f"fill: eps_r = {modeset.eps_r:g}, mu_r = {modeset.mu_r:g}")
-    lines.append(f"accuracy asked: {modeset.accuracy:.1e} (relative, on kc); unknowns: {modeset.n_dofs} "
-                 f"(element order {modeset.order})" + (f"; {family} modes only" if family else ""))
+    fill = f"fill: eps_r = {study.eps_r:g}, mu_r = {study.mu_r:g}"
+    if study.loaded:
+        fill += (f", tan_delta = {study.tan_delta:.3g}" if study.tan_delta else "") + f"; regions: {_regions_text(study)}"
+        lines += [fill, f"full-vector solve (edge elements of order {study.order}); accuracy asked: "
+                  f"{study.accuracy:.1e} (relative, on fc); unknowns: {study.n_dofs}"]
+    else:
+        lines += [fill, f"accuracy asked: {study.accuracy:.1e} (relative, on kc); unknowns: {study.n_dofs} "
+                  f"(element order {study.order})" + (f"; {family} modes only" if family else "")]
     lines.append("")
 
-    head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
-            "degenerate with", "symmetry", "nodal regions"]
-    right = {0, 3, 4, 5, 6, 9}
+    modes = study.modes
+    if study.loaded:
+        lines.append("cutoffs (beta = 0) of the loaded guide:")
+        head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"]
+        right = {0, 3, 4, 5}
+    else:
+        head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
+                "degenerate with", "symmetry", "nodal regions"]
+        right = {0, 3, 4, 5, 6, 9}
     rows = []
-    for m in modeset:
+    for m in modes:
         sig = _sig_digits(m.fc, m.fc_error)
         wl = m.cutoff_wavelength
-        rows.append([
-            str(m.index + 1), m.label, m.family, format_ghz(m.fc, m.fc_error), _err_text(m.fc_error),
-            _significant(wl * 1e3, sig) if math.isfinite(wl) else "-",
-            _significant(m.kc, sig) if m.kc > 0 else "0",
-            _degenerate_text(m),
-            _symmetry_text(m.symmetry),
-            "-" if m.nodal_domains is None else str(m.nodal_domains),
-        ])
-    widths = [max(len(r[j]) for r in rows + [head]) for j in range(len(head))]
-
-    def fmt(r):
-        cells = [c.rjust(w) if j in right else c.ljust(w) for j, (c, w) in enumerate(zip(r, widths))]
-        return "  ".join(cells).rstrip()
-
-    lines.append(fmt(head))
-    lines.append("  ".join("-" * w for w in widths))
-    lines.extend(fmt(r) for r in rows)
+        row = [str(m.index + 1), m.label, m.family, format_ghz(m.fc, m.fc_error), _err_text(m.fc_error),
+               _significant(wl * 1e3, sig) if math.isfinite(wl) else "-"]
+        if not study.loaded:
+            row += [_significant(m.kc, sig) if m.kc > 0 else "0", _degenerate_text(m), _symmetry_text(m.symmetry),
+                    "-" if m.nodal_domains is None else str(m.nodal_domains)]
+        rows.append(row)
+    lines += _grid(head, rows, right)
+    if study.loaded:
+        lines += _wrap("(label: TE-type has only transverse E at cutoff, TM-type only E_z; 'from': the "
+                       "empty-guide mode whose field at cutoff it mostly has; cutoff wl: the free-space "
+                       "wavelength at cutoff.  Above cutoff the modes are hybrid in general.)", "  ", "  ")
     lines.append("")
-    band = _band(modeset)
+    band = _band(modes)
     only = f" (among {family} modes only)" if family else ""
     if band is None:
         lines.append("single-mode band: needs at least two distinct cutoffs; solve for more modes")
@@ -86,6 +94,43 @@ def modes_table(modeset, title=None, family=None) -> str:
     return "\n".join(lines) + "\n"
 
 
+def report_table(result, analysis=None, title=None, family=None) -> str:
+    """The whole text report of a solve, the same for every guide: the cutoffs
+    (:func:`modes_table`), the quantities at the analysis frequency (:func:`analysis_table`) and
+    the dispersion over the band (:func:`dispersion_table`) where they were asked for."""
+    study = as_study(result)
+    text = modes_table(study, title=title, family=family)
+    if analysis is not None:
+        text += "\n" + analysis_table(analysis, study)
+    elif study.loaded and study.frequency is not None:
+        text += "\n" + f"at f = {_f_ghz(study.frequency)} GHz: give an [analysis] table for the quantities\n"
+    if study.dispersion is not None:
+        text += "\n" + dispersion_table(study)
+    return text
+
+
+def dispersion_table(study) -> str:
+    """A few rows of the dispersion over the band: beta (rad/m) of each followed mode."""
+    disp = study.dispersion
+    fs = disp.frequencies
+    picks = np.unique(np.round(np.linspace(0, fs.size - 1, min(fs.size, 7))).astype(int))
+    names = [(disp.labels[k] or f"mode {k + 1}") for k in range(disp.beta.shape[1])]
+    how = ("tracked by field overlap" if disp.overlap is not None else
+           "closed form beta = sqrt(k^2 - kc^2) from each cutoff")
+    lines = [f"dispersion: beta [rad/m] of the modes that propagate in the band, {fs.size} frequencies "
+             f"{_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz ({how}; '-' evanescent):"]
+    head = ["f [GHz]"] + [f"{k + 1}: {n}" for k, n in enumerate(names)]
+    rows = [[_f_ghz(fs[i])] + [(_g(b.real, 6) if b.real > 0 and abs(b.imag) <= 1e-12 * abs(b.real) else "-")
+                               for b in disp.beta[i]] for i in picks]
+    lines += _grid(head, rows, set(range(len(head))))
+    if disp.overlap is not None:
+        low = float(np.min(disp.overlap))
+        if low < 0.9:
+            lines.append(f"  lowest overlap between neighbouring frequencies {low:.2f}: take more points to be "
+                         "sure of the tracking")
+    return "\n".join(lines) + "\n"
+
+
 def _walls_text(an):
     s = an.settings
     rough = "smooth" if s.roughness == 0 else f"rms roughness {s.roughness * 1e6:.4g} um (Hammerstad-Jensen)"
@@ -93,9 +138,11 @@ def _walls_text(an):
     return f"walls: {s.conductor_text}, {rough}; fill: {fill}"
 
 
-def analysis_table(an) -> str:
+def analysis_table(an, study=None) -> str:
     """The quantities of an :class:`Analysis` as text (GHz, mm, dB/m, ohm, kW/MW), ending with
-    the band lines and the power-handling cautions."""
+    the band lines and the power-handling cautions.  The same writer for every guide: a loaded
+    guide's modes add their beta error, eps_eff, longitudinal energy shares and wall-loss error
+    (``study``, if given, adds its notes on the modes asked for)."""
 
     s = an.settings
     f = an.frequency
@@ -108,17 +155,41 @@ def analysis_table(an) -> str:
     lines.append("")
 
     prop = an.propagating
+    loaded = any(q.mode.frequency is not None for q in an.modes)
     if prop:
-        lines.append(f"propagating at {fg} GHz:")
+        lines.append(f"propagating at {fg} GHz:" + (" the modes of largest beta" if loaded else ""))
         rows = []
         for q in prop:
-            w, ls = q.waves, q.losses
-            rows.append([str(q.mode.index + 1), q.mode.label, _g(w.beta), _g(w.guide_wavelength * 1e3),
-                         f"{w.phase_velocity / C0:.4f}", f"{w.group_velocity / C0:.4f}",
-                         _g(float(np.real(w.wave_impedance))),
-                         _g(ls.conductor_db, 4), _g(ls.dielectric_db, 4), _g(ls.total_db, 4)])
-        lines += _grid(["#", "label", "beta [rad/m]", "guide wl [mm]", "v_p/c", "v_g/c", "Z_wave [ohm]",
-                        "walls [dB/m]", "fill [dB/m]", "loss [dB/m]"], rows, {0, 2, 3, 4, 5, 6, 7, 8, 9})
+            w, ls, m = q.waves, q.losses, q.mode
+            if loaded:
+                sig = _sig_digits(float(w.beta), float(w.beta_error))
+                e_sh, h_sh = m.longitudinal_shares()
+                ce = float(ls.conductor_error)
+                rows.append([str(m.index + 1), m.label, m.family, _significant(float(w.beta), sig),
+                             f"{float(w.beta_error):.0e}" if w.beta_error > 0 else "-", _g(w.guide_wavelength * 1e3),
+                             f"{m.effective_permittivity:.5f}", f"{w.phase_velocity / C0:.4f}",
+                             f"{w.group_velocity / C0:.4f}", _share(e_sh), _share(h_sh),
+                             _g(ls.conductor_db, 4), f"{ce * NP_TO_DB:.0e}" if math.isfinite(ce) else "?",
+                             _g(ls.dielectric_db, 4) if ls.dielectric > 0 else "0", _g(ls.total_db, 4)])
+            else:
+                rows.append([str(m.index + 1), m.label, _g(w.beta), _g(w.guide_wavelength * 1e3),
+                             f"{w.phase_velocity / C0:.4f}", f"{w.group_velocity / C0:.4f}",
+                             _g(float(np.real(w.wave_impedance))),
+                             _g(ls.conductor_db, 4), _g(ls.dielectric_db, 4), _g(ls.total_db, 4)])
+        if loaded:
+            lines += _grid(["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
+                            "v_g/c", "Ez share", "Hz share", "walls [dB/m]", "± [dB/m]", "fill [dB/m]", "loss [dB/m]"],
+                           rows, set(range(3, 15)) | {0})
+            lines += _wrap("(label: the empty-guide mode it grows from, where its transverse E is mostly that "
+                           "mode's; Ez / Hz share: the longitudinal share of the electric / magnetic energy, 0 "
+                           "for TE / TM; eps_eff = (beta/k0)^2; fill: the loss tangents of the fill and regions)",
+                           "  ", "  ")
+            if study is not None and study.more_propagate:
+                lines.append(f"  every one of the {len(study.at_frequency)} modes asked for propagates: more may; "
+                             "ask for more modes ([solve] modes or --modes) to see them all")
+        else:
+            lines += _grid(["#", "label", "beta [rad/m]", "guide wl [mm]", "v_p/c", "v_g/c", "Z_wave [ohm]",
+                            "walls [dB/m]", "fill [dB/m]", "loss [dB/m]"], rows, {0, 2, 3, 4, 5, 6, 7, 8, 9})
         lines.append("")
         for q in prop:
             if q.impedances is None:
@@ -138,12 +209,14 @@ def analysis_table(an) -> str:
                                "(through the centre, wall to wall); I: the longitudinal wall current on the half "
                                "of the walls above the centre", "  ", "  ", width=110)
         lines.append("")
-        ref = prop[0].power
+    powered = [q for q in prop if q.power is not None]
+    if powered:
+        ref = powered[0].power
         lines += _wrap(f"power handling at {fg} GHz (matched travelling wave; breakdown taken at a peak field of "
                        f"{ref.breakdown_field / 1e6:.4g} MV/m; rated = that power / safety factor "
                        f"{ref.safety_factor:g}):", "", "  ", width=110)
         rows = []
-        for q in prop:
+        for q in powered:
             p = q.power
             x, y = p.peak_location
             rows.append([str(q.mode.index + 1), q.mode.label, _g(p.peak_field_per_sqrt_watt, 4),
@@ -152,14 +225,14 @@ def analysis_table(an) -> str:
                         "rated power"],
                        rows, {0, 2, 4, 5})
         lines.append("")
-    else:
+    if not prop:
         lines += [f"no mode propagates at {fg} GHz (below the lowest cutoff)", ""]
 
     ev = an.evanescent
     if ev:
         lines.append(f"below cutoff at {fg} GHz (evanescent: the field decays along the guide, no power is carried):")
-        rows = [[str(q.mode.index + 1), q.mode.label, f"{q.mode.fc / 1e9:.6g}", _g(q.waves.alpha * NP_TO_DB, 5)]
-                for q in ev]
+        rows = [[str(q.mode.index + 1), q.mode.label, f"{q.mode.fc / 1e9:.6g}" if math.isfinite(q.mode.fc) else "-",
+                 _g(q.waves.alpha * NP_TO_DB, 5)] for q in ev]
         lines += _grid(["#", "label", "fc [GHz]", "decay [dB/m]"], rows, {0, 2, 3})
         lines.append("")
 
@@ -228,84 +301,3 @@ def _regions_text(study):
                                                                    if m.tan_delta else "")
         bits.append(f"{i}{name}: eps_r = {m.eps_r:g}{extra}")
     return "; ".join(bits)
-
-
-def _loaded_mode_row(m, study):
-
-    b = m.beta()
-    prop = m.propagating
-    sig = _sig_digits(abs(b), m.beta_error) if prop else 5
-    ad = m.dielectric_attenuation() if prop else math.nan
-    ac, ac_err = _loaded_wall_loss(m, study)
-    return [str(m.index + 1), m.label, m.family,
-            _significant(b, sig) if prop else f"-j{_g(abs(b))}",
-            f"{m.beta_error:.0e}" if m.beta_error > 0 else "-",
-            _g(m.guide_wavelength() * 1e3) if prop else "-",
-            f"{m.effective_permittivity:.5f}" if prop else "-",
-            f"{m.phase_velocity():.4f}" if prop else "-",
-            f"{m.group_velocity():.4f}" if prop else "-",
-            _share(m.e_share), _share(m.h_share),
-            (_g(ad * NP_TO_DB, 4) if ad > 0 else "0") if prop else "-",
-            _g(ac * NP_TO_DB, 4) if prop else "-",
-            (f"{ac_err * NP_TO_DB:.0e}" if math.isfinite(ac_err) else "?") if prop else "-"]
-
-
-def loaded_table(study, title=None) -> str:
-    """A :class:`femodes.loaded.LoadedStudy` as text (GHz, mm, rad/m, dB/m): cutoffs, the
-    single-mode band, the modes at the frequency, and a few rows of the dispersion."""
-
-    sec = study.section
-    lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""),
-             f"section: {sec.describe()}",
-             f"fill: eps_r = {study.eps_r:g}, mu_r = {study.mu_r:g}"
-             + (f", tan_delta = {study.tan_delta:.3g}" if study.tan_delta else "")
-             + f"; regions: {_regions_text(study)}",
-             f"full-vector solve (edge elements of order {study.order}); accuracy asked: {study.accuracy:.1e}; "
-             f"unknowns: {study.n_dofs}",
-             "", "cutoffs (beta = 0) of the loaded guide:"]
-    rows = [[str(c.index + 1), c.label, format_ghz(c.fc, c.fc_error), _err_text(c.fc_error),
-             _significant(299792458.0 / c.fc * 1e3, _sig_digits(c.fc, c.fc_error))] for c in study.cutoffs]
-    lines += _grid(["#", "type at cutoff", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"], rows, {0, 2, 3, 4})
-    lines.append("  (TE-type: only transverse E at cutoff; TM-type: only E_z; 'from': the empty-guide mode "
-                 "whose field at cutoff it mostly has.  Above cutoff the modes are hybrid in general.)")
-    band = study.single_mode_band
-    if band is not None:
-        c1, c2 = study.cutoffs[0], study.cutoffs[1]
-        lines.append(f"single-mode band: {format_ghz(band[0], c1.fc_error)} - {format_ghz(band[1], c2.fc_error)} GHz "
-                     f"(ratio {band[1] / band[0]:.3f}:1, between the two lowest cutoffs)")
-    if study.frequency is not None:
-        lines += ["", f"at f = {_f_ghz(study.frequency)} GHz: the modes of largest beta "
-                  f"(unknowns: {study.n_dofs_at_f})"]
-        prop = [m for m in study.modes if m.propagating]
-        if not prop:
-            lines.append("  no mode propagates at this frequency")
-        else:
-            head = ["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
-                    "v_g/c", "Ez share", "Hz share", "dielectric [dB/m]", "walls [dB/m]", "± [dB/m]"]
-            lines += _grid(head, [_loaded_mode_row(m, study) for m in prop], set(range(3, 14)) | {0})
-            lines.append("  (label: the empty-guide mode it grows from, where its transverse E is mostly that "
-                         "mode's; Ez / Hz share: the longitudinal share of the electric / magnetic energy, 0 "
-                         "for TE / TM; eps_eff = (beta/k0)^2)")
-            if study.more_propagate:
-                lines.append(f"  every one of the {len(study.modes)} modes asked for propagates: more may; "
-                             "ask for more modes ([solve] modes or --modes) to see them all")
-        rough = f", rms roughness {study.roughness * 1e6:g} um" if study.roughness else ""
-        lines.append(f"  walls: {study.conductor}{rough}; wall loss by the power-loss method (not valid close "
-                     "to cutoff).  Impedance and power handling are not computed for loaded guides yet.")
-    disp = study.dispersion
-    if disp is not None:
-        fs = disp.frequencies
-        picks = np.unique(np.round(np.linspace(0, fs.size - 1, min(fs.size, 7))).astype(int))
-        names = [(disp.labels[k] if k < len(disp.labels) and disp.labels[k] else f"mode {k + 1}")
-                 for k in range(disp.beta2.shape[1])]
-        lines += ["", f"dispersion: beta [rad/m] of the tracked modes, {fs.size} frequencies "
-                  f"{_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz (tracked by field overlap; '-' evanescent):"]
-        head = ["f [GHz]"] + [f"{k + 1}: {n}" for k, n in enumerate(names)]
-        rows = [[_f_ghz(fs[i])] + [(_g(math.sqrt(b2), 6) if b2 > 0 else "-") for b2 in disp.beta2[i]]
-                for i in picks]
-        lines += _grid(head, rows, set(range(len(head))))
-        low = float(np.min(disp.overlap))
-        if low < 0.9:
-            lines.append(f"  lowest overlap between neighbouring frequencies {low:.2f}: take more points to be "
-                         "sure of the tracking")
-    return "\n".join(lines) + "\n"

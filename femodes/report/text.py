@@ -54,10 +54,11 @@ def _symmetry_text(sym):
     return ", ".join(f"{ax} {par}" for ax, par in sorted(sym.items())) if sym else "-"
 
 
-def _section_info(modeset):
-    sec = modeset.section
-    if sec is None:
-        mesh = modeset.mesh
+def _section_info(result):
+    """kind, params (SI), description and placement of the section of a ModeSet or a Study."""
+    sec = result.section
+    if sec is None or not hasattr(sec, "describe"):
+        mesh = sec if sec is not None else result.mesh
         return {"kind": "mesh", "params": {},
                 "description": f"triangle mesh ({mesh.n_triangles} triangles, {mesh.n_vertices} vertices)"}
     info = {"kind": sec.kind, "params": {k: float(v) for k, v in sec.params.items()
@@ -102,6 +103,9 @@ def _degenerate_text(m):
 
 
 def _finite(x):
+    """A float for JSON: None for None, NaN and infinity."""
+    if x is None:
+        return None
     x = float(x)
     return x if math.isfinite(x) else None
 
