@@ -83,7 +83,7 @@ class LoadedMode:
         Z = omega mu0 mu_r / beta.  A hybrid, TM-like or TEM-like mode of an inhomogeneous fill has
         no single ratio (it varies over the section with eps_r): NaN, as below cutoff."""
         b = self.beta(f)
-        mu = getattr(self.vector.problem, "mu", None)
+        mu = getattr(self.vector.problem, "mu_r", None)
         uniform = mu is not None and float(np.ptp(np.asarray(mu))) == 0.0
         if self.family != "TE" or not uniform or not (isinstance(b, float) and b > 0):
             return math.nan

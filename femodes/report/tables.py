@@ -134,6 +134,8 @@ def dispersion_table(study) -> str:
 def _walls_text(an):
     s = an.settings
     rough = "smooth" if s.roughness == 0 else f"rms roughness {s.roughness * 1e6:.4g} um (Hammerstad-Jensen)"
+    if any(q.mode.frequency is not None for q in an.modes):  # a loaded guide: losses solved with the modes
+        return f"walls: {s.conductor_text}, {rough}; fill and regions: the loss tangents they were given"
     fill = "lossless" if s.tan_delta == 0 else f"tan_delta = {s.tan_delta:.3g}"
     return f"walls: {s.conductor_text}, {rough}; fill: {fill}"
 
