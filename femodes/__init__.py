@@ -20,20 +20,8 @@ from femodes.api import dispersion, solve, study
 from femodes.constants import C0, EPS0, ETA0, MU0, __version__
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import Mesh, mesh_section, read_mesh, write_mesh
-from femodes.geometry.section import (
-                                      Section,
-                                      circle,
-                                      coaxial,
-                                      double_ridge,
-                                      ellipse,
-                                      l_shape,
-                                      polygon,
-                                      rectangle,
-                                      rectangular_coax,
-                                      ridged,
-                                      sector,
-                                      single_ridge,
-)
+from femodes.geometry.section import Section
+from femodes.geometry.shapes import circle, coaxial, double_ridge, ellipse, l_shape, polygon, rectangle, rectangular_coax, ridged, sector, single_ridge
 from femodes.modes import LoadedCutoff, LoadedMode, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
 

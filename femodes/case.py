@@ -128,7 +128,7 @@ from typing import Callable
 
 from femodes.api import study
 from femodes.errors import FemodesError
-from femodes.geometry import section as _sec
+from femodes.geometry import shapes as _sec
 from femodes.geometry.mesh import read_mesh
 from femodes.quantities import METALS, conductivity_of
 

@@ -25,7 +25,8 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from femodes.errors import FemodesError
-from femodes.geometry.section import Arc, Corner, Line, Section, _point_edge_distances
+from femodes.geometry.loops import Arc, Corner, Line, _point_edge_distances
+from femodes.geometry.section import Section
 
 __all__ = ["Mesh", "mesh_section", "read_mesh", "write_mesh"]
 

@@ -29,8 +29,8 @@ import numpy as np
 
 from femodes.constants import C0
 from femodes.errors import FemodesError
+from femodes.geometry.loops import Arc
 from femodes.geometry.mesh import mesh_section, singular_corners
-from femodes.geometry.section import Arc
 from femodes.solvers.vector import VectorProblem
 
 __all__ = ["solve_loaded", "LoadedSolution", "SAFETY", "ORDER", "GRADING_FLOOR"]
