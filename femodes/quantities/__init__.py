@@ -29,7 +29,15 @@ quantities and the band.
 """
 
 from femodes.constants import ETA0, NP_TO_DB
-from femodes.quantities.impedance import impedance, path_voltage, voltage_path, wall_current
+from femodes.quantities.impedance import (
+                                       LoadedImpedances,
+                                       impedance,
+                                       loaded_impedances,
+                                       lower_order_partner,
+                                       path_voltage,
+                                       voltage_path,
+                                       wall_current,
+)
 from femodes.quantities.losses import (
                                        METALS,
                                        Losses,
@@ -47,7 +55,17 @@ from femodes.quantities.losses import (
                                        to_db,
                                        wall_integrals,
 )
-from femodes.quantities.power import CAUTIONS, DRY_AIR_BREAKDOWN, PowerHandling, power_handling
+from femodes.quantities.power import (
+                                       CAUTIONS,
+                                       DRY_AIR_BREAKDOWN,
+                                       GAS_MAX_EPS_R,
+                                       CornerField,
+                                       LoadedPowerHandling,
+                                       PowerHandling,
+                                       RegionPeak,
+                                       loaded_power_handling,
+                                       power_handling,
+)
 from femodes.quantities.wave import (
                                        RECOMMENDED_HIGH,
                                        RECOMMENDED_LOW,
@@ -68,4 +86,6 @@ __all__ = [
     "conductivity_of", "skin_depth", "surface_resistance", "roughness_factor", "wall_integrals",
     "conductor_attenuation", "loaded_conductor_attenuation", "loaded_conductor_attenuation_error", "dielectric_attenuation", "attenuation", "losses", "to_db",
     "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
+    "GAS_MAX_EPS_R", "LoadedImpedances", "LoadedPowerHandling", "RegionPeak", "CornerField",
+    "loaded_impedances", "loaded_power_handling", "lower_order_partner",
 ]
