@@ -10,6 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from femodes.constants import ETA0
 from femodes.errors import FemodesError
 from femodes.modes.loaded import LoadedMode
 from femodes.quantities.common import _field, _freq, _out, _require_propagating, _z_wave
@@ -335,7 +336,8 @@ def _user_wall(wall):
 
 
 def _default_wall(mode, section):
-    """(selection, description) of the wall whose current defines I for a loaded mode: as
+    """(selection, description, inner conductor index or None) of the wall whose current defines I
+    for a loaded mode: as
     :func:`wall_current` (the half of the walls on the positive side of the guide's centre), but a
     TEM-like mode (family TEM or grown from the empty guide's TEM) of a guide with inner
     conductors takes the inner conductor that carries the largest current (the conductor current
@@ -345,10 +347,10 @@ def _default_wall(mode, section):
     if len(groups) > 1 and (mode.family == "TEM" or "TEM" in (mode.parent or "")):
         cur = [abs(_vector_wall_current(mode.vector, _conductor(k))) for k in range(1, len(groups))]
         k = 1 + int(np.argmax(cur))
-        return _conductor(k), f"inner conductor {k} (the whole conductor)"
+        return _conductor(k), f"inner conductor {k} (the whole conductor)", k
     c, d = _frame(mode, section)
     return _half_walls(c, d), (f"the half of the walls on the ({d[0]:.3g}, {d[1]:.3g}) side of the centre "
-                               f"({c[0] * 1e3:.4g}, {c[1] * 1e3:.4g}) mm")
+                               f"({c[0] * 1e3:.4g}, {c[1] * 1e3:.4g}) mm"), None
 
 
 def _at_one_watt(vm, path, select, need_current=True):
@@ -390,6 +392,11 @@ class LoadedImpedances:
     path                  : the voltage path ((x, y), ...) in metres
     wall                  : which wall carries I (words)
     order                 : the element order of the mode (the errors compare with order - 1)
+    quasi_static          : for a TEM-like mode of a guide with inner conductors (non-magnetic),
+                            the quasi-static line impedance 1 / (c0 sqrt(C C1)) of the conductor
+                            that carries I (C the capacitance per metre with the dielectrics, C1
+                            without), exact for a TEM line in the low-frequency limit; NaN otherwise
+    quasi_static_error    : its difference from order - 1 on the same mesh
     """
 
     frequency: float
@@ -404,6 +411,8 @@ class LoadedImpedances:
     path: tuple
     wall: str
     order: int
+    quasi_static: float = math.nan
+    quasi_static_error: float = math.nan
 
     def value(self, kind):
         """Z (ohm) of ``kind`` 'PV', 'PI' or 'VI'."""
@@ -419,7 +428,9 @@ class LoadedImpedances:
         return [f"Z_PV = {self.pv:.6g} ohm (+/- {self.pv_error:.2g}), Z_PI = {self.pi:.6g} ohm (+/- {self.pi_error:.2g}), "
                 f"Z_VI = {self.vi:.6g} ohm (+/- {self.vi_error:.2g})",
                 f"V = {self.voltage:.6g} V at 1 W along ({x0 * 1e3:.4g}, {y0 * 1e3:.4g}) -> ({x1 * 1e3:.4g}, "
-                f"{y1 * 1e3:.4g}) mm; I = {self.current:.6g} A at 1 W on {self.wall}"]
+                f"{y1 * 1e3:.4g}) mm; I = {self.current:.6g} A at 1 W on {self.wall}"] + (
+                [f"quasi-static line impedance {self.quasi_static:.6g} ohm (+/- {self.quasi_static_error:.2g})"]
+                if math.isfinite(self.quasi_static) else [])
 
     def __str__(self):
         return "\n".join(self.lines())
@@ -475,9 +486,8 @@ def loaded_impedances(mode, f=None, path=None, wall=None, section=None):
         raise FemodesError(f"the impedance needs a propagating mode: {mode.label} is evanescent at "
                            f"{mode.frequency / 1e9:.9g} GHz")
     path = voltage_path(mode, section) if path is None else _check_path(path)
-    if wall is None:
-        select, where = _default_wall(mode, section)
-    else:
+    select, where, k = _default_wall(mode, section)
+    if wall is not None:
         select, where = _user_wall(wall), "the walls selected by the given function"
     rule = _path_rule(mode.vector.problem.basis_t, path, mode.vector.problem.order + 4)
     v, j = _at_one_watt(mode.vector, rule, select)
@@ -493,6 +503,39 @@ def loaded_impedances(mode, f=None, path=None, wall=None, section=None):
         lo_pi = 2.0 / (i1 - di) ** 2 if di < i1 else math.inf
         hi_vi = (v1 + dv) / (i1 - di) if di < i1 else math.inf
         errs = ((v1 + dv) ** 2 / 2.0 - pv, lo_pi - pi, hi_vi - vi)
+    qs = qs_err = math.nan
+    if k is not None and np.all(np.asarray(mode.vector.problem.mu_r) == 1.0):
+        qs = _quasi_static(mode.vector.problem, k)
+        if other is not None:
+            qs_err = abs(qs - _quasi_static(other.problem, k))
     pts = tuple((float(x), float(y)) for x, y in np.asarray(path, dtype=float))
     return LoadedImpedances(float(mode.frequency), pv, pi, vi, *errs, v1, i1, pts, where,
-                            int(mode.vector.problem.order))
+                            int(mode.vector.problem.order), qs, qs_err)
+
+
+def _quasi_static(prob, k):
+    """Quasi-static line impedance (ohm) of inner conductor ``k`` of a VectorProblem's mesh (the
+    others at 0 V): Z = 1 / (c0 sqrt(C C1)) = eta0 / sqrt(W W1), from the capacitance per metre
+    C = eps0 W with the section's eps_r and C1 = eps0 W1 with eps_r = 1 (which gives the
+    inductance L = mu0 eps0 / C1 of a non-magnetic line), W = int eps_r |grad phi|^2 dA of the
+    electrostatic potential phi = 1 V on the conductor (Lagrange elements of the problem)."""
+    from scipy.sparse.linalg import spsolve
+    from skfem import BilinearForm, asm
+    from skfem.helpers import dot, grad
+
+    bz = prob.basis_z
+    eps = np.asarray(prob.eps_r, dtype=float)[:, None] * np.ones_like(bz.dx)
+    stiff = BilinearForm(lambda u, v, w: w.eps * dot(grad(u), grad(v)))
+    facets = prob.mesh.boundary_facets()
+    groups = _conductor_groups(prob.mesh, facets)
+    bnd = np.unique(bz.get_dofs(facets=facets).flatten())
+    on = np.unique(bz.get_dofs(facets=facets[groups[k]]).flatten())
+    inner = np.setdiff1d(np.arange(bz.N), bnd)
+    energy = []
+    for e in (eps, np.ones_like(eps)):
+        K = asm(stiff, bz, eps=e).tocsr()
+        phi = np.zeros(bz.N)
+        phi[on] = 1.0
+        phi[inner] = spsolve(K[inner][:, inner].tocsc(), -(K[inner][:, bnd] @ phi[bnd]))
+        energy.append(float(phi @ (K @ phi)))
+    return ETA0 / math.sqrt(energy[0] * energy[1])
