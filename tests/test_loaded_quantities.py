@@ -253,3 +253,16 @@ def test_partly_filled_coax_quasi_static_impedance_is_the_series_capacitance_val
     # at a low frequency the quasi-TEM mode's power-voltage impedance tends to the quasi-static one
     # (measured 1.0e-5 apart at 0.3 GHz, 3.5e-3 at 6 GHz)
     _within(z.pv, z.pv_error, want, 0.01)
+
+
+def test_first_order_modes_have_no_lower_order_and_say_so():
+    # the errors come from order p - 1 on the same mesh (definition): with first-order elements there
+    # is none, and the errors are NaN rather than zero; the values themselves still follow Pozar
+    # sec. 3.3 (TE10 with the fill's eps_r) to the accuracy of the coarse solve
+    f, eps = 7e9, 2.2
+    g = fm.rectangle(A, B).with_material(fm.rectangle(A, B), eps_r=eps)
+    m = fm.solve(g, modes=1, frequency=f, accuracy=1e-3, order=1)[0]
+    z = Q.loaded_impedances(m)
+    assert math.isnan(z.pv_error) and math.isnan(z.pi_error) and math.isnan(z.vi_error)
+    assert z.pv == pytest.approx(2 * B / A * _pozar_te10(f, eps), rel=0.05)
+    assert math.isnan(Q.power_handling(m, f).regions[0].peak_error)

@@ -26,6 +26,14 @@ impedances use the usual power-voltage, power-current and voltage-current defini
 (:mod:`.impedance`); power handling reports the peak field and the power at which it reaches a
 breakdown field, with the cautions that belong to it (:mod:`.power`); :mod:`.wave` has the wave
 quantities and the band.
+
+Modes of dielectric-loaded guides (:class:`femodes.modes.LoadedMode`, hybrid, solved at one
+frequency) take the same front doors at their own frequency: :func:`conductor_attenuation`,
+:func:`impedance` and :func:`power_handling` dispatch to :func:`loaded_conductor_attenuation`,
+:func:`loaded_impedances` (a :class:`LoadedImpedances`) and :func:`loaded_power_handling` (a
+:class:`LoadedPowerHandling`: the peak in the gas and in each dielectric region, corners apart),
+which work from the full-vector fields and give every number an error from the same mode at one
+element order lower on the same mesh (:func:`lower_order_partner`).
 """
 
 from femodes.constants import ETA0, NP_TO_DB

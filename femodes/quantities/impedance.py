@@ -216,7 +216,10 @@ def impedance(mode, f, kind="PV", path=None, section=None, wall=None):
     if isinstance(mode, LoadedMode):
         _require_loaded_propagating(mode, f, "the impedance")
         path = voltage_path(mode, section) if path is None else _check_path(path)
-        select = _default_wall(mode, section)[0] if wall is None else _user_wall(wall)
+        if kd == "PV":
+            select = None
+        else:
+            select = _default_wall(mode, section)[0] if wall is None else _user_wall(wall)
         pv, pi, vi, _, _ = _vector_impedances(mode.vector, path, select, need_current=kd != "PV")
         return {"PV": pv, "PI": pi, "VI": vi}[kd]
     fa = _freq(f)
