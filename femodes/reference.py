@@ -54,6 +54,7 @@ __all__ = [
     "L_SHAPE_DIRICHLET", "L_SHAPE_NEUMANN", "l_shape_eigenvalue_mps",
     "mathieu_tridiagonal", "mathieu_characteristic", "ellipse_modes", "ellipse_ritz_kc",
     "rod_in_circular_guide_betas", "side_slab_te_m0_wall_loss",
+    "SlabPeakAndVoltage", "side_slab_te_m0_peak_and_voltage",
 ]
 
 # ---------------------------------------------------------------------------
@@ -1659,3 +1660,79 @@ def rod_in_circular_guide_betas(a: float, b: float, eps_r: float, frequency: flo
                 roots.append(float(r))
     betas = [math.sqrt(k0b * k0b * eps_r - x * x) / b for x in roots if x < top]
     return sorted(betas, reverse=True)[:count]
+
+
+@dataclass(frozen=True)
+class SlabPeakAndVoltage:
+    """Peak field, voltage and wall current of a side-slab TE_m0 mode carrying 1 W (exact fields,
+    :func:`side_slab_te_m0_peak_and_voltage`).  Lengths in m from the side wall x = 0 that holds the
+    slab; fields in V/m, voltage in V, current in A, impedances in ohm, all at P = 1 W."""
+
+    peak_slab: float      #: largest |E| inside the slab (0 <= x <= t)
+    x_peak_slab: float
+    peak_air: float       #: largest |E| in the empty part (t <= x <= a)
+    x_peak_air: float
+    voltage: float        #: |int E_y dy| from wall to wall along the vertical line x = x_path
+    x_path: float
+    current: float        #: |int J_z dx| over the top wall (y = b)
+    z_pv: float           #: voltage^2 / (2 P)
+    z_pi: float           #: 2 P / current^2
+    z_vi: float           #: voltage / current
+
+
+def side_slab_te_m0_peak_and_voltage(a: float, b: float, t: float, eps_r: float, frequency: float,
+                                     beta2: float, x_path: float) -> SlabPeakAndVoltage:
+    """Peak |E|, voltage and wall current at 1 W of a TE_m0 mode (E_y(x) only) of the guide a x b
+    with a full-height slab eps_r of width t against the side wall x = 0, from the exact
+    piecewise-sine field of the transverse-resonance solution (as in
+    :func:`side_slab_te_m0_wall_loss`; Pozar, Microwave Engineering, sec. 3.3, from memory):
+
+        E_y = sin(k_d x) / k_d (x < t),   A sin(k_a (a - x)) / k_a (x > t),   A from E_y at x = t,
+        H_x = -beta E_y / (omega mu0),    P = beta b int_0^a E_y^2 dx / (2 omega mu0),
+
+    scaled to P = 1 W.  E has no other component and E_y does not depend on y, so the voltage
+    along the vertical line x = ``x_path`` (wall to wall) is b |E_y(x_path)|, and the current on
+    the top wall (J_z = n x H with n = -y: J_z = H_x) is beta |int_0^a E_y dx| / (omega mu0); the
+    side walls carry no J_z (H_y = 0).  Z_PV = V^2 / (2P), Z_PI = 2P / I^2, Z_VI = V / I (the
+    power-voltage, power-current and voltage-current definitions, common practice).  The peaks
+    are searched on a fine grid of each part and polished with a bounded scalar search
+    (sin(k x)/k -> sinh(kappa x)/kappa for k^2 < 0).  ``beta2`` from :func:`layered_guide_modes`
+    (axis "x") or the TE_m0 equation."""
+    from scipy.integrate import quad
+
+    k0 = 2 * math.pi * float(frequency) / C0
+    if not 0.0 <= x_path <= a:
+        raise ValueError(f"x_path must lie in [0, a = {a!r}] m, got {x_path!r}")
+    l = a - t
+    cs = _cos_and_sin_over_k
+    kd2, ka2 = eps_r * k0 * k0 - beta2, k0 * k0 - beta2
+    amp = cs(kd2, t)[1] / cs(ka2, l)[1]
+
+    def e(x):
+        return cs(kd2, x)[1] if x <= t else amp * cs(ka2, a - x)[1]
+
+    opts = dict(points=[t], epsabs=0.0, epsrel=1e-12, limit=200)
+    e2 = quad(lambda x: e(x) ** 2, 0.0, a, **opts)[0]
+    e1 = quad(e, 0.0, a, **opts)[0]
+    omega_mu = 2 * math.pi * float(frequency) * MU0
+    beta = math.sqrt(beta2)
+    scale = 1.0 / math.sqrt(beta * b * e2 / (2.0 * omega_mu))  # field factor for P = 1 W
+
+    def peak(lo, hi):
+        xs = np.linspace(lo, hi, 2001)
+        v = np.array([abs(e(x)) for x in xs])
+        j = int(np.argmax(v))
+        best_x, best_v = float(xs[j]), float(v[j])
+        x0, x1 = xs[max(j - 1, 0)], xs[min(j + 1, xs.size - 1)]
+        if x1 > x0:
+            r = optimize.minimize_scalar(lambda x: -abs(e(x)), bounds=(x0, x1), method="bounded",
+                                         options={"xatol": 1e-14 * a})
+            if -r.fun > best_v:
+                best_x, best_v = float(r.x), float(-r.fun)
+        return scale * best_v, best_x
+
+    ps, xs_ = peak(0.0, t)
+    pa, xa = peak(t, a)
+    v = scale * b * abs(e(float(x_path)))
+    i = scale * beta * abs(e1) / omega_mu
+    return SlabPeakAndVoltage(ps, xs_, pa, xa, v, float(x_path), i, v * v / 2.0, 2.0 / (i * i), v / i)

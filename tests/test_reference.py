@@ -568,3 +568,33 @@ def test_ellipse_bad_args():
         ref.ellipse_modes(0.0, 1.0, 3)
     with pytest.raises(ValueError):
         ref.ellipse_ritz_kc(1.0, 0.5, "TX", 1, 1)
+
+
+def test_side_slab_peak_and_voltage_reduce_to_pozars_te10_and_carry_one_watt():
+    # Without the slab (eps_r = 1) the TE_m0 field is Pozar's TE10 (Microwave Engineering, sec. 3.3):
+    # P = a b E0^2 / (4 Z_TE), so at 1 W the peak is sqrt(4 Z_TE / (a b)) at x = a/2, and
+    # Z_PV = 2 (b/a) Z_TE, Z_PI = (pi^2 b / 8a) Z_TE, Z_VI = (pi b / 2a) Z_TE (common practice)
+    a, b, t, f = 22.86e-3, 10.16e-3, 4e-3, 9e9
+    k0 = 2 * math.pi * f / ref.C0
+    beta2 = k0 ** 2 - (math.pi / a) ** 2
+    zte = k0 * ref.ETA0 / math.sqrt(beta2)
+    r = ref.side_slab_te_m0_peak_and_voltage(a, b, t, 1.0, f, beta2, a / 2)
+    assert r.peak_air == pytest.approx(math.sqrt(4 * zte / (a * b)), rel=1e-12)
+    assert r.x_peak_air == pytest.approx(a / 2, rel=1e-9)
+    assert r.z_pv == pytest.approx(2 * b / a * zte, rel=1e-12)
+    assert r.z_pi == pytest.approx(math.pi ** 2 * b / (8 * a) * zte, rel=1e-12)
+    assert r.z_vi == pytest.approx(math.pi * b / (2 * a) * zte, rel=1e-12)
+    # with a slab: the field scaled to 1 W carries 1 W, P = beta b int E_y^2 dx / (2 omega mu0),
+    # integrated here on a plain grid from the peaks' field shape (E_y continuous at x = t, its slope
+    # too: H_z ~ dE_y/dx is tangential), and the slab's peak is at its face for this thin slab
+    eps = 2.56
+    beta2 = ref.layered_guide_modes(a, b, [(t, eps, 1.0), (a - t, 1.0, 1.0)], f, count=1, axis="x")[0].beta2
+    s = ref.side_slab_te_m0_peak_and_voltage(a, b, t, eps, f, beta2, t)
+    kd, ka = math.sqrt(eps * k0 ** 2 - beta2), math.sqrt(k0 ** 2 - beta2)
+    amp = math.sin(kd * t) / kd / (math.sin(ka * (a - t)) / ka)
+    x = np.linspace(0, a, 200001)
+    e = np.where(x <= t, np.sin(kd * x) / kd, amp * np.sin(ka * (a - x)) / ka)
+    scale = s.peak_air / np.abs(e).max()
+    p = math.sqrt(beta2) * b * integrate.trapezoid((scale * e) ** 2, x) / (2 * 2 * math.pi * f * ref.MU0)
+    assert p == pytest.approx(1.0, rel=1e-8)
+    assert s.x_peak_slab == pytest.approx(t, rel=1e-12) and s.voltage == pytest.approx(s.peak_slab * b, rel=1e-12)

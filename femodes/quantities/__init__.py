@@ -26,10 +26,26 @@ impedances use the usual power-voltage, power-current and voltage-current defini
 (:mod:`.impedance`); power handling reports the peak field and the power at which it reaches a
 breakdown field, with the cautions that belong to it (:mod:`.power`); :mod:`.wave` has the wave
 quantities and the band.
+
+Modes of dielectric-loaded guides (:class:`femodes.modes.LoadedMode`, hybrid, solved at one
+frequency) take the same front doors at their own frequency: :func:`conductor_attenuation`,
+:func:`impedance` and :func:`power_handling` dispatch to :func:`loaded_conductor_attenuation`,
+:func:`loaded_impedances` (a :class:`LoadedImpedances`) and :func:`loaded_power_handling` (a
+:class:`LoadedPowerHandling`: the peak in the gas and in each dielectric region, corners apart),
+which work from the full-vector fields and give every number an error from the same mode at one
+element order lower on the same mesh (:func:`lower_order_partner`).
 """
 
 from femodes.constants import ETA0, NP_TO_DB
-from femodes.quantities.impedance import impedance, path_voltage, voltage_path, wall_current
+from femodes.quantities.impedance import (
+                                       LoadedImpedances,
+                                       impedance,
+                                       loaded_impedances,
+                                       lower_order_partner,
+                                       path_voltage,
+                                       voltage_path,
+                                       wall_current,
+)
 from femodes.quantities.losses import (
                                        METALS,
                                        Losses,
@@ -47,7 +63,17 @@ from femodes.quantities.losses import (
                                        to_db,
                                        wall_integrals,
 )
-from femodes.quantities.power import CAUTIONS, DRY_AIR_BREAKDOWN, PowerHandling, power_handling
+from femodes.quantities.power import (
+                                       CAUTIONS,
+                                       DRY_AIR_BREAKDOWN,
+                                       GAS_MAX_EPS_R,
+                                       CornerField,
+                                       LoadedPowerHandling,
+                                       PowerHandling,
+                                       RegionPeak,
+                                       loaded_power_handling,
+                                       power_handling,
+)
 from femodes.quantities.wave import (
                                        RECOMMENDED_HIGH,
                                        RECOMMENDED_LOW,
@@ -68,4 +94,6 @@ __all__ = [
     "conductivity_of", "skin_depth", "surface_resistance", "roughness_factor", "wall_integrals",
     "conductor_attenuation", "loaded_conductor_attenuation", "loaded_conductor_attenuation_error", "dielectric_attenuation", "attenuation", "losses", "to_db",
     "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
+    "GAS_MAX_EPS_R", "LoadedImpedances", "LoadedPowerHandling", "RegionPeak", "CornerField",
+    "loaded_impedances", "loaded_power_handling", "lower_order_partner",
 ]

@@ -998,6 +998,23 @@ class VectorProblem:
         triangles = (tri[None, :, :] + q * np.arange(ne)[:, None, None]).reshape(-1, 3)
         return xy[0].ravel(), xy[1].ravel(), triangles, F.reshape(6, -1)
 
+    def fields_at_reference(self, mode, cells, ref):
+        """(E_x, E_y, E_z, H_x, H_y, H_z) of ``mode`` (complex, as :meth:`VectorMode.fields`) at
+        the reference coordinates ``ref`` (2, n) of the triangles ``cells`` (n,), one point per
+        cell: the one-sided values in those triangles, through the element's own (possibly
+        curved, isoparametric) map, so points on a curved wall or interface are evaluated
+        exactly where they lie.  For quadrature along walls and paths and for peak searches."""
+        cells = np.asarray(cells, dtype=np.int64).ravel()
+        ref = np.asarray(ref, dtype=float).reshape(2, -1)
+        if cells.shape != (ref.shape[1],):
+            raise FemodesError(f"cells (shape {cells.shape}) must hold one triangle index per reference point "
+                               f"({ref.shape[1]})")
+        et_val, et_curl = _eval_hcurl(self.basis_t, mode.et, cells, ref)
+        ez_val, ez_grad = _eval_h1(self.basis_z, mode.ez, cells, ref)
+        H_t, H_z = self._magnetic(mode, np.asarray(et_val), np.asarray(et_curl), np.asarray(ez_grad), cells)
+        return (np.asarray(et_val[0], dtype=complex), np.asarray(et_val[1], dtype=complex),
+                np.asarray(ez_val, dtype=complex), H_t[0], H_t[1], H_z)
+
     def _fields(self, mode, points, cells=None):
         pts = np.asarray(points, dtype=float).reshape(2, -1)
         if cells is None:
