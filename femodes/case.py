@@ -553,12 +553,6 @@ def _build_case(data, base_dir, path):
     analysis = None
     if "analysis" in data:
         an = _table(data, "analysis")
-        if loaded:
-            wall = [k for k in an if k in _WALL_KEYS]
-            if wall:
-                raise FemodesError(f"{', '.join(wall)} in [analysis]: impedance and power handling "
-                                   "are not computed for guides with [[region]] tables yet; leave "
-                                   f"{'it' if len(wall) == 1 else 'them'} out")
         analysis = _build_analysis(an, tan_delta)
     _check_figures_apply(out, analysis, "in the case file", loaded)
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,

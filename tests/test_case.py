@@ -457,7 +457,6 @@ def test_region_tables_add_materials_in_guide_units(tmp_path):
     ('[[region]]\nshape = "circle"\nradius = 1\noffset = [100, 0]\neps_r = 2\n', ["[[region]] 2", "outside the guide"]),
     ('[solve]\nfamily = "TE"\n', ["family", "hybrid"]),
     ('[solve]\norder = 4\n', ["1, 2 or 3", "edge elements"]),
-    ('[analysis]\nfrequency = 10\nbreakdown_field = 3e6\n', ["breakdown_field", "not computed", "[[region]]"]),
     ('[analysis]\nfrequency = 10\n[output]\nfigures = ["chart"]\n', ["'chart' does not apply", "fields, dispersion"]),
     ('[output]\nfigures = ["fields"]\n', ["at a frequency", "[analysis] frequency"]),
     ('[analysis]\nfrequency = 10\n[output]\nfigures = ["dispersion"]\n', ["needs a band"]),

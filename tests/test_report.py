@@ -143,3 +143,24 @@ def test_field_file_points_are_the_element_nodes():
     x, y, tri, psi, gx, gy = ms[0].potential.sample(ms.order)
     per = (ms.order + 1) * (ms.order + 2) // 2
     assert x.size == per * ms.mesh.n_triangles and tri.shape[0] == ms.order ** 2 * ms.mesh.n_triangles
+
+
+def test_loaded_report_has_impedances_and_power_handling_with_errors(pair):
+    # the dominant mode's PV / PI / VI impedances of TE10 (Pozar sec. 3.3 fields; common practice
+    # definitions, as tests/test_quantities.py checks for the empty guide) and its peak field at
+    # 1 W, E0 = sqrt(4 Z_TE / (a b)), through the report of the loaded path, within their errors
+    _, loaded, settings = pair
+    an = R.analyse(loaded, settings)
+    doc = R.report_document(loaded, an)["analysis"]["modes"][0]
+    _, z_te, _ = _te10(F)
+    want = {"PV": 2 * B / A * z_te, "PI": math.pi ** 2 * B / (8 * A) * z_te, "VI": math.pi * B / (2 * A) * z_te}
+    for k, z in want.items():
+        assert abs(doc["impedances"][k] - z) <= doc["impedance_errors"][k] < 0.05 * z, k
+    ph = doc["power_handling"]
+    filled = [r for r in ph["regions"] if not r["gas"]]
+    assert len(filled) == 1 and ph["peak_field_per_sqrt_watt"] is None  # no gas in a filled guide
+    e0 = math.sqrt(4 * z_te / (A * B))
+    assert abs(filled[0]["peak_field_per_sqrt_watt"] - e0) <= filled[0]["peak_error"]
+    text = " ".join(R.report_table(loaded, an).split())  # wrapped lines joined
+    assert "Z_PV" in text and "±" in text and "check it against the dielectric strength" in text
+    assert "High RF power is hazardous" in text  # the cautions come with the numbers

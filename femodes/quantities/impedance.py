@@ -352,8 +352,10 @@ def _default_wall(mode, section):
         k = 1 + int(np.argmax(cur))
         return _conductor(k), f"inner conductor {k} (the whole conductor)", k
     c, d = _frame(mode, section)
-    return _half_walls(c, d), (f"the half of the walls on the ({d[0]:.3g}, {d[1]:.3g}) side of the centre "
-                               f"({c[0] * 1e3:.4g}, {c[1] * 1e3:.4g}) mm"), None
+    dx, dy = (float(v) + 0.0 for v in np.round(d, 12))  # + 0.0: no "-0" in the text
+    cx, cy = (float(v) * 1e3 + 0.0 for v in np.round(c, 15))
+    return _half_walls(c, d), (f"the half of the walls on the ({dx:.3g}, {dy:.3g}) side of the centre "
+                               f"({cx:.4g}, {cy:.4g}) mm"), None
 
 
 def _at_one_watt(vm, path, select, need_current=True):

@@ -56,6 +56,7 @@ class ModeQuantities:
     waves      :class:`~femodes.quantities.WaveQuantities` (every mode)
     losses     :class:`~femodes.quantities.Losses` (propagating modes only, else None)
     impedances {'PV': ohm, 'PI': ohm, 'VI': ohm} for the dominant mode and TEM modes, else None
+    impedance_errors  their estimated errors (ohm) where computed (loaded guides), else None
     power      :class:`~femodes.quantities.PowerHandling` (propagating modes only, else None)
     notes      what limits the numbers of this mode
     """
@@ -67,6 +68,7 @@ class ModeQuantities:
     voltage_path: tuple | None = None
     power: object = None
     notes: tuple = ()
+    impedance_errors: dict | None = None
 
     @property
     def propagates(self):
@@ -258,8 +260,19 @@ def _analyse_loaded(study, settings):
         if beta > 0 and float(ls.total) / beta > PERTURBATION_LIMIT:
             notes.append(f"loss is not small against beta (alpha / beta = {float(ls.total) / beta:.2g}): too close to "
                          "cutoff for the power-loss method; the loss figure is not reliable")
-        z, ph = None, None  # LOADED-Z: impedance and power handling of loaded modes are being added
-        rows.append(ModeQuantities(m, wq, ls, z, None, ph, tuple(notes)))
+        z, z_err, path = None, None, None
+        if m is study.at_frequency[0] or m.family == "TEM":
+            try:
+                li = Q.loaded_impedances(m, f, section=study.section)
+            except FemodesError as exc:
+                notes.append(f"impedances not available: {exc}")
+            else:
+                z = {k: _or_none(li.value(k)) for k in ("PV", "PI", "VI")}
+                z_err = {k: _or_none(li.error(k)) for k in ("PV", "PI", "VI")}
+                path = tuple(tuple(p) for p in li.path) if li.path is not None and len(li.path) == 2 else None
+                notes.append(f"impedances: V along the path given, I on {li.wall}")
+        ph = Q.power_handling(m, f, settings.breakdown_field, settings.safety_factor, section=study.section)
+        rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes), z_err))
     band = None
     cuts = study.modes
     if len(cuts) >= 2:
@@ -268,6 +281,11 @@ def _analyse_loaded(study, settings):
         band = Q.Band(f1, f2, f2 / f1, lo if lo < hi else None, hi if lo < hi else None, cuts[0].label, cuts[1].label)
     return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=None, family=None,
                     top_cutoff=math.nan, cautions=tuple(Q.CAUTIONS))
+
+
+def _or_none(x):
+    x = float(x)
+    return x if math.isfinite(x) else None
 
 
 def _mode_of(an, index):

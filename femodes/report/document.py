@@ -85,6 +85,15 @@ def modes_document(result, title=None, analysis=None) -> dict:
     return report_document(result, analysis=analysis, title=title)
 
 
+def _corner(c):
+    """A singular corner: its location (homogeneous guides) or location, kind and field (loaded)."""
+    if hasattr(c, "location"):
+        return {"location": [_finite(v) for v in c.location], "kind": c.kind,
+                "field_per_sqrt_watt": _finite(c.field_per_sqrt_watt), "region": c.region}
+    return {"location": [_finite(v) for v in c], "kind": "re-entrant wall corner", "field_per_sqrt_watt": None,
+            "region": None}
+
+
 def dispersion_document(disp) -> dict:
     """The "dispersion" object: per followed mode, beta (rad/m; null where evanescent), alpha
     (Np/m; null where propagating) and beta's error over the frequencies (Hz)."""
@@ -134,6 +143,8 @@ def analysis_document(an) -> dict:
              "wave_impedance": {"real": _finite(zw.real + 0.0), "imag": _finite(zw.imag + 0.0)},
              "impedances": None if q.impedances is None else {k: (None if v is None else _finite(v))
                                                              for k, v in q.impedances.items()},
+             "impedance_errors": None if q.impedance_errors is None else {
+                 k: _finite(v) for k, v in q.impedance_errors.items()},
              "voltage_path": None if q.voltage_path is None else [list(p) for p in q.voltage_path],
              "attenuation_np_per_m": None, "attenuation_db_per_m": None, "power_handling": None,
              "notes": list(q.notes)}
@@ -149,10 +160,17 @@ def analysis_document(an) -> dict:
             d["power_handling"] = {
                 "frequency": _finite(p.frequency),
                 "peak_field_per_sqrt_watt": _finite(p.peak_field_per_sqrt_watt),
-                "peak_location": [_finite(v) for v in p.peak_location],
+                "peak_error": _finite(getattr(p, "peak_error", None)),
+                "peak_location": None if p.peak_location is None else [_finite(v) for v in p.peak_location],
                 "breakdown_field": _finite(p.breakdown_field), "breakdown_power": _finite(p.breakdown_power),
+                "breakdown_power_error": _finite(getattr(p, "breakdown_power_error", None)),
                 "safety_factor": _finite(p.safety_factor), "rated_power": _finite(p.rated_power),
-                "corners": [[_finite(v) for v in c] for c in p.corners],
+                "regions": [{"name": r.name, "eps_r": _finite(r.eps_r), "gas": bool(r.gas),
+                             "peak_field_per_sqrt_watt": _finite(r.peak_field_per_sqrt_watt),
+                             "peak_error": _finite(r.peak_error),
+                             "peak_location": [_finite(v) for v in r.peak_location]}
+                            for r in getattr(p, "regions", ())],
+                "corners": [_corner(c) for c in p.corners],
                 "corner_exclusion": _finite(p.corner_exclusion), "warnings": list(p.warnings)}
         modes.append(d)
     b = an.band

@@ -203,9 +203,17 @@ def analysis_table(an, study=None) -> str:
                              "(from the electrostatic capacitance; the same for PV, PI and VI)")
                 continue
             order = [s.impedance] + [k for k in ("PV", "PI", "VI") if k != s.impedance]
-            parts = [f"Z_{k} = {_g(z[k], 5)} ohm" if z[k] is not None else f"Z_{k} = n/a" for k in order]
+            errs = q.impedance_errors or {}
+
+            def ztext(k):
+                if z[k] is None:
+                    return f"Z_{k} = n/a"
+                e = errs.get(k)
+                return f"Z_{k} = {_g(z[k], 5)}" + (f" ± {e:.1g}" if e is not None else "") + " ohm"
+
+            parts = [ztext(k) for k in order]
             lines.append(f"impedance of {q.mode.label} (#{q.mode.index + 1}): {parts[0]}  (also {parts[1]}, {parts[2]})")
-            if q.voltage_path is not None:
+            if q.voltage_path is not None and q.impedance_errors is None:
                 (x0, y0), (x1, y1) = q.voltage_path
                 lines += _wrap(f"V along ({_mm(x0)}, {_mm(y0)}) -> ({_mm(x1)}, {_mm(y1)}) mm "
                                "(through the centre, wall to wall); I: the longitudinal wall current on the half "
@@ -220,12 +228,25 @@ def analysis_table(an, study=None) -> str:
         rows = []
         for q in powered:
             p = q.power
-            x, y = p.peak_location
-            rows.append([str(q.mode.index + 1), q.mode.label, _g(p.peak_field_per_sqrt_watt, 4),
-                         f"({_mm(x)}, {_mm(y)})", power_text(p.breakdown_power), power_text(p.rated_power)])
+            where = "-" if p.peak_location is None else f"({_mm(p.peak_location[0])}, {_mm(p.peak_location[1])})"
+            gas = math.isfinite(p.peak_field_per_sqrt_watt)
+            err = getattr(p, "peak_error", None)
+            rows.append([str(q.mode.index + 1), q.mode.label,
+                         (_g(p.peak_field_per_sqrt_watt, 4) + (f" ± {err:.1g}" if err is not None else "")) if gas else "-",
+                         where, power_text(p.breakdown_power) if gas else "-", power_text(p.rated_power) if gas else "-"])
         lines += _grid(["#", "label", "peak |E| at 1 W [V/m]", "peak at (x, y) [mm]", "power at breakdown",
                         "rated power"],
                        rows, {0, 2, 4, 5})
+        for q in powered:
+            for r in getattr(q.power, "regions", ()):
+                if not r.gas:
+                    x, y = r.peak_location
+                    lines += _wrap(f"#{q.mode.index + 1} in {r.name} (eps_r {r.eps_r:g}): peak |E| at 1 W "
+                                   f"{_g(r.peak_field_per_sqrt_watt, 4)} ± {r.peak_error:.1g} V/m at ({_mm(x)}, {_mm(y)}) "
+                                   "mm: check it against the dielectric strength of the material", "  ", "    ")
+        if any(getattr(q.power, "regions", None) is not None for q in powered):
+            lines += _wrap("(peaks in the gas (eps_r near 1) are compared with the breakdown field; sharp wall and "
+                           "material corners are excluded by a small disc and reported in the warnings)", "  ", "  ")
         lines.append("")
     if not prop:
         lines += [f"no mode propagates at {fg} GHz (below the lowest cutoff)", ""]
