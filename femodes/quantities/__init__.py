@@ -14,7 +14,8 @@ psi is the longitudinal potential with int psi^2 dA = 1:
 
     TE:  e_t =  z x grad psi / kc,   so  h_t = -grad psi / kc
     TM:  e_t = -grad psi / kc,       so  h_t = -z x grad psi / kc
-    TEM: e_t = -grad phi * scale,    phi = 1 V on the inner conductor, scale = 1/sqrt(int |grad phi|^2)
+    TEM: e_t = -grad phi * scale,    phi = 1 V on the inner conductor, scale = 1/sqrt(int |grad phi|^2);
+         with N inner conductors phi = sum_i t_i phi_i, t the mode's modal voltages (:mod:`.lines`)
 
 Longitudinal fields (derived in :func:`longitudinal_factor`):
 
@@ -23,13 +24,15 @@ Longitudinal fields (derived in :func:`longitudinal_factor`):
 
 Losses use the power-loss (perturbation) method on the lossless mode (:mod:`.losses`);
 impedances use the usual power-voltage, power-current and voltage-current definitions
-(:mod:`.impedance`); power handling reports the peak field and the power at which it reaches a
-breakdown field, with the cautions that belong to it (:mod:`.power`); :mod:`.wave` has the wave
-quantities and the band.
+(:mod:`.impedance`), and for lines with several inner conductors the modal, even / odd,
+differential and common-mode impedances from the capacitance matrix (:mod:`.lines`); power
+handling reports the peak field and the power at which it reaches a breakdown field, with the
+cautions that belong to it (:mod:`.power`); :mod:`.wave` has the wave quantities and the band.
 """
 
 from femodes.constants import ETA0, NP_TO_DB
 from femodes.quantities.impedance import impedance, path_voltage, voltage_path, wall_current
+from femodes.quantities.lines import ModalImpedances, PairImpedances, line_of, modal_impedances, pair_impedances
 from femodes.quantities.losses import (
                                        METALS,
                                        Losses,
@@ -68,4 +71,5 @@ __all__ = [
     "conductivity_of", "skin_depth", "surface_resistance", "roughness_factor", "wall_integrals",
     "conductor_attenuation", "loaded_conductor_attenuation", "loaded_conductor_attenuation_error", "dielectric_attenuation", "attenuation", "losses", "to_db",
     "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
+    "ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances",
 ]
