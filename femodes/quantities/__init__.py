@@ -32,7 +32,7 @@ cautions that belong to it (:mod:`.power`); :mod:`.wave` has the wave quantities
 
 from femodes.constants import ETA0, NP_TO_DB
 from femodes.quantities.impedance import impedance, path_voltage, voltage_path, wall_current
-from femodes.quantities.lines import ModalImpedances, PairImpedances, line_of, modal_impedances, pair_impedances
+from femodes.quantities.lines import LineParameters, ModalImpedances, PairImpedances, line_of, modal_impedances, pair_impedances
 from femodes.quantities.losses import (
                                        METALS,
                                        Losses,
@@ -71,5 +71,5 @@ __all__ = [
     "conductivity_of", "skin_depth", "surface_resistance", "roughness_factor", "wall_integrals",
     "conductor_attenuation", "loaded_conductor_attenuation", "loaded_conductor_attenuation_error", "dielectric_attenuation", "attenuation", "losses", "to_db",
     "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
-    "ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances",
+    "LineParameters", "ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances",
 ]

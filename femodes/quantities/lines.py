@@ -41,7 +41,7 @@ import numpy as np
 from femodes.errors import FemodesError
 from femodes.solvers.electrostatic import LineParameters
 
-__all__ = ["ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances"]
+__all__ = ["LineParameters", "ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances"]
 
 
 @dataclass(frozen=True)
