@@ -25,6 +25,7 @@ from femodes.modes.loaded import LoadedCutoff, LoadedMode
 from femodes.modes.model import ModeSet
 from femodes.modes.parents import _parents
 from femodes.solvers.discretise import ELEMENT_ORDERS
+from femodes.solvers.electrostatic import line_parameters
 from femodes.solvers.loaded import ORDER, solve_loaded
 from femodes.solvers.scalar import DEFAULT_ORDER, solve_scalar, solve_scalar_mesh
 
@@ -91,9 +92,10 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
 
 def _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family):
     """Name the scalar solution's modes (femodes.modes.labels) and wrap them in a ModeSet."""
-    modes = build_modes(section, sol.fine, sol.merged, sol.tem, eps_r, mu_r, sol.safety, n_modes)
+    line = line_parameters(sol.tem, eps_r, mu_r)
+    modes = build_modes(section, sol.fine, sol.merged, sol.tem, eps_r, mu_r, sol.safety, n_modes, line)
     return ModeSet(modes, section=section, mesh=sol.mesh, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy,
-                   n_dofs=sol.n_dofs, order=sol.order, mesh_size=sol.mesh_size, family=family)
+                   n_dofs=sol.n_dofs, order=sol.order, mesh_size=sol.mesh_size, family=family, line=line)
 
 
 def _check_count(modes):

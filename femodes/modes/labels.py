@@ -22,6 +22,7 @@ from dataclasses import replace
 import numpy as np
 
 from femodes.modes.model import Mode
+from femodes.solvers.electrostatic import line_parameters
 from femodes.solvers.fields import ModeField, interpolation_matrices, reference_points_matrix
 
 _CENTROID = np.array([[1 / 3], [1 / 3]])
@@ -176,8 +177,16 @@ def _symmetry_adapt(an, X):
     return np.hstack(out)
 
 
-def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
-    """Turn merged eigen rows and TEM potentials into labelled Mode objects (ascending cutoff)."""
+def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=None):
+    """Turn merged eigen rows and TEM potentials into labelled Mode objects (ascending cutoff).
+
+    TEM modes (kc = 0) come first, one per inner conductor: the modal set of the line
+    (``line``, :class:`femodes.solvers.electrostatic.LineParameters`, computed from ``tem`` when
+    not given), mode k with the potential psi_k = sum_i T_ik phi_i of the conductor potentials
+    phi_i and the modal voltages T (eigenvectors of the capacitance matrix, ascending modal
+    impedance), e_t = -grad psi_k / sqrt(int |grad psi_k|^2 dA), and the line's modal label
+    ('TEM' for one inner conductor, 'TEM even' / 'TEM odd' for a symmetric pair, else 'TEM1',
+    'TEM2', ...).  The fields of different TEM modes are orthogonal (int e_k . e_l dA = 0)."""
     disc = fine["disc"]
     an = _Analyser(section, disc)
     M = disc.M
@@ -201,9 +210,17 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
                 for k, i in enumerate(idx):
                     vectors[i] = Y[:, k]
     modes = []
-    for phi, energy in tem:
-        fld = ModeField(disc.basis, phi, "TEM", 0.0, 1.0 / math.sqrt(energy))
-        modes.append(dict(family="TEM", lam=0.0, err=0.0, field=fld, res=0.0, vec=phi))
+    if tem is not None and line is None:
+        line = line_parameters(tem, eps_r, mu_r)
+    tem_labels = []
+    if tem is not None:
+        for k in range(line.n_conductors):
+            t = line.modal_voltages[:, k]
+            psi = tem.potentials @ t
+            energy = float(t @ tem.gram @ t)  # int |grad psi|^2 dA = Lambda_k / eps
+            fld = ModeField(disc.basis, psi, "TEM", 0.0, 1.0 / math.sqrt(energy))
+            modes.append(dict(family="TEM", lam=0.0, err=0.0, field=fld, res=0.0, vec=psi))
+            tem_labels.append(line.modal_labels[k])
     for i, r in enumerate(rows):
         x = vectors[i]
         x = x / math.sqrt(float(x @ (M @ x)))
@@ -231,8 +248,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes):
         kc = math.sqrt(m["lam"])
         info = dict(indices=None, symmetry={}, nodal_domains=None)
         if fam == "TEM":
-            n_tem = sum(1 for q in modes if q["family"] == "TEM")
-            label = "TEM" if n_tem == 1 else f"TEM{ordinals[fam]}"
+            label = tem_labels[k]
         else:
             x = m["vec"]
             info["symmetry"] = an.parity(x)

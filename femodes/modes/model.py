@@ -5,6 +5,10 @@ Conventions (homogeneous fill eps_r, mu_r; fields vary as exp(j (omega t - beta 
 * ``psi`` is the longitudinal potential: E_z for TM modes, H_z for TE modes, normalised so that
   int psi^2 dA = 1 (units 1/m).  For a TEM mode psi is the electrostatic potential (1 V on the
   inner conductor, 0 on the outer wall) and e_t = -grad psi, normalised to int |e_t|^2 dA = 1.
+  With N inner conductors the TEM modes are the line's modal set: psi_k = sum_i t_ki phi_i with
+  phi_i the potential of conductor i at 1 V (others at 0) and t_k the unit eigenvectors of the
+  capacitance matrix (``ModeSet.line``, :mod:`femodes.solvers.electrostatic`); their e_t are
+  mutually orthogonal.
 * The transverse mode vectors are normalised to int |e_t|^2 dA = 1 (units 1/m):
       TM:  e_t = -grad_t psi / kc,            h_t = z x e_t
       TE:  e_t =  z x grad_t psi / kc,        h_t = z x e_t
@@ -207,7 +211,9 @@ class ModeSet(tuple):
     """The modes of one solve, ascending in cutoff: a tuple of :class:`Mode` with extras.
 
     Attributes: section, mesh (the mesh used), eps_r, mu_r, accuracy (asked), n_dofs, order,
-    mesh_size, family (None, or 'TE'/'TM' for a one-family solve).
+    mesh_size, family (None, or 'TE'/'TM' for a one-family solve), line (for a guide with inner
+    conductors: :class:`femodes.solvers.electrostatic.LineParameters`, the capacitance and
+    inductance matrices with their errors and the TEM modal set; None without).
     """
 
     def __new__(cls, modes, **info):

@@ -14,7 +14,8 @@ psi is the longitudinal potential with int psi^2 dA = 1:
 
     TE:  e_t =  z x grad psi / kc,   so  h_t = -grad psi / kc
     TM:  e_t = -grad psi / kc,       so  h_t = -z x grad psi / kc
-    TEM: e_t = -grad phi * scale,    phi = 1 V on the inner conductor, scale = 1/sqrt(int |grad phi|^2)
+    TEM: e_t = -grad phi * scale,    phi = 1 V on the inner conductor, scale = 1/sqrt(int |grad phi|^2);
+         with N inner conductors phi = sum_i t_i phi_i, t the mode's modal voltages (:mod:`.lines`)
 
 Longitudinal fields (derived in :func:`longitudinal_factor`):
 
@@ -23,7 +24,9 @@ Longitudinal fields (derived in :func:`longitudinal_factor`):
 
 Losses use the power-loss (perturbation) method on the lossless mode (:mod:`.losses`);
 impedances use the usual power-voltage, power-current and voltage-current definitions
-(:mod:`.impedance`); power handling reports the peak field and the power at which it reaches a
+(:mod:`.impedance`), and for lines with several inner conductors the modal, even / odd,
+differential and common-mode impedances from the capacitance matrix (:mod:`.lines`); power
+handling reports the peak field and the power at which it reaches a
 breakdown field, with the cautions that belong to it (:mod:`.power`); :mod:`.wave` has the wave
 quantities and the band.
 
@@ -46,6 +49,7 @@ from femodes.quantities.impedance import (
                                        voltage_path,
                                        wall_current,
 )
+from femodes.quantities.lines import LineParameters, ModalImpedances, PairImpedances, line_of, modal_impedances, pair_impedances
 from femodes.quantities.losses import (
                                        METALS,
                                        Losses,
@@ -96,4 +100,5 @@ __all__ = [
     "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
     "GAS_MAX_EPS_R", "LoadedImpedances", "LoadedPowerHandling", "RegionPeak", "CornerField",
     "loaded_impedances", "loaded_power_handling", "lower_order_partner",
+    "LineParameters", "ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances",
 ]

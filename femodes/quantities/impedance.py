@@ -208,7 +208,10 @@ def impedance(mode, f, kind="PV", path=None, section=None, wall=None):
     TEM modes: the line impedance from the electrostatic problem, Z = 1 / (v C) with
     C = eps int |grad phi|^2 dA for phi = 1 V on the inner conductor (and 0 V on the others), so
     Z = eta / int |grad phi|^2 dA, for every ``kind`` unless a ``path`` is given with kind "PV".
-    With several inner conductors this is the self term of each conductor (the others grounded).
+    With several inner conductors the TEM modes are the line's modal set (eigenvectors t_k of the
+    capacitance matrix, unit length) and this is the modal impedance 1 / (v Lambda_k)
+    (:func:`femodes.quantities.lines.modal_impedances`; even / odd / differential impedances of a
+    pair: :func:`femodes.quantities.lines.pair_impedances`).
     """
     kd = str(kind).upper()
     if kd not in ("PV", "PI", "VI"):

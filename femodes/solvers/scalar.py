@@ -1,7 +1,10 @@
 """solve(): section -> mesh -> discretise -> eigen -> modes, with an error estimate on every cutoff.
 
 Homogeneous fill.  TM modes are the Dirichlet eigenvalues kc^2 of -laplace E_z, TE modes the non-zero
-Neumann eigenvalues of -laplace H_z; a section with k inner conductors also has k TEM modes (kc = 0).
+Neumann eigenvalues of -laplace H_z; a section with k inner conductors also has k TEM modes (kc = 0),
+from the conductor potentials and their capacitance matrix (:mod:`femodes.solvers.electrostatic`),
+which the accuracy loop refines with the cutoffs: its relative error (each entry against
+sqrt(C_ii C_jj)) is estimated the same way and held to the same accuracy.
 
 Accuracy control.  Each solve is repeated on two meshes graded the same way, a fine one of size h
 and a coarser one; with conforming elements of order p on corner-graded meshes the eigenvalue
@@ -30,6 +33,7 @@ from femodes.geometry.mesh import mesh_section
 from femodes.geometry.section import Section
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
+from femodes.solvers.electrostatic import Electrostatics, conductor_groups, conductor_potentials, gram_error, relative_error
 
 __all__ = ["solve_scalar", "solve_scalar_mesh", "ScalarSolution", "DEFAULT_ORDER", "MAX_DOFS"]
 
@@ -58,14 +62,15 @@ class ScalarSolution:
 
     fine    : the final discrete solve (dict: mesh, disc, n_dofs, h, and per family (lam, X, res))
     merged  : wanted rows (kc^2, error of kc^2, family, column in fine[family], residual), ascending
-    tem     : [(phi, int |grad phi|^2 dA)] electrostatic potentials, one per inner conductor
+    tem     : :class:`Electrostatics` of the inner conductors (potentials phi_i, their energy
+              products and errors; femodes.solvers.electrostatic), or None without inner conductors
     safety  : the factor the raw Richardson estimates carry (SAFETY)
     mesh_size : the fine element size h (m), None on a fixed mesh
     """
 
     fine: dict
     merged: list
-    tem: list
+    tem: Electrostatics | None
     safety: float
     order: int
     mesh_size: float | None
@@ -134,11 +139,13 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
                 continue
             merged = _merge(fine, coarse, p, want)
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
+            tem = _tem_statics(fine, coarse, p, section) if n_tem else None
+            worst = max(worst, relative_error(tem))
             trusted = (fine["n_dofs"] >= _MIN_DOF_RATIO * coarse["n_dofs"]
                        and math.sqrt(merged[-1][0]) * coarse["h"] <= _KH_MAX[p] * 1.5) if merged else True
             _debug(f"iteration {it}: h={h:.4g} N={fine['n_dofs']} (coarse {coarse['n_dofs']}) "
                    f"worst estimate {worst:.2e} trusted={trusted}")
-            if mesh_size is not None or (worst <= accuracy and trusted) or not merged:
+            if mesh_size is not None or (worst <= accuracy and trusted) or not (merged or n_tem):
                 break
             shrink = min(0.85, max(0.3, (0.3 * accuracy / worst) ** (1.0 / _rate(fine, p))))
             if not trusted:
@@ -151,10 +158,11 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
         else:
             merged = _merge(fine, coarse, p, want)
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
+            tem = _tem_statics(fine, coarse, p, section) if n_tem else None
+            worst = max(worst, relative_error(tem))
         if worst > accuracy and mesh_size is None:
             warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached; estimated {worst:.1e} "
                           f"with {fine['n_dofs']} unknowns", RuntimeWarning, stacklevel=2)
-        tem = _tem_modes(fine, section) if n_tem else []
     return ScalarSolution(fine, merged, tem, _safety(fine), p, h)
 
 
@@ -315,45 +323,32 @@ def _rate(fine, p):
 
 def _conductors(mesh):
     """Boundary facets grouped by conductor (connected boundary pieces), outer wall first
-    (the piece of largest extent)."""
-    from scipy.sparse import coo_matrix
-    from scipy.sparse.csgraph import connected_components
-
-    bf = mesh.boundary_facets()
-    fv = mesh.facets[:, bf]
-    nv = mesh.t.max() + 1
-    g = coo_matrix((np.ones(fv.shape[1]), (fv[0], fv[1])), shape=(nv, nv))
-    _, lab = connected_components(g, directed=False)
-    comp = lab[fv[0]]
-    groups = [bf[comp == c] for c in np.unique(comp)]
-    ext = [np.ptp(mesh.doflocs[:, mesh.facets[:, gr].ravel()], axis=1).max() for gr in groups]
-    return [groups[i] for i in np.argsort(ext)[::-1]]
+    (the piece of largest extent); see femodes.solvers.electrostatic.conductor_groups."""
+    return conductor_groups(mesh)[0]
 
 
-def _tem_modes(fine, section):
-    """Electrostatic TEM potentials: 1 V on inner conductor i, 0 on all other conductors.
+def _tem_statics(fine, coarse, p, section, same_mesh=False):
+    """The conductor potentials on the fine discretisation with the error of their energy
+    products (the capacitance matrix over eps) from the coarse one.
 
-    Returns (phi, int |grad phi|^2 dA) per inner conductor; e_t = -grad phi / sqrt(energy).
+    The energy of the Dirichlet problem converges like an eigenvalue (the square of the
+    energy-norm error of the potential), so the same rate and safety factor as the cutoffs are
+    used: Richardson between two meshes with s^rate, s = sqrt(N_fine / N_coarse); with
+    ``same_mesh`` (order p - 1 on the same mesh) the whole difference is the error.
     """
-    from scipy.sparse.linalg import spsolve
-
-    disc = fine["disc"]
-    basis = disc.basis
-    groups = _conductors(basis.mesh)
-    cond_dofs = [np.unique(basis.get_dofs(facets=gr).flatten()) for gr in groups]
-    boundary = disc.boundary
-    interior = disc.interior()
-    K = disc.K
-    K_ii = K[interior][:, interior].tocsc()
-    K_ib = K[interior][:, boundary]
-    out = []
-    for i in range(1, len(groups)):
-        phi = np.zeros(disc.n_dofs)
-        phi[cond_dofs[i]] = 1.0
-        phi[interior] = spsolve(K_ii, -(K_ib @ phi[boundary]))
-        energy = float(phi @ (K @ phi))  # int |grad phi|^2 = C / eps
-        out.append((phi, energy))
-    return out
+    for res in (fine, coarse):
+        if "statics" not in res:
+            res["statics"] = conductor_potentials(res["disc"], section)
+    Phi, g, centroids = fine["statics"]
+    g_c = coarse["statics"][1]
+    if g_c.shape != g.shape:
+        raise RuntimeError("the two meshes found different numbers of conductors")
+    if same_mesh:
+        divisor, safety = 1.0, 1.0
+    else:
+        divisor = max((fine["n_dofs"] / coarse["n_dofs"]) ** (_rate(fine, p) / 2) - 1.0, 0.25)
+        safety = _safety(fine)
+    return Electrostatics(Phi, g, gram_error(g, g_c, divisor, safety, fine["n_dofs"]), centroids)
 
 
 def solve_scalar_mesh(mesh, n_modes, family, p):
@@ -371,7 +366,7 @@ def solve_scalar_mesh(mesh, n_modes, family, p):
         n_tem = _count_conductors(fine) - 1 if family is None else 0
         want = max(0, n_modes - n_tem)
         merged = _merge(fine, coarse, p, want, same_mesh=True)
-        tem = _tem_modes(fine, None) if n_tem else []
+        tem = _tem_statics(fine, coarse, p, None, same_mesh=True) if n_tem else None
     return ScalarSolution(fine, merged, tem, 1.0, p, None)
 
 
