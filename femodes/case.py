@@ -835,7 +835,8 @@ def _build_group_region(table, where, mesh):
     shape_keys = [k for k in table if k not in allowed and (k == "shape" or any(
         k in {x.name for x in spec.keys} for spec in SHAPES.values()) or k in {x.name for x in PLACEMENT})]
     if shape_keys:
-        raise FemodesError(f"{where}: {', '.join(map(repr, shape_keys))} do(es) not apply to a mesh-file guide: "
+        verb = "does" if len(shape_keys) == 1 else "do"
+        raise FemodesError(f"{where}: {', '.join(map(repr, shape_keys))} {verb} not apply to a mesh-file guide: "
                            "its regions are the mesh's own groups of triangles; name one with group = \"...\" "
                            f"(groups in {mesh.source}: {groups}; valid keys: {', '.join(allowed)})")
     for k in table:
