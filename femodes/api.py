@@ -172,6 +172,9 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     ``frequencies`` (Hz) by field overlap, so crossing curves keep their identities
     (:meth:`femodes.vector.VectorProblem.dispersion`).
 
+    ``section``: a Section with material regions, or a Mesh whose groups carry materials (its
+    fixed mesh is used as it is, solved at the top frequency for the error check).
+
     The mesh is the one :func:`solve_loaded` refines at the highest frequency (the hardest: the
     shortest wavelength) to ``accuracy`` (f_min / f_max)^2 / 4, so that the error of beta^2
     relative to k0^2 eps_max mu_max stays within ``accuracy`` down to the lowest frequency (the 4:
@@ -248,7 +251,8 @@ class LoadedStudy:
 def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_delta=0.0,
           frequency=None, band=None, points=41, conductivity=5.8e7, roughness=0.0, conductor=None):
     """Cutoffs, modes at ``frequency`` (Hz) and dispersion over ``band`` (f1, f2 Hz, ``points``
-    frequencies) of a section with material regions: the loaded-guide part of a case file.  The
+    frequencies) of a section with material regions (or a mesh file with materials, solved on its
+    fixed mesh): the loaded-guide part of a case file.  The
     dispersion follows the modes whose cutoff (of the ``modes`` computed) lies below f2.
     ``conductivity`` (S/m), ``roughness`` (m) and ``conductor`` (its description) are the wall
     metal for the wall loss of the modes at ``frequency``."""
