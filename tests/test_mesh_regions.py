@@ -112,6 +112,14 @@ def test_read_mesh_keeps_physical_surfaces_as_named_groups(tmp_path, version, se
     assert np.array_equal(back.regions == back.region_names["slab"], slab)
 
 
+def test_unnamed_physical_groups_go_by_their_number(tmp_path):
+    mesh = fm.mesh_section(fm.rectangle(A, B), 3e-3, order=2)
+    fm.write_mesh(mesh, tmp_path / "plain.msh")     # one physical surface, tag 1, no name
+    back = fm.read_mesh(str(tmp_path / "plain.msh"))
+    assert back.groups == ("1",)
+    assert back.with_materials({"1": 2.0}).material_index().min() == 1
+
+
 def test_read_mesh_takes_cell_sets_of_other_formats(tmp_path, slab_file):
     mesh = fm.read_mesh(slab_file, scale=1e-3)
     sets = {n: [np.flatnonzero(mesh.regions == t)] for n, t in mesh.region_names.items() if t > 0}
@@ -220,6 +228,9 @@ def test_filled_circle_with_curved_triangles_is_the_handbook_guide(tmp_path):
     # TE11 (pair), TM01, TE21 of the circular guide: kc = p'_11 / R, p_01 / R, p'_21 / R
     # (Pozar sec. 3.4; zeros from scipy.special)
     kcs = [jnp_zeros(1, 1)[0] / R] * 2 + [jn_zeros(0, 1)[0] / R, jnp_zeros(2, 1)[0] / R]
+    # the true error here includes the meshed circle's own (second-order edges on the arc), which
+    # the estimate of orders 3 and 2 on this mesh does not see; small enough at this mesh size
+    # (measured: true error 0.24-0.33 of the estimate for the TE11 pair, 0.04-0.09 for the others)
     for m, kc in zip(modes, kcs):
         exact = math.sqrt(k0 * k0 * eps - kc * kc)
         true = abs(m.beta() - exact)
