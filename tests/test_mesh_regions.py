@@ -230,7 +230,8 @@ def test_filled_circle_with_curved_triangles_is_the_handbook_guide(tmp_path):
     kcs = [jnp_zeros(1, 1)[0] / R] * 2 + [jn_zeros(0, 1)[0] / R, jnp_zeros(2, 1)[0] / R]
     # the true error here includes the meshed circle's own (second-order edges on the arc), which
     # the estimate of orders 3 and 2 on this mesh does not see; small enough at this mesh size
-    # (measured: true error 0.24-0.33 of the estimate for the TE11 pair, 0.04-0.09 for the others)
+    # (measured at this size: true error 0.25-0.27 of the estimate for the TE11 pair, 0.05-0.08 for
+    # TM01 and TE21)
     for m, kc in zip(modes, kcs):
         exact = math.sqrt(k0 * k0 * eps - kc * kc)
         true = abs(m.beta() - exact)
