@@ -3,9 +3,11 @@ its modes.
 
 A homogeneously filled section (or a mesh file) goes to the scalar solver
 (:mod:`femodes.solvers.scalar`), whose eigenpairs :mod:`femodes.modes.labels` turns into a
-:class:`~femodes.modes.ModeSet`; a section with material regions goes to the full-vector solver
-(:mod:`femodes.solvers.loaded`), whose modes :mod:`femodes.modes.parents` names after the
-empty-guide mode each grows from.  Arguments are checked here, once, with messages that say what
+:class:`~femodes.modes.ModeSet`; a section with material regions, or a mesh file whose named
+groups were given materials (:meth:`Mesh.with_materials`), goes to the full-vector solver
+(:mod:`femodes.solvers.loaded`: refined meshes for a section, orders p and p - 1 on the one mesh
+for a mesh file), whose modes :mod:`femodes.modes.parents` names after the empty-guide mode each
+grows from.  Arguments are checked here, once, with messages that say what
 would be valid.
 """
 
@@ -26,7 +28,7 @@ from femodes.modes.model import ModeSet
 from femodes.modes.parents import _parents
 from femodes.solvers.discretise import ELEMENT_ORDERS
 from femodes.solvers.electrostatic import line_parameters
-from femodes.solvers.loaded import ORDER, solve_loaded
+from femodes.solvers.loaded import ORDER, solve_loaded, solve_loaded_mesh
 from femodes.solvers.scalar import DEFAULT_ORDER, solve_scalar, solve_scalar_mesh
 
 __all__ = ["solve", "dispersion", "study", "Study", "LoadedStudy", "DispersionTable", "DEFAULT_ORDER"]
@@ -40,7 +42,9 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
 
     Parameters
     ----------
-    section  : a Section (from the shape functions) or a Mesh (from :func:`femodes.read_mesh`)
+    section  : a Section (from the shape functions) or a Mesh (from :func:`femodes.read_mesh`;
+               with materials in its named groups, ``read_mesh(...).with_materials({...})``, it
+               is solved full-vector on that fixed mesh like a section with material regions)
     modes    : how many mode objects to return (each member of a degenerate pair counts; TEM count)
     eps_r, mu_r : relative permittivity and permeability of the filling (real, > 0)
     accuracy : relative error on each kc that the solver aims for and estimates (default 1e-6)
@@ -72,7 +76,17 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     if p is None:
         raise FemodesError(f"order must be one of {ELEMENT_ORDERS}, got {order!r}")
 
+    if isinstance(section, Mesh) and section.materials:
+        if family is not None:
+            raise FemodesError("family= does not apply to a mesh with materials: its modes are hybrid in general "
+                               "(leave family out)")
+        return _loaded_modes(section, n_modes, frequency, eps_r, mu_r, accuracy, order=order,
+                             evanescent=evanescent)[0]
     if isinstance(section, Mesh):
+        if frequency is not None:
+            raise FemodesError("frequency= is for guides with material regions (hybrid modes); this mesh has "
+                               "none: give its named groups materials with mesh.with_materials({...}), or "
+                               "use mode.beta(f) of the modes of the empty guide")
         sol = solve_scalar_mesh(section, n_modes, family, p)
         return _mode_set(sol, None, n_modes, eps_r, mu_r, accuracy, family)
     if not isinstance(section, Section):
@@ -124,8 +138,9 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
     ``frequency`` or LoadedCutoffs without, each named after the empty-guide mode it grows from
     when ``parents`` (an extra solve of the empty guide on the final mesh; ``bare`` the bare
     section's labelled scalar modes when the caller has them)."""
-    sol = solve_loaded(section, modes, frequency, eps_r, mu_r, accuracy, order=order, evanescent=evanescent,
-                       tan_delta=tan_delta)
+    solver = solve_loaded_mesh if isinstance(section, Mesh) else solve_loaded  # a mesh file: fixed mesh
+    sol = solver(section, modes, frequency, eps_r, mu_r, accuracy, order=order, evanescent=evanescent,
+                 tan_delta=tan_delta)
     objs, err, vals = sol.objects, sol.errors, sol.values
     picked = [objs[i] for i in sol.keep]
     named = {}
@@ -160,14 +175,18 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     ``frequencies`` (Hz) by field overlap, so crossing curves keep their identities
     (:meth:`femodes.vector.VectorProblem.dispersion`).
 
+    ``section``: a Section with material regions, or a Mesh whose groups carry materials (its
+    fixed mesh is used as it is, solved at the top frequency for the error check).
+
     The mesh is the one :func:`solve_loaded` refines at the highest frequency (the hardest: the
     shortest wavelength) to ``accuracy`` (f_min / f_max)^2 / 4, so that the error of beta^2
     relative to k0^2 eps_max mu_max stays within ``accuracy`` down to the lowest frequency (the 4:
     a margin for modes away from the top frequency); assembled once, the curves are computed on it.  Returns a
     :class:`femodes.vector.Dispersion` (``frequencies``, ``beta`` (F, N), ``family``, ``overlap``).
     """
-    if not isinstance(section, Section):
-        raise FemodesError(f"dispersion() needs a section, got {type(section).__name__}")
+    fixed = isinstance(section, Mesh) and bool(section.materials)
+    if not (isinstance(section, Section) or fixed):
+        raise FemodesError(f"dispersion() needs a section or a mesh with materials, got {type(section).__name__}")
     fs = np.atleast_1d(np.asarray(frequencies, dtype=float))
     if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0):
         raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}")
@@ -177,8 +196,12 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     # the tracked modes away from the top frequency, whose errors its estimate does not see
     # (measured on the slab-loaded WR-90, 8-16 GHz: 1.5e-6 at accuracy 1e-6 without the margin)
     acc = float(accuracy) * (float(fs.min()) / float(fs.max())) ** 2 / 4.0
-    problem = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, acc, order=p,
-                           evanescent=True, tan_delta=tan_delta).problem
+    if fixed:  # a mesh file is not refined: its problem at the top frequency, estimate checked as asked
+        problem = solve_loaded_mesh(section, modes, float(fs.max()), eps_r, mu_r, float(accuracy), order=p,
+                                    evanescent=True, tan_delta=tan_delta).problem
+    else:
+        problem = solve_loaded(section, modes, float(fs.max()), eps_r, mu_r, acc, order=p,
+                               evanescent=True, tan_delta=tan_delta).problem
     disp = problem.dispersion(fs, modes=modes)  # the same assembled problem, reused
     if not labels:
         return disp
@@ -284,13 +307,13 @@ def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_
           frequency=None, band=None, points=41, family=None):
     """Cutoffs, modes at ``frequency`` (Hz) and dispersion over ``band`` (f1, f2 Hz, ``points``
     frequencies) of any guide: what a case file asks.  A homogeneous guide is solved once for its
-    cutoffs (its dispersion is closed-form); a loaded one (section with material regions) for its
+    cutoffs (its dispersion is closed-form); a loaded one (section with material regions, or a mesh file with materials, solved on its fixed mesh) for its
     cutoffs, at the frequency, and along the band (following the modes whose cutoff, of the
     ``modes`` computed, lies below the band top).  ``tan_delta``: the fill's loss tangent (a
     loaded solve takes it into its modes; a homogeneous one leaves it to the quantities).
     Returns a :class:`Study`."""
     fs = None if band is None else np.linspace(float(band[0]), float(band[1]), int(points))
-    if isinstance(section, Mesh) or not section.materials:
+    if not section.materials:
         ms = solve(section, modes=modes, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy, family=family, order=order)
         disp = None if fs is None else _closed_form_dispersion(ms, fs)
         return Study(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), ms.order, ms, ms.n_dofs,

@@ -30,7 +30,8 @@ Top level::
     polygon           vertices = [[x, y], ...] (at least 3, in order around the outline);
                       optional holes = [[[x, y], ...], ...] (inner conductors)
     mesh              file = "path/to/mesh.msh": a triangle mesh (gmsh .msh or any format meshio
-                      reads), relative to the case file; its coordinates are in `units`
+                      reads), relative to the case file; its coordinates are in `units`; its named
+                      groups of triangles (gmsh physical surfaces) can be filled by [[region]] tables
 
     Placement (every shape except mesh), applied in this order: mirror, rotate, offset.
     mirror      "x" (x -> -x) or "y" (y -> -y)
@@ -52,6 +53,17 @@ takes a shape of the list below except mesh, with its keys and placement, in the
     name        what the report calls the region (default: by its permittivity)
 
     A later region wins where two overlap; parts of a region outside the guide are ignored.
+
+    With shape = "mesh" in [guide] a region is one of the file's named groups of triangles (a
+    gmsh physical surface) instead of a shape:
+
+    group       the group's name in the mesh file (required; an unnamed gmsh group by its
+                number in quotes, "2"); each group at most once
+    eps_r, mu_r, tan_delta, name   as above (name defaults to the group's name)
+
+    Shape and placement keys do not apply there, and group applies to mesh files only.  The
+    mesh is not refined: the error of each value is estimated from elements of order p and
+    p - 1 on it, and a warning says when it misses the asked accuracy.
     Such a case reports the lowest cutoffs (beta = 0) of the loaded guide and, with [analysis],
     the propagating modes at the frequency (beta, guide wavelength, phase and group velocity,
     dielectric loss, wall loss with the [analysis] conductor and roughness_um; which empty-guide
@@ -129,7 +141,7 @@ from typing import Callable
 from femodes.api import study
 from femodes.errors import FemodesError
 from femodes.geometry import shapes as _sec
-from femodes.geometry.mesh import read_mesh
+from femodes.geometry.mesh import Mesh, read_mesh
 from femodes.quantities import METALS, conductivity_of
 
 try:  # Python >= 3.11
@@ -493,8 +505,6 @@ def _build_case(data, base_dir, path):
     regions = data.get("region", [])
     if isinstance(regions, dict):
         raise FemodesError("write each material region as a [[region]] table (double brackets), not [region]")
-    if regions and not hasattr(section, "with_material"):
-        raise FemodesError("[[region]] tables need a shape in [guide]; a mesh file cannot take material regions")
     for i, r in enumerate(regions, start=1):
         section = _build_region(r, i, units, section)
     loaded = bool(regions)
@@ -550,6 +560,9 @@ def _build_case(data, base_dir, path):
     if loaded and solve.get("order", 3) > 3:
         raise FemodesError(f"order in [solve] must be 1, 2 or 3 for a guide with [[region]] tables (edge "
                            f"elements), got {solve['order']}")
+    if loaded and isinstance(section, Mesh) and solve.get("order", 3) < 2:
+        raise FemodesError("order in [solve] must be 2 or 3 for a mesh file with [[region]] tables (the error "
+                           "estimate on a fixed mesh compares order p with p - 1), got 1")
     analysis = None
     if "analysis" in data:
         an = _table(data, "analysis")
@@ -765,6 +778,12 @@ def _build_region(table, number, units, section):
     where = f"[[region]] {number}"
     if not isinstance(table, dict):
         raise FemodesError(f"region must be written as [[region]] tables (one per region), got {_show(table)}")
+    if isinstance(section, Mesh):
+        return _build_group_region(table, where, section)
+    if "group" in table:
+        raise FemodesError(f"group in {where} names a group of triangles of a mesh file; it applies only with "
+                           "shape = \"mesh\" in [guide].  Give this region a shape instead (one of "
+                           f"{', '.join(n for n in SHAPES if n != 'mesh')}, with its keys)")
     if "shape" not in table:
         raise FemodesError(f"{where} needs shape = one of {', '.join(n for n in SHAPES if n != 'mesh')}, "
                            "with that shape's keys, and eps_r")
@@ -777,6 +796,16 @@ def _build_region(table, number, units, section):
     spec = SHAPES[shape]
     allowed = ("shape",) + tuple(k.name for k in spec.keys) + tuple(k.name for k in PLACEMENT) + _REGION_KEYS
     _check_shape_keys(table, shape, spec, allowed, where)
+    vals = _region_material(table, where)
+    region = _shape_from(table, shape, spec, UNITS[units], units, where)
+    try:
+        return section.with_material(region, **vals)
+    except FemodesError as exc:
+        raise FemodesError(f"{where}: {exc}") from None
+
+
+def _region_material(table, where):
+    """eps_r (required), mu_r, tan_delta and name of a [[region]] table, checked."""
     if "eps_r" not in table:
         raise FemodesError(f"{where} needs eps_r (its relative permittivity; 1 for air)")
     vals = _material_values(table, where)
@@ -784,9 +813,36 @@ def _build_region(table, number, units, section):
         if not isinstance(table["name"], str):
             raise FemodesError(f"name in {where} must be a string, got {_show(table['name'])}")
         vals["name"] = table["name"]
-    region = _shape_from(table, shape, spec, UNITS[units], units, where)
+    return vals
+
+
+def _build_group_region(table, where, mesh):
+    """A [[region]] table of a mesh-file guide: ``group`` names a group of the file's triangles
+    (a gmsh physical surface), which gets the table's material; shapes do not apply."""
+    allowed = ("group",) + _REGION_KEYS
+    groups = ", ".join(repr(g) for g in mesh.groups) or "none"
+    shape_keys = [k for k in table if k not in allowed and (k == "shape" or any(
+        k in {x.name for x in spec.keys} for spec in SHAPES.values()) or k in {x.name for x in PLACEMENT})]
+    if shape_keys:
+        verb = "does" if len(shape_keys) == 1 else "do"
+        raise FemodesError(f"{where}: {', '.join(map(repr, shape_keys))} {verb} not apply to a mesh-file guide: "
+                           "its regions are the mesh's own groups of triangles; name one with group = \"...\" "
+                           f"(groups in {mesh.source}: {groups}; valid keys: {', '.join(allowed)})")
+    for k in table:
+        if k not in allowed:
+            raise FemodesError(f"unknown key {k!r} in {where}{_suggest(k, allowed)} (valid keys for a region of a "
+                               f"mesh file: {', '.join(allowed)})")
+    if "group" not in table:
+        raise FemodesError(f"{where} needs group = the name of a group of triangles of the mesh file (groups in "
+                           f"{mesh.source}: {groups}), and eps_r")
+    group = table["group"]
+    if not isinstance(group, str):
+        raise FemodesError(f"group in {where} must be a string naming a group of the mesh file (unnamed gmsh "
+                           f"groups by their number in quotes, e.g. \"2\"), got {_show(group)}; groups in "
+                           f"{mesh.source}: {groups}")
+    vals = _region_material(table, where)
     try:
-        return section.with_material(region, **vals)
+        return mesh.with_material(group, **vals)
     except FemodesError as exc:
         raise FemodesError(f"{where}: {exc}") from None
 

@@ -11,12 +11,15 @@
 * second-order geometry: gmsh places mid-edge nodes on the true arcs, so circles are not polygons.
 
 The mesh comes back as plain data (:class:`Mesh`), independent of gmsh.  :func:`read_mesh` reads an
-external triangle mesh (gmsh .msh or anything meshio reads); :func:`write_mesh` writes one.
+external triangle mesh (gmsh .msh or anything meshio reads), keeping its named groups of triangles
+(gmsh physical surfaces, or meshio cell sets) so that :meth:`Mesh.with_materials` can fill them
+with dielectric; :func:`write_mesh` writes one.
 Meshing is deterministic: one thread, fixed algorithm, no random perturbation.
 """
 
 from __future__ import annotations
 
+import difflib
 import math
 import os
 from contextlib import contextmanager
@@ -24,11 +27,29 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from femodes.errors import FemodesError
+from femodes.errors import FemodesError, nonnegative_number, positive_number
+from femodes.geometry.locate import locate_straight
 from femodes.geometry.loops import Arc, Corner, Line, _point_edge_distances
 from femodes.geometry.section import Section
 
-__all__ = ["Mesh", "mesh_section", "read_mesh", "write_mesh"]
+__all__ = ["Mesh", "MeshMaterial", "mesh_section", "read_mesh", "write_mesh"]
+
+
+@dataclass(frozen=True)
+class MeshMaterial:
+    """The material of one named group of a mesh file (:meth:`Mesh.with_material`).
+
+    group       : the group's name in the file (a gmsh physical surface, a meshio cell set)
+    eps_r, mu_r : relative permittivity and permeability (real, > 0)
+    tan_delta   : dielectric loss tangent, 0 <= tan_delta < 1 (first-order loss, femodes.vector)
+    name        : what the report calls the region (default: the group's name)
+    """
+
+    group: str
+    eps_r: float = 1.0
+    mu_r: float = 1.0
+    tan_delta: float = 0.0
+    name: str = ""
 
 
 @dataclass(frozen=True)
@@ -42,8 +63,14 @@ class Mesh:
     curved_midpoints : (2, k) the true mid-point of those edges
     curves    : (q, 5) the exact curves (cx, cy, rx, ry, rotation) of the section's arcs
     edge_curve: (k,) which curve each curved edge lies on (-1: unknown, e.g. a mesh file)
-    regions   : (m,) material region of each triangle: 0 the background fill, i the i-th of the
-                section's materials (empty for a homogeneous section)
+    regions   : (m,) material region of each triangle.  A mesh of a Section: 0 the background
+                fill, i the i-th of the section's materials (empty for a homogeneous section).  A
+                mesh file: the number of the triangle's group (gmsh physical tag; 0 none)
+    region_names : a mesh file's named groups, {name: number in ``regions``} (-1: a group of
+                curves or points)
+    materials : (MeshMaterial, ...) the groups filled with a material (:meth:`with_material`);
+                the rest of the mesh holds the background fill
+    source    : the file the mesh was read from (for messages), or None
     """
 
     points: np.ndarray
@@ -53,6 +80,9 @@ class Mesh:
     curves: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))
     edge_curve: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
     regions: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    region_names: dict = field(default_factory=dict)
+    materials: tuple = ()
+    source: str | None = None
 
     @property
     def n_triangles(self):
@@ -65,6 +95,116 @@ class Mesh:
     @property
     def is_curved(self):
         return self.curved_edges.shape[1] > 0
+
+    # -- named groups and their materials (mesh files) ----------------------------------
+    @property
+    def groups(self):
+        """The names of the file's groups that hold triangles, in the order of their numbers."""
+        if not self.region_names or self.regions.size != self.n_triangles:
+            return ()
+        present = set(np.unique(self.regions).tolist())
+        return tuple(n for n, t in sorted(self.region_names.items(), key=lambda kv: kv[1]) if t in present)
+
+    def _where(self):
+        return f"mesh file {self.source}" if self.source else "the mesh"
+
+    def _group_tag(self, group):
+        """The number of the named group, or FemodesError naming the file and the groups there."""
+        if not isinstance(group, str):
+            raise FemodesError(f"a group of {self._where()} is named by a string, got {group!r}")
+        have = self.groups
+        if not have:
+            raise FemodesError(
+                f"{self._where()} has no named groups of triangles, so group {group!r} cannot be given a "
+                "material; name the regions in the mesh (gmsh: a physical surface per region, e.g. "
+                "gmsh.model.addPhysicalGroup(2, [surface tags], name=\"rod\"))")
+        if group not in have:
+            close = difflib.get_close_matches(group, list(have), n=1, cutoff=0.6)
+            hint = f"; did you mean {close[0]!r}?" if close else ""
+            if group in self.region_names:
+                what = (f"group {group!r} of {self._where()} holds no triangles (a group of curves or points, "
+                        "or an empty one)")
+            else:
+                what = f"there is no group {group!r} in {self._where()}{hint}"
+            raise FemodesError(f"{what}; groups of triangles there: {', '.join(map(repr, have))}")
+        return self.region_names[group]
+
+    def with_material(self, group, eps_r=1.0, mu_r=1.0, tan_delta=0.0, name=""):
+        """A copy in which the triangles of the named ``group`` (a gmsh physical surface of the
+        file) are filled with a material of relative permittivity ``eps_r`` and permeability
+        ``mu_r`` (loss tangent ``tan_delta``; ``name`` for reports, default the group's name).
+        Every triangle not in a group given a material holds the background fill (the
+        ``eps_r``, ``mu_r`` of :func:`femodes.solve`).  A group can be given one material only."""
+        self._group_tag(group)
+        if any(m.group == group for m in self.materials):
+            raise FemodesError(f"group {group!r} of {self._where()} is given a material twice; give each "
+                               f"group once (groups there: {', '.join(map(repr, self.groups))})")
+        eps, mu = positive_number("eps_r", eps_r), positive_number("mu_r", mu_r)
+        tand = nonnegative_number("tan_delta", tan_delta)
+        if tand >= 1:
+            raise FemodesError(f"tan_delta is a loss tangent and must lie in 0 <= tan_delta < 1, got {tan_delta!r}")
+        if not isinstance(name, str):
+            raise FemodesError(f"name must be a string, got {type(name).__name__}")
+        mat = MeshMaterial(group, eps, mu, tand, name.strip() or group)
+        return replace(self, materials=self.materials + (mat,))
+
+    def with_materials(self, materials):
+        """A copy with a material in each named group: ``materials`` maps a group's name to its
+        eps_r (a number) or to the keywords of :meth:`with_material`, e.g.
+        ``mesh.with_materials({"rod": dict(eps_r=6.0, tan_delta=1e-4), "sleeve": 2.1})``."""
+        if not isinstance(materials, dict):
+            raise FemodesError(f"with_materials needs a dict {{group name: eps_r or dict(eps_r=..., mu_r=..., "
+                               f"tan_delta=..., name=...)}}, got {type(materials).__name__}")
+        out = self
+        for group, spec in materials.items():
+            if isinstance(spec, dict):
+                bad = sorted(set(spec) - {"eps_r", "mu_r", "tan_delta", "name"})
+                if bad:
+                    raise FemodesError(f"group {group!r}: unknown material key(s) {', '.join(map(repr, bad))} "
+                                       "(valid: eps_r, mu_r, tan_delta, name)")
+                out = out.with_material(group, **spec)
+            else:
+                out = out.with_material(group, eps_r=spec)
+        return out
+
+    def material_index(self):
+        """(m,) per triangle: 0 the background fill, i where it lies in the group of the i-th of
+        ``materials``."""
+        out = np.zeros(self.n_triangles, dtype=np.int64)
+        for i, m in enumerate(self.materials, start=1):
+            out[self.regions == self.region_names[m.group]] = i
+        return out
+
+    @property
+    def kind(self):
+        return "mesh"
+
+    @property
+    def params(self):
+        return {}
+
+    @property
+    def area(self):
+        p = self.points[:, self.triangles]
+        return float(0.5 * np.sum(np.abs((p[0, 1] - p[0, 0]) * (p[1, 2] - p[1, 0])
+                                         - (p[0, 2] - p[0, 0]) * (p[1, 1] - p[1, 0]))))
+
+    @property
+    def size(self):
+        """The larger side of the bounding box (m)."""
+        return float(np.max(np.ptp(self.points, axis=1)))
+
+    def describe(self):
+        """One line for reports: the file, its size, and the materials of its groups."""
+        name = os.path.basename(self.source) if self.source else "external mesh"
+        text = f"mesh {name} ({self.n_triangles} triangles"
+        if self.groups:
+            text += f"; groups {', '.join(self.groups)}"
+        text += ")"
+        if self.materials:
+            text += " with " + ", ".join(f"{m.group}: eps_r = {m.eps_r:g}" + (f", mu_r = {m.mu_r:g}" if m.mu_r != 1
+                                                                              else "") for m in self.materials)
+        return text
 
     def to_skfem(self, order=2):
         """The scikit-fem mesh, with geometry of the given polynomial ``order`` where curved.
@@ -386,8 +526,19 @@ def _triangle_regions(mesh: Mesh, section: Section) -> np.ndarray:
 
 def triangle_regions(section: Section, points, triangles) -> np.ndarray:
     """Material index (0 the fill, i the i-th of ``section.materials``) of each triangle
-    (``triangles`` (3, m) indices into ``points`` (2, n)), from its centroid."""
+    (``triangles`` (3, m) indices into ``points`` (2, n)), from its centroid.  ``section`` may
+    also be a Mesh with materials (a mesh file): the triangles are then located in it."""
     c = np.asarray(points)[:, np.asarray(triangles)].mean(axis=1)
+    if isinstance(section, Mesh):
+        index = section.material_index()
+        same = (np.shape(triangles) == section.triangles.shape
+                and np.array_equal(np.sort(np.asarray(triangles), axis=0), section.triangles)
+                and np.shape(points)[1] >= section.n_vertices
+                and np.allclose(np.asarray(points)[:, :section.n_vertices], section.points))
+        if same:
+            return index
+        cells, _, _ = locate_straight(section.points, section.triangles, c)
+        return index[cells]
     out = np.zeros(c.shape[1], dtype=np.int64)
     for i, mat in enumerate(section.materials, start=1):
         out[mat.contains(c[0], c[1])] = i
@@ -476,7 +627,12 @@ def read_mesh(path, scale=1.0) -> Mesh:
     """Read a triangle mesh (gmsh .msh, or any format meshio reads) with 3- or 6-node triangles.
 
     ``scale`` multiplies coordinates into metres (e.g. 1e-3 for a mesh drawn in millimetres).
-    All boundary edges are taken as PEC walls.
+    All boundary edges are taken as PEC walls.  Named groups of triangles are kept (``regions``,
+    ``region_names``, ``groups``): a gmsh file's physical surfaces (named, or by their number
+    as a string, e.g. ``"2"``, where unnamed), else the cell sets of other formats.  Give them
+    materials with :meth:`Mesh.with_material` / :meth:`Mesh.with_materials`.  (gmsh writes only
+    the elements of physical groups once any group is defined: name every surface of the guide,
+    the air too, or set gmsh's Mesh.SaveAll option.)
     """
     import meshio
 
@@ -498,15 +654,53 @@ def read_mesh(path, scale=1.0) -> Mesh:
         raise FemodesError(f"mesh file {path} has no triangles (cell types: {', '.join(kinds) or 'none'}); "
                            "femodes needs a 2-D triangle mesh of the cross-section")
     kind = "triangle6" if any(b.type == "triangle6" for b in blocks) else "triangle"
-    conn = np.vstack([b.data for b in blocks if b.type == kind]).T.astype(np.int64)
+    used = [i for i, c in enumerate(m.cells) if c.type == kind]
+    conn = np.vstack([m.cells[i].data for i in used]).T.astype(np.int64)
     coords = np.asarray(m.points[:, :2], dtype=float).T * float(scale)
-    return _mesh_from_connectivity(coords, conn)
+    mesh = _mesh_from_connectivity(coords, conn)
+    tags, names = _file_groups(m, used)
+    if tags is not None:
+        mesh = replace(mesh, regions=tags, region_names=names)
+    return replace(mesh, source=str(path))
+
+
+def _file_groups(m, used):
+    """(per-triangle group numbers, {name: number}) of a meshio mesh's triangles (cell blocks
+    ``used``), or (None, {}) without groups: gmsh physical tags named from field_data (surface
+    groups only; unnamed tags by their number), else named cell sets, numbered from 1."""
+    phys = m.cell_data.get("gmsh:physical")
+    if phys is not None:
+        tags = np.concatenate([np.asarray(phys[i], dtype=np.int64).ravel() for i in used])
+        names = {}
+        for name, val in (m.field_data or {}).items():
+            val = np.asarray(val).ravel()
+            if len(val) >= 2 and int(val[1]) == 2:  # (tag, dimension): surfaces only
+                names[str(name)] = int(val[0])
+        for name, val in (m.field_data or {}).items():  # curve or point groups: named, no triangles
+            if str(name) not in names:
+                names[str(name)] = -1
+        for t in np.unique(tags):
+            if t > 0 and int(t) not in names.values():
+                names[str(int(t))] = int(t)
+        return tags, names
+    sets = {k: v for k, v in (m.cell_sets or {}).items() if not str(k).startswith("gmsh:")}
+    if not sets:
+        return None, {}
+    tags = [np.zeros(len(m.cells[i].data), dtype=np.int64) for i in used]
+    names = {}
+    for number, (name, per_block) in enumerate(sets.items(), start=1):
+        names[str(name)] = number
+        for j, i in enumerate(used):
+            idx = per_block[i] if i < len(per_block) and per_block[i] is not None else []
+            tags[j][np.asarray(idx, dtype=np.int64)] = number
+    return np.concatenate(tags), names
 
 
 def write_mesh(mesh: Mesh, path, point_data=None):
     """Write ``mesh`` through meshio (format from the file name: .msh, .vtu, .xdmf, ...).
 
-    Curved meshes are written as 6-node triangles.
+    Curved meshes are written as 6-node triangles; a mesh file's named groups are written back
+    as gmsh physical surfaces (.msh).
     """
     import meshio
 
@@ -526,8 +720,13 @@ def write_mesh(mesh: Mesh, path, point_data=None):
         xyz = np.vstack([pts, np.zeros(pts.shape[1])]).T
     fmt = "gmsh22" if str(path).lower().endswith(".msh") else None  # .msh: gmsh, not ANSYS
     kw = {"file_format": fmt, "binary": False} if fmt else {}
-    cell_data = {}
-    if fmt:  # gmsh wants physical and geometrical tags: one surface, tag 1
+    cell_data, field_data = {}, {}
+    if fmt:  # gmsh wants physical and geometrical tags: one surface, tag 1, or a mesh file's groups
         n = len(cells[0][1])
-        cell_data = {"gmsh:physical": [np.ones(n, dtype=int)], "gmsh:geometrical": [np.ones(n, dtype=int)]}
-    meshio.write(str(path), meshio.Mesh(xyz, cells, point_data=point_data or {}, cell_data=cell_data), **kw)
+        phys = np.ones(n, dtype=int)
+        if mesh.region_names and mesh.regions.size == n:
+            phys = mesh.regions.astype(int)
+            field_data = {k: np.array([v, 2]) for k, v in mesh.region_names.items() if v >= 0}
+        cell_data = {"gmsh:physical": [phys], "gmsh:geometrical": [np.maximum(phys, 1)]}
+    meshio.write(str(path), meshio.Mesh(xyz, cells, point_data=point_data or {}, cell_data=cell_data,
+                                        field_data=field_data), **kw)

@@ -13,6 +13,7 @@ import numpy as np
 from femodes import quantities as Q
 from femodes.api import Study
 from femodes.errors import FemodesError
+from femodes.geometry.section import Section
 from femodes.modes import ModeSet
 
 #: units of the numbers in the "analysis" object of :func:`analysis_document`
@@ -248,6 +249,7 @@ def _analyse_loaded(study, settings):
         raise FemodesError(f"the loaded guide was not solved at the analysis frequency {f / 1e9:.6g} GHz: "
                            "pass the same frequency to femodes.study()")
     sigma, rough = settings.conductivity, settings.roughness
+    section = study.section if isinstance(study.section, Section) else None  # a mesh file: found on the mesh
     rows = []
     for m in study.at_frequency:
         wq = Q.wave_quantities(m, f)
@@ -263,7 +265,7 @@ def _analyse_loaded(study, settings):
         z, z_err, path = None, None, None
         if m is study.at_frequency[0] or m.family == "TEM":
             try:
-                li = Q.loaded_impedances(m, f, section=study.section)
+                li = Q.loaded_impedances(m, f, section=section)
             except FemodesError as exc:
                 notes.append(f"impedances not available: {exc}")
             else:
@@ -271,7 +273,7 @@ def _analyse_loaded(study, settings):
                 z_err = {k: _or_none(li.error(k)) for k in ("PV", "PI", "VI")}
                 path = tuple(tuple(p) for p in li.path) if li.path is not None and len(li.path) == 2 else None
                 notes.append(f"impedances: V along the path given, I on {li.wall}")
-        ph = Q.power_handling(m, f, settings.breakdown_field, settings.safety_factor, section=study.section)
+        ph = Q.power_handling(m, f, settings.breakdown_field, settings.safety_factor, section=section)
         rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes), z_err))
     band = None
     cuts = study.modes

@@ -1130,6 +1130,8 @@ def loaded_field_pattern(mode, path=None, *, section=None, arrows=True, density=
     x, y, t, ex, ey = _merge_points(x, y, t, np.real(F[0]), np.real(F[1]))
     data = dict(x=x, y=y, t=t, ex=ex, ey=ey, hx=ex, hy=ey, magnitude=np.hypot(ex, ey))
     st = _style()
+    if section is not None and not hasattr(section, "loops"):
+        section = None  # a mesh file (femodes.Mesh): outline from the mesh, its groups not drawn
     if section is None:
         loops = _boundary_loops(np.vstack([skm.p[0], skm.p[1]]), skm.t[:3].T)
         outer, holes = loops[0], loops[1:]

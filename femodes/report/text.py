@@ -64,7 +64,7 @@ def _section_info(result):
     info = {"kind": sec.kind, "params": {k: float(v) for k, v in sec.params.items()
                                          if isinstance(v, (int, float)) and not isinstance(v, bool)},
             "description": sec.describe()}
-    x0, y0, ang = sec.frame
+    x0, y0, ang = getattr(sec, "frame", (0.0, 0.0, 0.0))  # a mesh file is where it was drawn
     if x0 or y0 or ang:
         info["frame"] = {"x0": float(x0), "y0": float(y0), "angle": float(ang)}
     return info

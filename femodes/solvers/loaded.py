@@ -33,7 +33,7 @@ from femodes.geometry.loops import Arc
 from femodes.geometry.mesh import mesh_section, singular_corners
 from femodes.solvers.vector import VectorProblem
 
-__all__ = ["solve_loaded", "LoadedSolution", "SAFETY", "ORDER", "GRADING_FLOOR"]
+__all__ = ["solve_loaded", "solve_loaded_mesh", "LoadedSolution", "SAFETY", "ORDER", "GRADING_FLOOR"]
 
 
 SAFETY = 3.0
@@ -202,3 +202,71 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
 
     lower = functools.lru_cache(maxsize=1)(lower_modes) if frequency is not None and p > 1 else None
     return LoadedSolution(vals, err, tuple(objs), tuple(keep), fine[3], p, lower)
+
+
+# ---------------------------------------------------------------------------- fixed meshes
+def _mesh_material_arrays(mesh, eps_r, mu_r, tan_delta=0.0):
+    """Per-triangle eps_r, mu_r, tan_delta of a mesh file with materials: the fill's, then each
+    named group's (``mesh.materials``, ``mesh.material_index()``)."""
+    index = mesh.material_index()
+    eps = np.full(mesh.n_triangles, float(eps_r))
+    mu = np.full(mesh.n_triangles, float(mu_r))
+    tand = np.full(mesh.n_triangles, float(tan_delta))
+    for i, m in enumerate(mesh.materials, start=1):
+        eps[index == i], mu[index == i], tand[index == i] = m.eps_r, m.mu_r, m.tan_delta
+    return eps, mu, tand
+
+
+def solve_loaded_mesh(mesh, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
+                      evanescent=False, tan_delta=0.0):
+    """Modes (at ``frequency``) or cutoffs (without) of a mesh file whose named groups carry
+    materials (:meth:`femodes.geometry.mesh.Mesh.with_materials`), with their errors, on that one
+    mesh: a fixed mesh cannot be refined, so the accuracy is what the mesh gives.
+
+    The problem is solved with edge elements of order p and p - 1 on the same mesh (the scalar
+    solver's fixed-mesh estimate, :func:`femodes.solvers.scalar.solve_scalar_mesh`): the k-th
+    value of the lower order differs from the k-th of order p by about the lower order's own
+    error, which in the asymptotic range is larger than order p's (h^(2p - 2) against h^(2p) on
+    smooth fields), so the whole difference, times the safety factor SAFETY, is the reported
+    error of the order-p value.  Where a field singularity (a free-standing material corner)
+    caps both orders at the same rate the two errors come closer and this bound is less sure;
+    measured on our cases in tests/test_mesh_regions.py.  The error measures are those of
+    :func:`solve_loaded` (beta^2 relative to k0^2 eps_max mu_max at a frequency, k0^2 at
+    cutoff); when the estimate misses ``accuracy`` a RuntimeWarning says so (refine the mesh
+    file).  The geometry is the mesh's own: curved 6-node triangles are followed to second
+    order, and the error of the mesh's boundary against a true curve is not part of the
+    estimate.  Returns a :class:`LoadedSolution`."""
+    p = ORDER if order is None else int(order)
+    if p not in (2, 3):
+        raise FemodesError(f"order must be 2 or 3 for a mesh file with materials (edge elements; the error "
+                           f"estimate on a fixed mesh compares order p with p - 1), got {order!r}")
+    eps, mu, tand = _mesh_material_arrays(mesh, eps_r, mu_r, tan_delta)
+    emu_max = float(np.max(eps * mu))
+    fine = VectorProblem(mesh, eps, mu, order=p, tan_delta=tand)
+    low = VectorProblem(mesh, eps, mu, order=p - 1, tan_delta=tand)
+    if frequency is not None:
+        objs = fine.solve(frequency, modes=modes, evanescent=True)
+        lower = low.solve(frequency, modes=modes + 2, evanescent=True)
+        vals = np.array([m.beta2 for m in objs])
+        low_vals = np.array([m.beta2 for m in lower])
+        scale = np.full(len(vals), (2 * math.pi * float(frequency) / C0) ** 2 * emu_max)
+    else:
+        objs = fine.cutoffs(modes=modes)
+        lower = low.cutoffs(modes=modes + 2)
+        vals = np.array([c.k0 ** 2 for c in objs])
+        low_vals = np.array([c.k0 ** 2 for c in lower])
+        scale = 2 * vals
+    n = min(len(vals), len(low_vals))
+    err = SAFETY * np.abs(vals[:n] - low_vals[:n])
+    worst = float(np.max(err / scale[:n])) if n else 0.0
+    if worst > accuracy:
+        name = mesh.source or "the mesh"
+        warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached on the fixed mesh {name}; estimated "
+                      f"{worst:.1e} with {fine.n_dofs} unknowns (a mesh file is not refined: refine it to do "
+                      "better)", RuntimeWarning, stacklevel=3)
+    keep = [i for i in range(n) if frequency is None or evanescent or objs[i].beta2 > 0]
+    lower_modes = None
+    if frequency is not None:
+        prop = tuple(m for m in lower if m.beta2 > 0)
+        lower_modes = lambda: prop  # noqa: E731  the order p - 1 modes, for field-based errors
+    return LoadedSolution(vals, err, tuple(objs), tuple(keep), fine, p, lower_modes)
