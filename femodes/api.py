@@ -124,12 +124,15 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
     sol = solve_loaded(section, modes, frequency, eps_r, mu_r, accuracy, order=order, evanescent=evanescent,
                        tan_delta=tan_delta)
     objs, err, vals = sol.objects, sol.errors, sol.values
-    picked = [objs[i] for i in sol.keep]
+    # complex modes (members of complex-conjugate pairs of beta^2) grow from no single empty-guide
+    # mode: they are named by pair, not by parent
+    named_keep = [i for i in sol.keep if getattr(objs[i], "family", "") != "complex"]
+    picked = [objs[i] for i in named_keep]
     named = {}
     if parents and picked:
         if bare is None or len(bare) < len(picked) + 8:
             bare = _bare_modes(section, len(picked) + 8, eps_r, mu_r)
-        named = dict(zip(sol.keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare)))
+        named = dict(zip(named_keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare)))
     out, counts = [], {}
     for i in sol.keep:
         o = objs[i]
@@ -137,9 +140,13 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
         if frequency is not None:
             fam = o.family
             counts[fam] = counts.get(fam, 0) + 1
-            b = o.beta
+            b = o.beta  # complex modes: principal root of the complex beta^2 (Re beta >= 0)
+            # |d beta| = |d beta^2| / (2 |beta|), complex |difference| for complex modes
             beta_err = err[i] / (2 * abs(b)) if abs(b) > 0 else math.sqrt(err[i])
-            label = f"{fam} from {parent}" if parent else f"{fam} {counts[fam]}"
+            if fam == "complex":
+                label = f"complex pair {(counts[fam] + 1) // 2} ({'+' if o.beta2.imag > 0 else '-'})"
+            else:
+                label = f"{fam} from {parent}" if parent else f"{fam} {counts[fam]}"
             out.append(LoadedMode(fam, label, float(frequency), b, float(beta_err), len(out), o, parent, share,
                                   sol.lower))
         else:
