@@ -169,6 +169,8 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     relative to k0^2 eps_max mu_max stays within ``accuracy`` down to the lowest frequency (the 4:
     a margin for modes away from the top frequency); assembled once, the curves are computed on it.  Returns a
     :class:`femodes.vector.Dispersion` (``frequencies``, ``beta`` (F, N), ``family``, ``overlap``).
+    Complex modes (complex-conjugate pairs of beta^2 below cutoff) are tracked like the others:
+    ``beta2`` is then complex and ``family`` 'complex' where a curve is a member of a pair.
     """
     if not isinstance(section, Section):
         raise FemodesError(f"dispersion() needs a section, got {type(section).__name__}")
@@ -189,9 +191,17 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     first = disp.modes[0]
     if _bare is None:
         _bare = _bare_modes(section, len(first) + 8, eps_r, mu_r)
-    named = _parents(section, problem, list(first), eps_r, mu_r, _bare)
-    names = tuple(f"{m.family} from {par}" if par else "" for m, (par, _) in zip(first, named))
-    return replace(disp, labels=names)
+    # members of complex pairs at the first frequency have no single parent: named as such
+    real = [m for m in first if m.family != "complex"]
+    named = iter(_parents(section, problem, real, eps_r, mu_r, _bare) if real else ())
+    names = []
+    for m in first:
+        if m.family == "complex":
+            names.append(f"complex pair ({'+' if m.beta2.imag > 0 else '-'})")
+        else:
+            par = next(named)[0]
+            names.append(f"{m.family} from {par}" if par else "")
+    return replace(disp, labels=tuple(names))
 
 
 @dataclass(frozen=True, eq=False)

@@ -936,7 +936,9 @@ class VectorProblem:
             i, k = np.unravel_index(np.argmin(overlap), overlap.shape)
             warnings.warn(f"dispersion: tracked mode {k + 1} is uncertain at {fs[i]:.6g} Hz (match {overlap[i, k]:.2f} "
                           "with the previous frequency); take more frequencies there", RuntimeWarning)
-        beta2 = np.zeros((fs.size, n))
+        cx = any(np.iscomplexobj(cands[i][0]) and np.any(cands[i][0][picks[i]].imag != 0)
+                 for i in range(fs.size))
+        beta2 = np.zeros((fs.size, n), dtype=complex if cx else float)
         family = np.empty((fs.size, n), dtype=object)
         modes_out = []
         for i, f in enumerate(fs):
@@ -956,8 +958,10 @@ class VectorProblem:
         def unit(b2, E, W):
             # fields normalised in int eps |E|^2 (E_z = w / (j beta)), and the reciprocity vectors
             # V_j = b2_j T_mu E_j - G_mu w_j with their self products d_j = E_j^T V_j
-            nrm = np.sqrt(np.einsum("ij,ij->j", E, tt["T_eps"] @ E)
-                          + np.einsum("ij,ij->j", W, zz["T_zz"] @ W) / np.abs(b2))
+            # (|.|^2 for complex modes; the reciprocity product below stays bilinear, which is
+            # the bi-orthogonality of the real pencil's eigenvectors, complex ones included)
+            nrm = np.sqrt(np.real(np.einsum("ij,ij->j", E.conj(), tt["T_eps"] @ E)
+                                  + np.einsum("ij,ij->j", W.conj(), zz["T_zz"] @ W) / np.abs(b2)))
             E, W = E / nrm, W / nrm
             V = (tt["T_mu"] @ E) * b2[None, :] - tz["G_mu"] @ W
             d = np.einsum("ij,ij->j", E, V)
@@ -995,7 +999,7 @@ class VectorProblem:
                 width = np.maximum(np.where(np.isfinite(miss), 4.0 * miss, 0.05 * np.abs(step)),
                                    1e-9 * k0s[i] ** 2 * self.emu_max)
                 pred = prev_b2 + step
-                P = np.exp(-((pred[:, None] - b2[None, :]) / width[:, None]) ** 2)
+                P = np.exp(-(np.abs(pred[:, None] - b2[None, :]) / width[:, None]) ** 2)
                 rows, cols = assign(-(O * (0.05 + P)))
                 pick = cols[np.argsort(rows)]
                 overlap[i] = np.maximum(O[np.arange(n), pick], P[np.arange(n), pick])
@@ -1028,8 +1032,11 @@ class VectorProblem:
         # and the E parts of their combinations lose their digits
         f_top = float(np.max(fs)) if fs_max is None else float(fs_max)
         sc = 1.0 / (2 * math.pi * f_top / C0 * math.sqrt(self.emu_max))
-        R = np.hstack([np.vstack([snaps[i][1], sc * snaps[i][2]]) for i in keys])
-        L = np.hstack([np.vstack([snaps[i][1] * (sc * sc * snaps[i][0][None, :]), sc * snaps[i][2]])
+        # complex modes: the real and imaginary parts of their eigenvectors span the same space
+        # (the pencil is real, so its reduced form stays real and returns their pairs again)
+        ri = lambda M: np.hstack([M.real, M.imag]) if np.iscomplexobj(M) else M
+        R = np.hstack([ri(np.vstack([snaps[i][1], sc * snaps[i][2]])) for i in keys])
+        L = np.hstack([ri(np.vstack([snaps[i][1] * (sc * sc * snaps[i][0][None, :]), sc * snaps[i][2]]))
                        for i in keys])
 
         def orth(M):  # orthonormal basis of the columns, rank by pivoted QR
@@ -1058,10 +1065,19 @@ class VectorProblem:
         for f in fs:
             k0 = 2 * math.pi * f / C0
             lam, XR = sl.eig(Ar0 - (k0 * k0) * Ar2, Br)
-            fin = np.isfinite(lam) & (np.abs(lam.imag) <= 1e-8 * (np.abs(lam) + scale))
-            lam, XR = lam[fin].real, XR[:, fin]
-            order = np.argsort(-lam)[: nev + 4]
-            lam, XR = lam[order], real_cols(XR[:, order])
+            fin = np.isfinite(lam)
+            lam, XR = lam[fin], XR[:, fin]
+            real = np.abs(lam.imag) <= 1e-8 * (np.abs(lam) + scale)
+            if np.all(real):
+                lam, XR = lam.real, XR
+                order = np.argsort(-lam)[: nev + 4]
+                lam, XR = lam[order], real_cols(XR[:, order])
+            else:  # complex pairs among them (complex modes): complex columns, real ones rotated real
+                lam = np.where(real, lam.real, lam)
+                XR = XR.astype(complex)
+                XR[:, real] = real_cols(XR[:, real])
+                order = np.lexsort((-lam.imag, -lam.real))[: nev + 4]
+                lam, XR = lam[order], XR[:, order]
             X = V @ XR
             AX = AV0 @ XR - (k0 * k0) * (AV2 @ XR)   # full-space products from the projected
             BX = BV @ XR                             # ones: no A x, B x per frequency
