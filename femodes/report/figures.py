@@ -1092,20 +1092,22 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labe
     for k in range(b2.shape[1]):
         if not np.any(cplx[:, k]):
             continue
-        bc = np.where(cplx[:, k], np.sqrt(b2c[:, k].astype(complex)), np.nan)  # principal: Re >= 0
-        if any(np.allclose(bc.real, d, equal_nan=True) for d in drawn):
+        bc = np.sqrt(b2c[:, k].astype(complex))  # principal root: Re beta >= 0
+        re = np.where(cplx[:, k], bc.real, np.nan)
+        im = np.where(cplx[:, k], np.abs(bc.imag), np.nan)
+        if any(np.allclose(re, d, equal_nan=True) for d in drawn):
             continue  # the conjugate member of a pair already drawn: same Re beta, same |Im beta|
-        drawn.append(bc.real)
+        drawn.append(re)
         c = colours[k % len(colours)]
-        ax.plot(fg, bc.real, ls="-.", lw=1.6, color=c, zorder=3, gid="complex-re")
-        ax.plot(fg, np.abs(bc.imag), ls=":", lw=1.6, color=c, zorder=3, gid="complex-im")
+        ax.plot(fg, re, ls="-.", lw=1.6, color=c, zorder=3, marker=".", ms=3, gid="complex-re")
+        ax.plot(fg, im, ls=":", lw=1.6, color=c, zorder=3, marker=".", ms=3, gid="complex-im")
         ok = np.flatnonzero(cplx[:, k])
         mid = ok[ok.size // 2]
-        ax.annotate(f"{k + 1}: complex pair, Re beta", (fg[mid], bc.real[mid]), xytext=(0, 5),
+        ax.annotate(f"{k + 1}: complex pair, Re beta", (fg[mid], re[mid]), xytext=(0, 5),
                     textcoords="offset points", ha="center", fontsize=7.5, color=c)
-        ax.annotate("|Im beta| (Np/m)", (fg[mid], abs(bc.imag[mid])), xytext=(0, 5),
+        ax.annotate(f"{k + 1}: complex pair, |Im beta| (Np/m)", (fg[mid], im[mid]), xytext=(0, 5),
                     textcoords="offset points", ha="center", fontsize=7.5, color=c)
-        top_c = max(top_c, float(np.nanmax(bc.real)), float(np.nanmax(np.abs(bc.imag))))
+        top_c = max(top_c, float(np.nanmax(re)), float(np.nanmax(im)))
     for lab, kc in (empty or ()):
         eb2 = k0 ** 2 * float(eps_r) * float(mu_r) - float(kc) ** 2
         ok = eb2 > 0
