@@ -57,6 +57,16 @@ Both are solved directly as symmetric generalised eigenproblems in k0^2; the cur
 constraint int eps_r e . grad L_j = 0 imposed by a Lagrange multiplier, which removes its huge
 null-space of gradients (k0 = 0) instead of shifting it.
 
+Complex modes
+-------------
+A and B are real but the pencil is not symmetric-definite, so below cutoff eigenvalues can come
+as complex-conjugate pairs beta^2, conj(beta^2) with complex eigenvectors (conjugate to each
+other).  In lossless guides whose dielectric spans the section in no direction these are physical
+"complex modes"; on coarse meshes two nearly equal evanescent eigenvalues can also merge into
+such a pair.  ARPACK runs on the real operator; its complex Ritz pairs are kept (family
+'complex', see :class:`VectorMode`) when they are converged eigenpairs of the pencil, and the
+distinction physical / artefact is made by refinement in femodes.solvers.loaded.
+
 All SI: metres, hertz, rad/m.
 """
 
@@ -473,7 +483,7 @@ class VectorProblem:
         y = lu.solve(np.asfortranarray(rhs))
         return y[:nt], -y[nt:]
 
-    def _eig(self, k0, nev, v0=None, tol=0.0, quiet=False):
+    def _eig(self, k0, nev, v0=None, tol=0.0):
         """The nev eigenpairs of largest beta^2 at k0: (beta2, E (nt, nev), w (nz, nev)), by
         descending Re beta^2 (the Im > 0 member of a complex pair first).  Real arrays when every
         eigenvalue is real; complex ones when complex pairs are among them (both members always:
@@ -896,7 +906,7 @@ class VectorProblem:
             while True:
                 for i in todo:
                     nev_at[i] = nev_at.get(i, nev)
-                    snaps[i] = self._eig(2 * math.pi * fs[i] / C0, nev_at[i], quiet=True)
+                    snaps[i] = self._eig(2 * math.pi * fs[i] / C0, nev_at[i])
                 # only the points that failed are reduced again on the enlarged basis: the others
                 # already passed the full-space residual check, which does not depend on the basis
                 for i, c in zip(redo, self._reduced_candidates(fs[redo], snaps, nev, fs_max=float(fs.max()))):
@@ -926,7 +936,7 @@ class VectorProblem:
                 todo = [i]
             snapshots = np.array(sorted(snaps))
         if method == "direct":
-            cands = [self._eig(2 * math.pi * f / C0, nev, quiet=True) for f in fs]
+            cands = [self._eig(2 * math.pi * f / C0, nev) for f in fs]
             cands = [(b2, E, W, np.zeros(b2.size)) for b2, E, W in cands]
             picks, overlap, ok = self._track(cands, n, linear_sum_assignment, 2 * math.pi * fs / C0)
             if not ok:
