@@ -1715,12 +1715,15 @@ def rod_in_circular_guide_determinant(beta2, a: float, b: float, eps_r: float, f
     X = np.asarray(beta2, dtype=complex) * float(b) ** 2
     s1, s2 = K * K * float(eps_r) - X, K * K - X
     k1, k2 = np.sqrt(s1), np.sqrt(s2)
+    def pair(fn, x):  # C_n(x) and C_n'(x) = C_{n-1}(x) - n C_n(x) / x (A&S 9.1.27)
+        c = fn(n, x)
+        return c, fn(n - 1, x) - n * c / x
+
     with np.errstate(all="ignore"):
-        p = sp.jv(n, k1 * rho) / k1 ** n
-        dp = k1 * sp.jvp(n, k1 * rho) / k1 ** n
-        ja, jb, ya, yb = sp.jv(n, k2 * rho), sp.jv(n, k2), sp.yv(n, k2 * rho), sp.yv(n, k2)
-        dja, djb = sp.jvp(n, k2 * rho), sp.jvp(n, k2)
-        dya, dyb = sp.yvp(n, k2 * rho), sp.yvp(n, k2)
+        j1, dj1 = pair(sp.jv, k1 * rho)
+        p, dp = j1 / k1 ** n, k1 * dj1 / k1 ** n
+        (ja, dja), (jb, djb) = pair(sp.jv, k2 * rho), pair(sp.jv, k2)
+        (ya, dya), (yb, dyb) = pair(sp.yv, k2 * rho), pair(sp.yv, k2)
     f = -0.5 * math.pi * (ja * yb - jb * ya)
     df = -0.5 * math.pi * k2 * (dja * yb - jb * dya)
     g = 0.5 * math.pi * k2 * (ja * dyb - djb * ya)
@@ -1746,7 +1749,7 @@ def _winding(func, centre: complex, radius: float, points: int = 1024) -> float:
 
 def rod_in_circular_guide_complex_beta2(a: float, b: float, eps_r: float, frequency: float,
                                         azimuthal_order: int, re_range=None, im_max=None,
-                                        grid: int = 240) -> List[complex]:
+                                        grid: int = 160) -> List[complex]:
     """Complex beta^2 (rad^2/m^2, Im > 0; each comes with its conjugate) of the rod-loaded circular
     guide (:func:`rod_in_circular_guide_determinant`) of azimuthal order n >= 1 in the box
     re_range[0] <= Re beta^2 <= re_range[1], 0 < Im beta^2 <= im_max (defaults: Re from
