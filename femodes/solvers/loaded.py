@@ -243,9 +243,11 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             b2 = objs[loose[0]].beta2
             warnings.warn(f"femodes: {len(loose)} complex beta^2 value(s) (beta^2 = {b2.real:.4g} "
                           f"{b2.imag:+.3g}j rad^2/m^2 the first) did not persist under refinement with a "
-                          "stable imaginary part: taken for two nearly equal evanescent eigenvalues that the "
+                          "resolved imaginary part (absent from a coarser mesh, or |Im beta^2| within its "
+                          "error estimate): taken for two nearly equal evanescent eigenvalues that the "
                           "discretisation merged into a complex pair (a numerical artefact, not a complex "
-                          "mode) and left out", RuntimeWarning, stacklevel=3)
+                          "mode) and left out; if one sits at the end of the modes asked for, ask for a few "
+                          "more modes to check it", RuntimeWarning, stacklevel=3)
             keep = [i for i in keep if i not in loose]
     def lower_modes(mesh=fine[4]):
         """The modes with elements of order p - 1 on the final mesh, for the error of field-based

@@ -874,6 +874,10 @@ class VectorProblem:
         1e-6 leaves beta^2 good to ~1e-12 relative, far below the discretisation error, while
         spurious reduced pairs show residuals >= 2e-4.  (1e-8 made finer meshes ask for a full
         solve at nearly every frequency.)  The cost is a handful of factorisations instead of one per frequency.
+        Complex modes are followed like the others (the reduced basis spans the real and
+        imaginary parts of their fields).  Where two real curves meet and turn into a complex pair
+        (or a pair turns back into two real curves) the two eigenvectors coincide: which real
+        curve continues as which member is arbitrary there, and the overlap dips.
         Returns a :class:`Dispersion`.
         """
         from scipy.optimize import linear_sum_assignment
