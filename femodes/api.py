@@ -142,12 +142,15 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
     sol = solver(section, modes, frequency, eps_r, mu_r, accuracy, order=order, evanescent=evanescent,
                  tan_delta=tan_delta)
     objs, err, vals = sol.objects, sol.errors, sol.values
-    picked = [objs[i] for i in sol.keep]
+    # complex modes (members of complex-conjugate pairs of beta^2) grow from no single empty-guide
+    # mode: they are named by pair, not by parent
+    named_keep = [i for i in sol.keep if getattr(objs[i], "family", "") != "complex"]
+    picked = [objs[i] for i in named_keep]
     named = {}
     if parents and picked:
         if bare is None or len(bare) < len(picked) + 8:
             bare = _bare_modes(section, len(picked) + 8, eps_r, mu_r)
-        named = dict(zip(sol.keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare)))
+        named = dict(zip(named_keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare)))
     out, counts = [], {}
     for i in sol.keep:
         o = objs[i]
@@ -155,9 +158,13 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
         if frequency is not None:
             fam = o.family
             counts[fam] = counts.get(fam, 0) + 1
-            b = o.beta
+            b = o.beta  # complex modes: principal root of the complex beta^2 (Re beta >= 0)
+            # |d beta| = |d beta^2| / (2 |beta|), complex |difference| for complex modes
             beta_err = err[i] / (2 * abs(b)) if abs(b) > 0 else math.sqrt(err[i])
-            label = f"{fam} from {parent}" if parent else f"{fam} {counts[fam]}"
+            if fam == "complex":
+                label = f"complex pair {(counts[fam] + 1) // 2} ({'+' if o.beta2.imag > 0 else '-'})"
+            else:
+                label = f"{fam} from {parent}" if parent else f"{fam} {counts[fam]}"
             out.append(LoadedMode(fam, label, float(frequency), b, float(beta_err), len(out), o, parent, share,
                                   sol.lower))
         else:
@@ -183,6 +190,8 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     relative to k0^2 eps_max mu_max stays within ``accuracy`` down to the lowest frequency (the 4:
     a margin for modes away from the top frequency); assembled once, the curves are computed on it.  Returns a
     :class:`femodes.vector.Dispersion` (``frequencies``, ``beta`` (F, N), ``family``, ``overlap``).
+    Complex modes (complex-conjugate pairs of beta^2 below cutoff) are tracked like the others:
+    ``beta2`` is then complex and ``family`` 'complex' where a curve is a member of a pair.
     """
     fixed = isinstance(section, Mesh) and bool(section.materials)
     if not (isinstance(section, Section) or fixed):
@@ -208,9 +217,17 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     first = disp.modes[0]
     if _bare is None:
         _bare = _bare_modes(section, len(first) + 8, eps_r, mu_r)
-    named = _parents(section, problem, list(first), eps_r, mu_r, _bare)
-    names = tuple(f"{m.family} from {par}" if par else "" for m, (par, _) in zip(first, named))
-    return replace(disp, labels=names)
+    # members of complex pairs at the first frequency have no single parent: named as such
+    real = [m for m in first if m.family != "complex"]
+    named = iter(_parents(section, problem, real, eps_r, mu_r, _bare) if real else ())
+    names = []
+    for m in first:
+        if m.family == "complex":
+            names.append(f"complex pair ({'+' if m.beta2.imag > 0 else '-'})")
+        else:
+            par = next(named)[0]
+            names.append(f"{m.family} from {par}" if par else "")
+    return replace(disp, labels=tuple(names))
 
 
 @dataclass(frozen=True, eq=False)

@@ -57,6 +57,7 @@ __all__ = [
     "SlabPeakAndVoltage", "side_slab_te_m0_peak_and_voltage",
     "eccentric_coax_capacitance", "two_wire_impedance", "shielded_pair_thin_wire", "wires_in_shield_capacitance",
     "wires_in_shield_conductor_attenuation",
+    "rod_in_circular_guide_determinant", "rod_in_circular_guide_complex_beta2",
 ]
 
 # ---------------------------------------------------------------------------
@@ -1935,3 +1936,143 @@ def wires_in_shield_conductor_attenuation(shield_radius: float, wires, voltages,
     energy = float(V @ (0.5 * (C + C.T)) @ V) / (EPS0 * eps_r)
     eta = ETA0 * math.sqrt(mu_r / eps_r)
     return float(surface_resistance) * line_integral / (2 * eta * energy)
+# ---------------------------------------------------------------------------
+# Complex modes of the rod-loaded circular guide (complex beta^2)
+# ---------------------------------------------------------------------------
+#
+# Why this guide and not a layered rectangle: in a rectangular guide whose layers vary along one
+# axis only (y, say), the LSE^y modes obey psi'' + (k0^2 eps(y) - kx^2) psi = beta^2 psi and the
+# LSM^y modes eps (psi' / eps)' + (k0^2 eps(y) - kx^2) psi = beta^2 psi, each a self-adjoint
+# Sturm-Liouville problem in beta^2 (weights 1 and 1 / eps, real positive): every beta^2 is real
+# and no complex mode can occur (common practice; the transverse-resonance equations of
+# :func:`layered_guide_modes` have real roots only).  Complex modes need the two polarisations
+# coupled by a dielectric that spans the guide in no direction; the rod in a circular guide
+# (n >= 1: hybrid HE / EH; n = 0 splits into TE_0m and TM_0m, each again self-adjoint in beta^2)
+# is the classic case (Clarricoats & Slinn, Electronics Letters 1966, and Omar & Schuenemann,
+# IEEE Trans. MTT, on complex and backward-wave modes, from memory: complex pairs of the
+# HE_1m family below the turning point of a backward-wave branch for eps_r of order 10).
+
+def rod_in_circular_guide_determinant(beta2, a: float, b: float, eps_r: float, frequency: float,
+                                      azimuthal_order: int):
+    """The characteristic determinant of the rod-loaded circular guide at complex beta^2 (arrays).
+
+    Same guide and fields as :func:`_rod_characteristic` (radius b, concentric rod of radius a and
+    relative permittivity eps_r, vacuum outside, PEC wall, exp(j(w t - beta z)), azimuthal
+    cos / sin n phi), written here for complex beta^2 without the real-axis special cases.
+    Lengths in units of b: s = r / b, rho = a / b, K = k0 b, X = beta^2 b^2, s1 = K^2 eps_r - X,
+    s2 = K^2 - X (k1^2 b^2, k2^2 b^2).  Radial functions, each an entire function of s1 or s2:
+
+        rod     : p(s) = J_n(k1 s) / k1^n             (E_z and H_z, regular on the axis)
+        outside : f(s) = -pi/2 (J_n(k2 s) Y_n(k2) - J_n(k2) Y_n(k2 s))      f(1) = 0, f'(1) = 1
+                  g(s) = pi/2 k2 (J_n(k2 s) Y_n'(k2) - J_n'(k2) Y_n(k2 s))   g(1) = 1, g'(1) = 0
+
+    (even in k1 and in k2, so the branch of the square roots does not matter; the Wronskian
+    J Y' - J' Y = 2 / (pi x), Abramowitz and Stegun 9.1.16).  Rod: E_z = A p cos n phi,
+    eta0 H_z = beta B p sin n phi; outside: C f cos, beta D g sin.  Continuity at s = rho of E_z,
+    H_z, E_phi = -j / kt^2 (beta / r dE_z/dphi - w mu0 dH_z/dr) and H_phi = -j / kt^2 (beta / r
+    dH_z/dphi + w eps dE_z/dr) (Pozar, Microwave Engineering, sec. 3.1, in polar form), the last
+    two divided by -j beta resp. -j / eta0 and multiplied by s1 s2, gives M (A, B, C, D) = 0 with
+
+        | p              0              -f             0              |
+        | 0              p               0            -g              |
+        | -s2 n p/rho   -s2 K p'         s1 n f/rho    s1 K g'        |
+        | s2 K eps p'    s2 X n p/rho   -s1 K f'      -s1 X n g/rho   |
+
+    and det M, a function of beta^2 only, is returned.  Besides the modes it vanishes at
+    s1 = 0 and s2 = 0 (beta^2 = k0^2 eps_r, k0^2: real, from the factor s1 s2, not modes).  For
+    real beta^2 its zeros are those of :func:`rod_in_circular_guide_betas` (tested)."""
+    from scipy import special as sp
+
+    n = int(azimuthal_order)
+    rho = float(a) / float(b)
+    K = 2 * math.pi * float(frequency) / C0 * float(b)
+    X = np.asarray(beta2, dtype=complex) * float(b) ** 2
+    s1, s2 = K * K * float(eps_r) - X, K * K - X
+    k1, k2 = np.sqrt(s1), np.sqrt(s2)
+    def pair(fn, x):  # C_n(x) and C_n'(x) = C_{n-1}(x) - n C_n(x) / x (A&S 9.1.27)
+        c = fn(n, x)
+        return c, fn(n - 1, x) - n * c / x
+
+    with np.errstate(all="ignore"):
+        j1, dj1 = pair(sp.jv, k1 * rho)
+        p, dp = j1 / k1 ** n, k1 * dj1 / k1 ** n
+        (ja, dja), (jb, djb) = pair(sp.jv, k2 * rho), pair(sp.jv, k2)
+        (ya, dya), (yb, dyb) = pair(sp.yv, k2 * rho), pair(sp.yv, k2)
+    f = -0.5 * math.pi * (ja * yb - jb * ya)
+    df = -0.5 * math.pi * k2 * (dja * yb - jb * dya)
+    g = 0.5 * math.pi * k2 * (ja * dyb - djb * ya)
+    dg = 0.5 * math.pi * k2 * k2 * (dja * dyb - djb * dya)
+    z = np.zeros_like(X)
+    eps = float(eps_r)
+    M = np.array([[p, z, -f, z],
+                  [z, p, z, -g],
+                  [-s2 * n * p / rho, -s2 * K * dp, s1 * n * f / rho, s1 * K * dg],
+                  [s2 * K * eps * dp, s2 * X * n * p / rho, -s1 * K * df, -s1 * X * n * g / rho]])
+    return np.linalg.det(np.moveaxis(M, (0, 1), (-2, -1)))
+
+
+def _winding(func, centre: complex, radius: float, points: int = 1024) -> float:
+    """(1 / 2 pi) times the change of arg func along the circle |z - centre| = radius: the number
+    of zeros minus poles inside (argument principle; func here has no poles)."""
+    t = np.linspace(0.0, 2 * math.pi, points + 1)
+    with np.errstate(all="ignore"):
+        v = func(centre + radius * np.exp(1j * t))
+    phase = np.unwrap(np.angle(v))
+    return float((phase[-1] - phase[0]) / (2 * math.pi))
+
+
+def rod_in_circular_guide_complex_beta2(a: float, b: float, eps_r: float, frequency: float,
+                                        azimuthal_order: int, re_range=None, im_max=None,
+                                        grid: int = 160) -> List[complex]:
+    """Complex beta^2 (rad^2/m^2, Im > 0; each comes with its conjugate) of the rod-loaded circular
+    guide (:func:`rod_in_circular_guide_determinant`) of azimuthal order n >= 1 in the box
+    re_range[0] <= Re beta^2 <= re_range[1], 0 < Im beta^2 <= im_max (defaults: Re from
+    -(k0^2 eps_r + (3 / b)^2) to k0^2, Im up to k0^2 eps_r + (3 / b)^2), sorted by descending real part.
+
+    Root finding in the complex plane: |det| on a grid of ``grid`` x ``grid`` / 2 points, every
+    local minimum polished by the secant method (scipy.optimize.newton with a complex start),
+    then each root kept only if the argument principle counts exactly one zero in a small circle
+    around it (a minimum that is not a zero counts none).  Roots within 1e-6 (relative) of the
+    real axis are left out (they are the real modes)."""
+    a = _check_length("a", a)
+    b = _check_length("b", b)
+    if not a < b:
+        raise ValueError(f"rod radius a must be below the guide radius b = {b!r} m, got {a!r}")
+    eps_r = float(eps_r)
+    if not (math.isfinite(eps_r) and eps_r >= 1.0):
+        raise ValueError(f"eps_r must be a finite number >= 1, got {eps_r!r}")
+    if isinstance(azimuthal_order, bool) or not isinstance(azimuthal_order, (int, np.integer)) \
+            or azimuthal_order < 1:
+        raise ValueError(f"azimuthal_order must be an integer >= 1 (n = 0 has real beta^2 only), "
+                         f"got {azimuthal_order!r}")
+    k0 = 2 * math.pi * float(frequency) / C0
+    big = k0 * k0 * eps_r + (3.0 / b) ** 2
+    lo, hi = re_range if re_range is not None else (-big, k0 * k0)
+    top = float(im_max) if im_max is not None else big
+    scale = max(abs(lo), abs(hi), top)
+
+    def det(x):
+        return rod_in_circular_guide_determinant(x, a, b, eps_r, frequency, azimuthal_order)
+
+    xs = np.linspace(float(lo), float(hi), int(grid))
+    ys = np.linspace(top / grid, top, max(int(grid) // 2, 8))
+    Z = xs[None, :] + 1j * ys[:, None]
+    D = np.abs(det(Z))
+    found: List[complex] = []
+    for i in range(1, D.shape[0] - 1):
+        for j in range(1, D.shape[1] - 1):
+            if not D[i, j] <= D[i - 1:i + 2, j - 1:j + 2].min():
+                continue
+            try:
+                r = complex(optimize.newton(lambda x: complex(det(np.array([x]))[0]), Z[i, j],
+                                            tol=1e-14 * scale, maxiter=200))
+            except (RuntimeError, OverflowError, ZeroDivisionError):
+                continue
+            if not (r.imag > 1e-6 * scale and lo <= r.real <= hi and r.imag <= top):
+                continue
+            if any(abs(r - o) < 1e-8 * scale for o in found):
+                continue
+            rad = 0.25 * min(r.imag, min((abs(r - o) for o in found), default=r.imag))
+            if abs(_winding(det, r, rad) - 1.0) < 0.1:
+                found.append(r)
+    return sorted(found, key=lambda x: -x.real)

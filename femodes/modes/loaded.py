@@ -19,7 +19,10 @@ class LoadedMode:
     """One mode of a loaded guide at the frequency it was solved at.
 
     family : 'TE', 'TM', 'TEM' or 'hybrid', from the longitudinal energy shares (``e_share``,
-             ``h_share``; see femodes.vector.FAMILY_THRESHOLD)
+             ``h_share``; see femodes.vector.FAMILY_THRESHOLD); 'complex' for a member of a
+             complex-conjugate pair of beta^2 below cutoff (label 'complex pair 1 (+)' for
+             Im beta^2 > 0, '(-)' for its conjugate; beta complex, the principal root, Re beta
+             >= 0; beta_error = |error of beta^2| / (2 |beta|))
     label  : 'hybrid from TE10' when the mode's transverse E is mostly (``parent_share`` >= 0.8)
              that of one empty-guide mode or degenerate group ('hybrid from TE11/TM11': the
              LSE/LSM mixtures of a rectangle's degenerate pair), or of two ('... from TE10+TE20');
@@ -53,7 +56,7 @@ class LoadedMode:
 
     @property
     def propagating(self):
-        return self.vector.beta2 > 0
+        return self.vector.propagating
 
     def propagates(self, f=None):
         """True if the mode propagates (beta^2 > 0) at its frequency (the homogeneous modes'

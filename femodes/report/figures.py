@@ -1052,11 +1052,16 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labe
     empty guide (the section without its regions, filled with eps_r, mu_r), draws their
     beta = sqrt(k0^2 eps_r mu_r - kc^2) dotted for comparison (the phase a load adds); the light lines beta = k0 sqrt(eps_r mu_r) of the background
     fill and of every material region are drawn dashed (a guided mode lies below the highest
-    one).  Returns the Figure; saves it when ``path`` is given.
+    one).  Where a tracked mode is a member of a complex pair (complex beta^2 below cutoff:
+    complex modes), Re beta is drawn dash-dotted and |Im beta| (its attenuation, Np/m, on the
+    same axis) dotted, in the curve's colour, once per pair and labelled.  Returns the Figure;
+    saves it when ``path`` is given.
     """
     st = _style()
     f = np.asarray(disp.frequencies, dtype=float)
-    b2 = np.asarray(disp.beta2, dtype=float)
+    b2c = np.asarray(disp.beta2)
+    cplx = np.abs(b2c.imag) > 0
+    b2 = np.where(cplx, -1.0, b2c.real)  # real curves where real (complex parts drawn apart below)
     fig = _new_figure(8.0, 5.0)
     ax = fig.add_subplot(1, 1, 1)
     fg = f / 1e9
@@ -1083,6 +1088,26 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labe
         name = names[k] if k < len(names) and names[k] else fam
         ax.annotate(f"{k + 1} ({name})", (fg[last], beta[last]), xytext=(4, 0), textcoords="offset points",
                     va="center", fontsize=8, color=c)
+    drawn, top_c = [], 0.0
+    for k in range(b2.shape[1]):
+        if not np.any(cplx[:, k]):
+            continue
+        bc = np.sqrt(b2c[:, k].astype(complex))  # principal root: Re beta >= 0
+        re = np.where(cplx[:, k], bc.real, np.nan)
+        im = np.where(cplx[:, k], np.abs(bc.imag), np.nan)
+        if any(np.allclose(re, d, equal_nan=True) for d in drawn):
+            continue  # the conjugate member of a pair already drawn: same Re beta, same |Im beta|
+        drawn.append(re)
+        c = colours[k % len(colours)]
+        ax.plot(fg, re, ls="-.", lw=1.6, color=c, zorder=3, marker=".", ms=3, gid="complex-re")
+        ax.plot(fg, im, ls=":", lw=1.6, color=c, zorder=3, marker=".", ms=3, gid="complex-im")
+        ok = np.flatnonzero(cplx[:, k])
+        mid = ok[ok.size // 2]
+        ax.annotate(f"{k + 1}: complex pair, Re beta", (fg[mid], re[mid]), xytext=(0, 5),
+                    textcoords="offset points", ha="center", fontsize=7.5, color=c)
+        ax.annotate(f"{k + 1}: complex pair, |Im beta| (Np/m)", (fg[mid], im[mid]), xytext=(0, 5),
+                    textcoords="offset points", ha="center", fontsize=7.5, color=c)
+        top_c = max(top_c, float(np.nanmax(re)), float(np.nanmax(im)))
     for lab, kc in (empty or ()):
         eb2 = k0 ** 2 * float(eps_r) * float(mu_r) - float(kc) ** 2
         ok = eb2 > 0
@@ -1095,7 +1120,7 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labe
     ax.set_xlabel("frequency (GHz)")
     ax.set_ylabel("beta (rad/m)")
     ax.set_xlim(fg[0], fg[-1] + 0.12 * (fg[-1] - fg[0]))
-    top = max(np.sqrt(max(e * m for e, m in media)) * k0[-1], np.sqrt(max(float(np.max(b2)), 0.0)))
+    top = max(np.sqrt(max(e * m for e, m in media)) * k0[-1], np.sqrt(max(float(np.max(b2)), 0.0)), top_c)
     ax.set_ylim(0, 1.08 * top)
     ax.grid(color="#d9dcdf", lw=0.6)
     title = "Dispersion of the tracked modes"

@@ -13,6 +13,15 @@ safety factor).
 * Without a frequency: the lowest cutoff frequencies (beta = 0), computed directly; the error is
   relative to each cutoff.
 
+Complex modes (complex-conjugate pairs of beta^2 below cutoff, family 'complex', see
+femodes.solvers.vector.VectorMode) take part in the same three-mesh estimate, with |difference|
+of the complex values; each member is matched on the other meshes to the nearest complex value
+with the same sign of Im beta^2 (real modes are matched by their rank among the real ones, as
+before).  A complex pair is reported as a mode when it is found on all three meshes and its
+estimated error is below |Im beta^2| (it persists under refinement with a resolved imaginary
+part); otherwise it is taken for what coarse meshes also produce, two nearly equal evanescent
+eigenvalues of the discrete pencil merged into a complex pair, and left out with a warning.
+
 The assumed rate in h for elements of order p is 2p where the fields are smooth in every region
 (no singular corner, no curved wall or interface: the slab-loaded rectangle measured 5 to 6 at
 p = 3), else the conservative p + 1 (material corners and curved interfaces).
@@ -96,10 +105,28 @@ def _rate(section, p):
 def _partner(vm, candidates):
     """The mode among ``candidates`` (VectorModes of another discretisation of the same guide)
     nearest in beta^2 and of the same family, or None."""
-    same = [c for c in candidates if c.family == vm.family and c.beta2 > 0]
+    same = [c for c in candidates if c.family == vm.family and c.propagating]
     if not same:
         return None
     return min(same, key=lambda c: abs(c.beta2 - vm.beta2))
+
+
+def _match(values, finest):
+    """For each value of ``finest`` (the finest mesh's beta^2 or k0^2) the index of the same mode
+    among ``values`` (another mesh's), -1 if none: real ones by their rank among the real ones
+    (the lists are sorted alike), complex ones by the nearest complex value with the same sign of
+    the imaginary part."""
+    values, finest = np.asarray(values), np.asarray(finest)
+    out = -np.ones(finest.size, dtype=np.int64)
+    real_v, real_f = np.flatnonzero(values.imag == 0), np.flatnonzero(finest.imag == 0)
+    m = min(real_v.size, real_f.size)
+    out[real_f[:m]] = real_v[:m]
+    cv = np.flatnonzero(values.imag != 0)
+    for i in np.flatnonzero(finest.imag != 0):
+        same = cv[np.sign(values[cv].imag) == np.sign(finest[i].imag)]
+        if same.size:
+            out[i] = same[np.argmin(np.abs(values[same] - finest[i]))]
+    return out
 
 
 @dataclass(frozen=True, eq=False)
@@ -107,10 +134,12 @@ class LoadedSolution:
     """What the loaded accuracy loop found, before the modes are named (femodes.modes.parents).
 
     values  : beta^2 (at a frequency) or cutoff k0^2 (without) of the final mesh, per object
-    errors  : their estimated absolute errors (same units; fewer than ``objects`` when the
-              coarser meshes found fewer)
+    errors  : their estimated absolute errors (same units; complex |difference| for complex
+              modes; fewer than ``objects`` when the coarser meshes found fewer, NaN for a
+              complex mode without partners on the coarser meshes)
     objects : the VectorModes (at a frequency) or VectorCutoffs of the final mesh
-    keep    : indices of the objects to report (propagating only, unless evanescent asked)
+    keep    : indices of the objects to report (propagating only, unless evanescent asked;
+              complex pairs judged numerical artefacts never)
     problem : the final VectorProblem;  order : its element order
     lower   : () -> the VectorModes of order p - 1 on the final mesh (cached), or None
     """
@@ -125,11 +154,13 @@ class LoadedSolution:
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5, tan_delta=0.0):
+                 evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions, with
     their errors: the accuracy loop (module docstring), unnamed (:class:`LoadedSolution`).
 
-    ``eps_r``, ``mu_r``, ``tan_delta``: the background fill (the regions carry their own)."""
+    ``eps_r``, ``mu_r``, ``tan_delta``: the background fill (the regions carry their own).
+    ``mesh_size``: the element size (m) of the third (finest) of the first three meshes instead
+    of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger)."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
         raise FemodesError(f"order must be 1, 2 or 3 for loaded guides (edge elements), got {order!r}")
@@ -141,7 +172,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
         k_max = 2 * math.pi * float(frequency) / C0 * math.sqrt(eps_max * mu_max)
     else:
         k_max = math.sqrt(2 * math.pi * (modes + 1) / section.area * 1.15) * math.sqrt(eps_max * mu_max)
-    h = min(L / 4, 1.5 / k_max)
+    h = min(L / 4, 1.5 / k_max) if mesh_size is None else float(mesh_size)
 
     def run(size):
         """(values, mode objects, unknowns, problem, mesh) on the mesh of element size ``size``."""
@@ -159,14 +190,19 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
         finest mesh at the assumed rate, the largest taken, times the safety factor.  One pair
         alone can be fooled: when a refinement leaves the division of a short side unchanged the
         two errors come out nearly equal (the slab-loaded WR-90 at 1069 unknowns: estimate 16x
-        below the true error of its third mode)."""
+        below the true error of its third mode).  Modes are matched across meshes by
+        :func:`_match` (complex ones by nearest complex value); NaN where one has no partner."""
         finest = runs[-1]
-        n = min(len(r[0]) for r in runs[-3:])
+        maps = [_match(r[0], finest[0]) for r in runs[-3:]]
+        n = min(len(r[0]) for r in runs[-3:]) if frequency is None else len(finest[0])
         worst = np.zeros(n)
-        for c, f in zip(runs[-3:-1], runs[-2:]):
+        for (c, mc), (f, mf) in zip(zip(runs[-3:-1], maps[:-1]), zip(runs[-2:], maps[1:])):
             s_rate = max((f[2] / c[2]) ** (rate / 2) - 1.0, 1.0)
             carry = max((finest[2] / f[2]) ** (rate / 2), 1.0)
-            worst = np.maximum(worst, np.abs(c[0][:n] - f[0][:n]) / s_rate / carry)
+            ok = (mc[:n] >= 0) & (mf[:n] >= 0)
+            d = np.full(n, np.nan)
+            d[ok] = np.abs(c[0][mc[:n][ok]] - f[0][mf[:n][ok]]) / s_rate / carry
+            worst = np.where(np.isnan(d), np.nan, np.maximum(worst, d))
         return worst * SAFETY
 
     runs = [run(k * h) for k in (1.35 ** 2, 1.35, 1.0)]
@@ -177,6 +213,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             rel = err / ((2 * math.pi * float(frequency) / C0) ** 2 * eps_max * mu_max)
         else:
             rel = err / (2 * fine[0][:len(err)])
+        rel = rel[np.isfinite(rel)]  # complex pairs not on every mesh: judged at the end
         worst = float(rel.max()) if len(rel) else 0.0
         if worst <= accuracy:
             break
@@ -193,7 +230,25 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     err = estimate(runs)
     vals, objs = fine[0], fine[1]
     n = len(err)
-    keep = [i for i in range(n) if frequency is None or evanescent or objs[i].beta2 > 0]
+    # modes without a partner on a coarser mesh (NaN error) are not reported (real ones: those
+    # beyond what a coarser mesh found, as before)
+    keep = [i for i in range(n) if np.isfinite(err[i])
+            and (frequency is None or evanescent or objs[i].propagating)]
+    if frequency is not None:
+        # complex pairs: physical when found on every mesh with an error below |Im beta^2|,
+        # else merged near-equal evanescent eigenvalues of a coarse mesh (module docstring)
+        loose = [i for i in range(n) if objs[i].family == "complex"
+                 and not (np.isfinite(err[i]) and err[i] < abs(objs[i].beta2.imag))]
+        if loose:
+            b2 = objs[loose[0]].beta2
+            warnings.warn(f"femodes: {len(loose)} complex beta^2 value(s) (beta^2 = {b2.real:.4g} "
+                          f"{b2.imag:+.3g}j rad^2/m^2 the first) did not persist under refinement with a "
+                          "resolved imaginary part (absent from a coarser mesh, or |Im beta^2| within its "
+                          "error estimate): taken for two nearly equal evanescent eigenvalues that the "
+                          "discretisation merged into a complex pair (a numerical artefact, not a complex "
+                          "mode) and left out; if one sits at the end of the modes asked for, ask for a few "
+                          "more modes to check it", RuntimeWarning, stacklevel=3)
+            keep = [i for i in keep if i not in loose]
     def lower_modes(mesh=fine[4]):
         """The modes with elements of order p - 1 on the final mesh, for the error of field-based
         quantities."""

@@ -57,11 +57,22 @@ Both are solved directly as symmetric generalised eigenproblems in k0^2; the cur
 constraint int eps_r e . grad L_j = 0 imposed by a Lagrange multiplier, which removes its huge
 null-space of gradients (k0 = 0) instead of shifting it.
 
+Complex modes
+-------------
+A and B are real but the pencil is not symmetric-definite, so below cutoff eigenvalues can come
+as complex-conjugate pairs beta^2, conj(beta^2) with complex eigenvectors (conjugate to each
+other).  In lossless guides whose dielectric spans the section in no direction these are physical
+"complex modes"; on coarse meshes two nearly equal evanescent eigenvalues can also merge into
+such a pair.  ARPACK runs on the real operator; its complex Ritz pairs are kept (family
+'complex', see :class:`VectorMode`) when they are converged eigenpairs of the pencil, and the
+distinction physical / artefact is made by refinement in femodes.solvers.loaded.
+
 All SI: metres, hertz, rad/m.
 """
 
 from __future__ import annotations
 
+import cmath
 import math
 import warnings
 from dataclasses import dataclass, field
@@ -85,6 +96,14 @@ VECTOR_ORDERS = (1, 2, 3)
 FAMILY_THRESHOLD = 1e-6
 _SHIFT_FACTOR = 1.02  # sigma = _SHIFT_FACTOR * k0^2 max(eps mu)
 _COMPLEX_TOL = 1e-8   # |Im nu| / |nu| above which a shift-invert eigenvalue counts as complex
+#: a complex pair of the discrete pencil is kept as a mode when its relative residual and its
+#: discrete Gauss-law residual are below this (physical modes show ~1e-12, see VectorMode)
+COMPLEX_RESIDUAL = 1e-7
+
+
+def _is_complex(b2):
+    """True for a complex beta^2 (a member of a complex pair), False for a real one."""
+    return isinstance(b2, complex) or np.iscomplexobj(b2)
 
 
 # ---------------------------------------------------------------------------- results
@@ -92,9 +111,20 @@ _COMPLEX_TOL = 1e-8   # |Im nu| / |nu| above which a shift-invert eigenvalue cou
 class VectorMode:
     """One guided mode at one frequency.
 
-    beta2     : beta^2 (rad^2/m^2); negative for an evanescent mode
+    beta2     : beta^2 (rad^2/m^2); negative for an evanescent mode; complex (a Python complex)
+                for a member of a complex pair (below)
     frequency : Hz
-    family    : 'TE', 'TM', 'TEM' or 'hybrid', from e_share / h_share and FAMILY_THRESHOLD
+    family    : 'TE', 'TM', 'TEM' or 'hybrid', from e_share / h_share and FAMILY_THRESHOLD;
+                'complex' for a complex mode
+
+    Complex modes: the pencil is real but not symmetric-definite, so besides real beta^2
+    (propagating > 0, evanescent < 0) it can have complex-conjugate pairs beta^2, conj(beta^2).
+    In a lossless guide loaded with dielectric such pairs are physical "complex modes" below
+    cutoff (they carry no net power each, and exist in coupled pairs; Omar & Schuenemann, IEEE
+    Trans. MTT, 1985/1987, from memory).  For them ``et`` and ``ez`` are complex, beta =
+    sqrt(beta^2) on the principal branch (Re beta >= 0; with exp(j(w t - beta z)) the member with
+    Im beta < 0 decays toward +z while its phase advances, its partner with Im beta > 0 decays
+    toward -z), e_share uses |E|^2, h_share is NaN, and v_g, alpha_d are NaN.
     e_share   : int eps_r |E_z|^2 dA / int eps_r |E|^2 dA  (longitudinal share of electric energy)
     h_share   : int mu_r |H_z|^2 dA / int mu_r |H|^2 dA    (longitudinal share of magnetic energy)
     et        : coefficients of E_t on the Nedelec basis (real, all dofs; zero on the wall)
@@ -105,7 +135,7 @@ class VectorMode:
                 taken in absolute value: ~1e-12 for a physical mode, O(1) for a spurious vector
     """
 
-    beta2: float
+    beta2: float | complex
     frequency: float
     family: str
     e_share: float
@@ -118,11 +148,14 @@ class VectorMode:
 
     @property
     def propagating(self):
-        return self.beta2 > 0
+        return not _is_complex(self.beta2) and self.beta2 > 0
 
     @property
     def beta(self):
-        """beta (rad/m) if propagating, else -1j * alpha (alpha in Np/m)."""
+        """beta (rad/m) if propagating, else -1j * alpha (alpha in Np/m); for a complex mode the
+        principal square root of the complex beta^2 (Re beta >= 0)."""
+        if _is_complex(self.beta2):
+            return cmath.sqrt(self.beta2)
         if self.beta2 >= 0:
             return math.sqrt(self.beta2)
         return -1j * math.sqrt(-self.beta2)
@@ -139,7 +172,7 @@ class VectorMode:
     @property
     def guide_wavelength(self):
         """2 pi / beta (m); inf for an evanescent mode."""
-        return 2 * math.pi / math.sqrt(self.beta2) if self.beta2 > 0 else math.inf
+        return 2 * math.pi / math.sqrt(self.beta2) if self.propagating else math.inf
 
     @property
     def group_velocity(self):
@@ -204,7 +237,9 @@ class Dispersion:
     """beta(f) of tracked modes.
 
     frequencies : (F,) Hz, as given
-    beta2       : (F, N) beta^2 (rad^2/m^2) of each tracked mode (column) at each frequency
+    beta2       : (F, N) beta^2 (rad^2/m^2) of each tracked mode (column) at each frequency;
+                  a complex array when a tracked mode is a member of a complex pair somewhere
+                  (family 'complex' there; see VectorMode)
     overlap     : (F, N) how surely each point continues the curve: the larger of the mode's
                   weight in the expansion of the same mode at the previous frequency (bi-orthogonal
                   projection, 1 for identical fields) and its agreement with the beta^2 predicted
@@ -226,9 +261,13 @@ class Dispersion:
 
     @property
     def beta(self):
-        """(F, N) beta (rad/m), -1j alpha where evanescent."""
-        b2 = self.beta2
-        return np.where(b2 >= 0, np.sqrt(np.abs(b2)) + 0j, -1j * np.sqrt(np.abs(b2)))
+        """(F, N) beta (rad/m), -1j alpha where evanescent, the principal square root (Re beta
+        >= 0) of a complex beta^2 where the mode is a member of a complex pair."""
+        b2 = np.asarray(self.beta2)
+        cplx = np.abs(b2.imag) > 0
+        re = b2.real
+        real_beta = np.where(re >= 0, np.sqrt(np.abs(re)) + 0j, -1j * np.sqrt(np.abs(re)))
+        return np.where(cplx, np.sqrt(b2.astype(complex)), real_beta)
 
 
 # ---------------------------------------------------------------------------- helpers
@@ -444,9 +483,11 @@ class VectorProblem:
         y = lu.solve(np.asfortranarray(rhs))
         return y[:nt], -y[nt:]
 
-    def _eig(self, k0, nev, v0=None, tol=0.0, quiet=False):
-        """The nev eigenpairs of largest beta^2 at k0: (beta2 descending, E (nt, nev), w (nz, nev)),
-        complex modes left out (fewer columns then)."""
+    def _eig(self, k0, nev, v0=None, tol=0.0):
+        """The nev eigenpairs of largest beta^2 at k0: (beta2, E (nt, nev), w (nz, nev)), by
+        descending Re beta^2 (the Im > 0 member of a complex pair first).  Real arrays when every
+        eigenvalue is real; complex ones when complex pairs are among them (both members always:
+        the conjugate of a pair's eigenvector is the partner's, the pencil being real)."""
         from scipy.sparse.linalg import LinearOperator, eigs
 
 
@@ -467,27 +508,36 @@ class VectorProblem:
             # are either "complex modes", which lossless inhomogeneously filled guides can carry
             # below cutoff (Omar & Schuenemann, IEEE Trans. MTT 33(12), 1985, from memory), or,
             # as seen deep in the evanescent spectrum of coarse meshes, two nearly equal discrete
-            # eigenvalues that merged.  Neither can be tracked on the real axis; they are left
-            # out of the modes returned, with a warning unless ``quiet`` (the extra candidates
-            # that dispersion asks for).
+            # eigenvalues that merged.  Both are kept here with their complex eigenvectors; which
+            # is which is decided from the residual (``solve``) and from refinement
+            # (femodes.solvers.loaded: a physical pair persists with a stable imaginary part).
             cplx = np.abs(nu.imag) > _COMPLEX_TOL * np.abs(nu)
+            Vr = V[:, ~cplx]
+            Vr = Vr * np.exp(-1j * np.angle(Vr[np.argmax(np.abs(Vr), axis=0), np.arange(Vr.shape[1])]))
+            Vr = np.ascontiguousarray(Vr.real)
+            nur = nu[~cplx].real
+            Wr = self._apply_op(lu, sigma, Vr)[1] / nur
             if np.any(cplx):
-                keep = ~cplx
-                if not quiet:
-                    b2c = sigma + 1.0 / nu[cplx]
-                    warnings.warn(f"{int(cplx.sum())} complex-beta^2 eigenvalue(s) (complex modes, below "
-                                  f"cutoff; beta^2 = {b2c[0].real:.4g} {b2c[0].imag:+.3g}j rad^2/m^2 the "
-                                  "first) were left out of the modes returned", RuntimeWarning)
-                nu, V = nu[keep], V[:, keep]
-            # real eigenvectors: rotate each column to its dominant phase
-            V = V * np.exp(-1j * np.angle(V[np.argmax(np.abs(V), axis=0), np.arange(V.shape[1])]))
-            V = np.ascontiguousarray(V.real)
-            nu = nu.real
-            E, W = self._apply_op(lu, sigma, V)
-            W = W / nu
-        beta2 = self._polish(k0, sigma + 1.0 / nu, V, W)
-        order = np.argsort(-beta2)
-        return beta2[order], V[:, order], W[:, order]
+                nuc, Vc = nu[cplx], V[:, cplx]
+                # both members of every pair: add the conjugate of a member whose partner ARPACK
+                # left out (its eigenvector is the conjugate one)
+                miss = [j for j in range(nuc.size)
+                        if np.min(np.abs(nuc - np.conj(nuc[j]))) > 1e-6 * abs(nuc[j])]
+                if miss:
+                    nuc = np.concatenate([nuc, np.conj(nuc[miss])])
+                    Vc = np.hstack([Vc, np.conj(Vc[:, miss])])
+                Wa = self._apply_op(lu, sigma, np.ascontiguousarray(Vc.real))[1]
+                Wb = self._apply_op(lu, sigma, np.ascontiguousarray(Vc.imag))[1]
+                Wc = (Wa + 1j * Wb) / nuc
+                nu_all = np.concatenate([nur, nuc])
+                E = np.hstack([Vr.astype(complex), Vc])
+                W = np.hstack([Wr.astype(complex), Wc])
+                beta2 = self._polish(k0, sigma + 1.0 / nu_all, E, W)
+            else:
+                E, W = Vr, Wr
+                beta2 = self._polish(k0, sigma + 1.0 / nur, E, W)
+        order = np.lexsort((-beta2.imag, -beta2.real)) if np.iscomplexobj(beta2) else np.argsort(-beta2)
+        return beta2[order], E[:, order], W[:, order]
 
     def _polish(self, k0, b2, E, W, AX=None, BX=None):
         """Two-sided Rayleigh quotients y^T A x / y^T B x with the exact left eigenvector
@@ -527,7 +577,8 @@ class VectorProblem:
         kw = {} if cells is None else {"tind": cells}
         rows = slice(None) if cells is None else cells
         ne, q = (self.mesh.t.shape[1] if cells is None else len(cells)), X.shape[1]
-        ev, ec = np.zeros((2, ne, q)), np.zeros((ne, q))
+        dt = np.result_type(mode.et.dtype, float)
+        ev, ec = np.zeros((2, ne, q), dtype=dt), np.zeros((ne, q), dtype=dt)
         zv, zg = np.zeros((ne, q), dtype=complex), np.zeros((2, ne, q), dtype=complex)
         for k in range(bt.Nbfun):
             fk = bt.elem.gbasis(bt.mapping, X, k, **kw)[0]
@@ -594,7 +645,7 @@ class VectorProblem:
         """(v_g / c0, alpha_d in Np/m) of a mode from its right and left eigenvectors (see
         VectorMode.group_velocity and .dielectric_attenuation)."""
         b2 = mode.beta2
-        if not b2 > 0:
+        if _is_complex(b2) or not b2 > 0:
             return math.nan, math.nan
         pm = self.mats["pencil"]
         beta = math.sqrt(b2)
@@ -615,7 +666,7 @@ class VectorProblem:
         A(k0) X and B X if known."""
         pm = self.mats["pencil"]
         k2 = k0 * k0
-        lam = np.asarray(lam, dtype=float)[None, :]
+        lam = np.asarray(lam)[None, :]
         aX = np.abs(X)
         if AX is None:
             AX = pm["A0"] @ X - k2 * (pm["A2"] @ X)
@@ -629,7 +680,18 @@ class VectorProblem:
 
     def _modes(self, k0, b2, E, W):
         """Normalise eigenvectors (columns of E, W; beta^2 in b2), measure them, and wrap them as
-        VectorMode objects (all columns at once: one sparse product per matrix)."""
+        VectorMode objects (all columns at once: one sparse product per matrix).  Columns with a
+        complex beta^2 (complex arrays) become complex modes (:meth:`_complex_modes`)."""
+        b2 = np.asarray(b2)
+        if np.iscomplexobj(b2) or np.iscomplexobj(E):
+            cx = np.abs(b2.imag) > 0
+            out = [None] * b2.size
+            rr, cc = np.flatnonzero(~cx), np.flatnonzero(cx)
+            for idx, ms in ((rr, self._modes(k0, b2.real[rr], np.real(E[:, rr]), np.real(W[:, rr]))),
+                            (cc, self._complex_modes(k0, b2[cc], E[:, cc], W[:, cc]))):
+                for j, m in zip(idx, ms):
+                    out[j] = m
+            return tuple(out)
         tt, tz, zz, ab = self.mats["tt"], self.mats["tz"], self.mats["zz"], self.mats["abs"]
         b2 = np.asarray(b2, dtype=float)
         if b2.size == 0:
@@ -673,27 +735,74 @@ class VectorProblem:
                                   float(divergence[j]), self))
         return tuple(out)
 
+    def _complex_modes(self, k0, b2, E, W):
+        """VectorModes of family 'complex' for the complex eigenpairs (b2 complex, E, W complex
+        columns): normalised with int (|E_t|^2 + |E_z|^2) dA = 1, the largest E_t coefficient
+        real and positive, E_z = w / (j beta) with beta the principal root; residual, Gauss law
+        and the electric longitudinal share with |.|^2 (h_share NaN)."""
+        tt, tz, zz, ab = self.mats["tt"], self.mats["tz"], self.mats["zz"], self.mats["abs"]
+        b2 = np.asarray(b2, dtype=complex)
+        if b2.size == 0:
+            return ()
+        E = np.array(E, dtype=complex).reshape(self.interior_t.size, -1)
+        W = np.array(W, dtype=complex).reshape(self.interior_z.size, -1)
+        herm = lambda X, M: np.real(np.einsum("ij,ij->j", X.conj(), M @ X))
+        aB = np.abs(b2)
+        norm = np.sqrt(herm(E, tt["T_t1"]) + herm(W, zz["T_z1"]) / aB)
+        ph = E[np.argmax(np.abs(E), axis=0), np.arange(E.shape[1])]
+        rot = np.exp(-1j * np.angle(ph)) / norm
+        E, W = E * rot, W * rot
+        residual = self._residual(k0, b2, np.vstack([E, W]))
+        r = tz["G_eps"].T @ E + zz["T_zz"] @ W
+        scale = ab["G_eps"].T @ np.abs(E) + ab["T_zz"] @ np.abs(W)
+        divergence = np.linalg.norm(r, axis=0) / np.maximum(np.linalg.norm(scale, axis=0), 1e-300)
+        we_t, we_z = herm(E, tt["T_eps"]), herm(W, zz["T_zz"]) / aB
+        f = C0 * k0 / (2 * math.pi)
+        out = []
+        for j in range(b2.size):
+            et = np.zeros(self.basis_t.N, dtype=complex)
+            et[self.interior_t] = E[:, j]
+            ez = np.zeros(self.basis_z.N, dtype=complex)
+            ez[self.interior_z] = W[:, j] / (1j * cmath.sqrt(complex(b2[j])))
+            out.append(VectorMode(complex(b2[j]), f, "complex", float(we_z[j] / (we_t[j] + we_z[j])),
+                                  math.nan, et, ez, float(residual[j]), float(divergence[j]), self))
+        return tuple(out)
+
     # -- public ----------------------------------------------------------------------
     def solve(self, frequency, modes=4, evanescent=False, tol=0.0):
         """The ``modes`` modes of largest beta^2 at ``frequency`` (Hz), descending beta^2.
 
         evanescent=False: only the propagating ones among them (possibly fewer than ``modes``);
-        evanescent=True: exactly ``modes``, the propagating ones followed by the least attenuated
-        evanescent ones (beta = -j alpha).  ``tol`` is ARPACK's relative tolerance (0: machine).
-        Returns a tuple of :class:`VectorMode`.
+        evanescent=True: ``modes`` of them, the propagating ones followed by the least attenuated
+        evanescent ones (beta = -j alpha) and the complex pairs (family 'complex', both members,
+        by descending Re beta^2 among the evanescent ones; one more than ``modes`` when the last
+        is a pair).  A complex pair is kept when it is a converged eigenpair of the discrete
+        pencil (relative residual and Gauss-law residual below COMPLEX_RESIDUAL); one that is not
+        is dropped with a warning.  Whether a kept pair is physical or two near-equal evanescent
+        eigenvalues merged by a coarse mesh only refinement tells (femodes.solvers.loaded does
+        it).  ``tol`` is ARPACK's relative tolerance (0: machine).  Returns a tuple of
+        :class:`VectorMode`.
         """
         f = _frequency(frequency)
         n = _count("modes", modes)
         k0 = 2 * math.pi * f / C0
         beta2, V, W = self._eig(k0, n, tol=tol)
         out = self._modes(k0, beta2, V, W)
+        loose = [m for m in out if m.family == "complex"
+                 and not (m.residual < COMPLEX_RESIDUAL and m.divergence < COMPLEX_RESIDUAL)]
+        if loose:
+            warnings.warn(f"{len(loose)} complex-beta^2 eigenvalue(s) that are not converged eigenpairs of the "
+                          f"pencil (residual {max(m.residual for m in loose):.1e}; beta^2 = "
+                          f"{loose[0].beta2.real:.4g} {loose[0].beta2.imag:+.3g}j rad^2/m^2 the first: "
+                          "numerical artefacts, not modes) were left out", RuntimeWarning)
+            out = [m for m in out if m not in loose]
         bad = [m for m in out if not (m.residual < 1e-7 and m.divergence < 1e-7)]
         if bad:  # never seen; a guard for the claim in the module docstring
             warnings.warn(f"{len(bad)} of the {len(out)} computed pairs fail the residual / Gauss-law check "
                           f"(worst residual {max(m.residual for m in bad):.1e}, divergence "
                           f"{max(m.divergence for m in bad):.1e}); try a finer mesh or a smaller tol")
         if not evanescent:
-            out = [m for m in out if m.beta2 > 0]
+            out = [m for m in out if m.propagating]
         return tuple(out)
 
     def cutoffs(self, modes=6):
@@ -765,6 +874,10 @@ class VectorProblem:
         1e-6 leaves beta^2 good to ~1e-12 relative, far below the discretisation error, while
         spurious reduced pairs show residuals >= 2e-4.  (1e-8 made finer meshes ask for a full
         solve at nearly every frequency.)  The cost is a handful of factorisations instead of one per frequency.
+        Complex modes are followed like the others (the reduced basis spans the real and
+        imaginary parts of their fields).  Where two real curves meet and turn into a complex pair
+        (or a pair turns back into two real curves) the two eigenvectors coincide: which real
+        curve continues as which member is arbitrary there, and the overlap dips.
         Returns a :class:`Dispersion`.
         """
         from scipy.optimize import linear_sum_assignment
@@ -797,7 +910,7 @@ class VectorProblem:
             while True:
                 for i in todo:
                     nev_at[i] = nev_at.get(i, nev)
-                    snaps[i] = self._eig(2 * math.pi * fs[i] / C0, nev_at[i], quiet=True)
+                    snaps[i] = self._eig(2 * math.pi * fs[i] / C0, nev_at[i])
                 # only the points that failed are reduced again on the enlarged basis: the others
                 # already passed the full-space residual check, which does not depend on the basis
                 for i, c in zip(redo, self._reduced_candidates(fs[redo], snaps, nev, fs_max=float(fs.max()))):
@@ -827,7 +940,7 @@ class VectorProblem:
                 todo = [i]
             snapshots = np.array(sorted(snaps))
         if method == "direct":
-            cands = [self._eig(2 * math.pi * f / C0, nev, quiet=True) for f in fs]
+            cands = [self._eig(2 * math.pi * f / C0, nev) for f in fs]
             cands = [(b2, E, W, np.zeros(b2.size)) for b2, E, W in cands]
             picks, overlap, ok = self._track(cands, n, linear_sum_assignment, 2 * math.pi * fs / C0)
             if not ok:
@@ -837,7 +950,9 @@ class VectorProblem:
             i, k = np.unravel_index(np.argmin(overlap), overlap.shape)
             warnings.warn(f"dispersion: tracked mode {k + 1} is uncertain at {fs[i]:.6g} Hz (match {overlap[i, k]:.2f} "
                           "with the previous frequency); take more frequencies there", RuntimeWarning)
-        beta2 = np.zeros((fs.size, n))
+        cx = any(np.iscomplexobj(cands[i][0]) and np.any(cands[i][0][picks[i]].imag != 0)
+                 for i in range(fs.size))
+        beta2 = np.zeros((fs.size, n), dtype=complex if cx else float)
         family = np.empty((fs.size, n), dtype=object)
         modes_out = []
         for i, f in enumerate(fs):
@@ -857,8 +972,10 @@ class VectorProblem:
         def unit(b2, E, W):
             # fields normalised in int eps |E|^2 (E_z = w / (j beta)), and the reciprocity vectors
             # V_j = b2_j T_mu E_j - G_mu w_j with their self products d_j = E_j^T V_j
-            nrm = np.sqrt(np.einsum("ij,ij->j", E, tt["T_eps"] @ E)
-                          + np.einsum("ij,ij->j", W, zz["T_zz"] @ W) / np.abs(b2))
+            # (|.|^2 for complex modes; the reciprocity product below stays bilinear, which is
+            # the bi-orthogonality of the real pencil's eigenvectors, complex ones included)
+            nrm = np.sqrt(np.real(np.einsum("ij,ij->j", E.conj(), tt["T_eps"] @ E)
+                                  + np.einsum("ij,ij->j", W.conj(), zz["T_zz"] @ W) / np.abs(b2)))
             E, W = E / nrm, W / nrm
             V = (tt["T_mu"] @ E) * b2[None, :] - tz["G_mu"] @ W
             d = np.einsum("ij,ij->j", E, V)
@@ -896,7 +1013,7 @@ class VectorProblem:
                 width = np.maximum(np.where(np.isfinite(miss), 4.0 * miss, 0.05 * np.abs(step)),
                                    1e-9 * k0s[i] ** 2 * self.emu_max)
                 pred = prev_b2 + step
-                P = np.exp(-((pred[:, None] - b2[None, :]) / width[:, None]) ** 2)
+                P = np.exp(-(np.abs(pred[:, None] - b2[None, :]) / width[:, None]) ** 2)
                 rows, cols = assign(-(O * (0.05 + P)))
                 pick = cols[np.argsort(rows)]
                 overlap[i] = np.maximum(O[np.arange(n), pick], P[np.arange(n), pick])
@@ -929,8 +1046,11 @@ class VectorProblem:
         # and the E parts of their combinations lose their digits
         f_top = float(np.max(fs)) if fs_max is None else float(fs_max)
         sc = 1.0 / (2 * math.pi * f_top / C0 * math.sqrt(self.emu_max))
-        R = np.hstack([np.vstack([snaps[i][1], sc * snaps[i][2]]) for i in keys])
-        L = np.hstack([np.vstack([snaps[i][1] * (sc * sc * snaps[i][0][None, :]), sc * snaps[i][2]])
+        # complex modes: the real and imaginary parts of their eigenvectors span the same space
+        # (the pencil is real, so its reduced form stays real and returns their pairs again)
+        ri = lambda M: np.hstack([M.real, M.imag]) if np.iscomplexobj(M) else M
+        R = np.hstack([ri(np.vstack([snaps[i][1], sc * snaps[i][2]])) for i in keys])
+        L = np.hstack([ri(np.vstack([snaps[i][1] * (sc * sc * snaps[i][0][None, :]), sc * snaps[i][2]]))
                        for i in keys])
 
         def orth(M):  # orthonormal basis of the columns, rank by pivoted QR
@@ -959,10 +1079,19 @@ class VectorProblem:
         for f in fs:
             k0 = 2 * math.pi * f / C0
             lam, XR = sl.eig(Ar0 - (k0 * k0) * Ar2, Br)
-            fin = np.isfinite(lam) & (np.abs(lam.imag) <= 1e-8 * (np.abs(lam) + scale))
-            lam, XR = lam[fin].real, XR[:, fin]
-            order = np.argsort(-lam)[: nev + 4]
-            lam, XR = lam[order], real_cols(XR[:, order])
+            fin = np.isfinite(lam)
+            lam, XR = lam[fin], XR[:, fin]
+            real = np.abs(lam.imag) <= 1e-8 * (np.abs(lam) + scale)
+            if np.all(real):
+                lam, XR = lam.real, XR
+                order = np.argsort(-lam)[: nev + 4]
+                lam, XR = lam[order], real_cols(XR[:, order])
+            else:  # complex pairs among them (complex modes): complex columns, real ones rotated real
+                lam = np.where(real, lam.real, lam)
+                XR = XR.astype(complex)
+                XR[:, real] = real_cols(XR[:, real])
+                order = np.lexsort((-lam.imag, -lam.real))[: nev + 4]
+                lam, XR = lam[order], XR[:, order]
             X = V @ XR
             AX = AV0 @ XR - (k0 * k0) * (AV2 @ XR)   # full-space products from the projected
             BX = BV @ XR                             # ones: no A x, B x per frequency
