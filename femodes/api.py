@@ -354,12 +354,24 @@ def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_
         # that propagate somewhere in it), at least one
         n_band = max(1, sum(1 for c in cuts if c.fc < fs[-1]))
         empty = tuple((m.label, float(m.kc)) for m in bare[:n_band] if m.fc < fs[-1])
-        d = dispersion(section, fs, n_band, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta, _bare=bare)
+        # followed from the top of the band down: there the modes asked for propagate (their
+        # cutoffs lie below it), while at the bottom the least attenuated evanescent ones need not
+        # be the same modes (a band starting below cutoff followed the wrong curve otherwise)
+        d = _ascending(dispersion(section, fs[::-1], n_band, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
+                                  _bare=bare))
         names = tuple(lab or "" for lab in d.labels) or ("",) * d.beta2.shape[1]
         table = DispersionTable(np.asarray(d.frequencies, dtype=float), np.asarray(d.beta), None, names,
                                 tuple(str(f) for f in d.family[-1]), np.asarray(d.overlap), d)
         out = replace(out, dispersion=table, empty_modes=empty)
     return out
+
+
+def _ascending(d):
+    """A Dispersion computed from the highest frequency down, put back in ascending frequency
+    (``overlap`` then links each point with the next higher frequency)."""
+    return replace(d, frequencies=np.asarray(d.frequencies)[::-1], beta2=np.asarray(d.beta2)[::-1],
+                   overlap=np.asarray(d.overlap)[::-1], family=np.asarray(d.family)[::-1],
+                   modes=tuple(d.modes)[::-1])
 
 
 def _closed_form_dispersion(modeset, fs):

@@ -100,6 +100,7 @@ class Analysis:
     family: str | None
     top_cutoff: float
     cautions: tuple
+    loaded: bool = False
 
     @property
     def propagating(self):
@@ -282,7 +283,7 @@ def _analyse_loaded(study, settings):
         lo, hi = Q.RECOMMENDED_LOW * f1, Q.RECOMMENDED_HIGH * f2
         band = Q.Band(f1, f2, f2 / f1, lo if lo < hi else None, hi if lo < hi else None, cuts[0].label, cuts[1].label)
     return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=None, family=None,
-                    top_cutoff=math.nan, cautions=tuple(Q.CAUTIONS))
+                    top_cutoff=math.nan, cautions=tuple(Q.CAUTIONS), loaded=True)
 
 
 def _or_none(x):

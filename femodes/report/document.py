@@ -96,9 +96,10 @@ def _corner(c):
 
 def dispersion_document(disp) -> dict:
     """The "dispersion" object: per followed mode, beta (rad/m; null where evanescent), alpha
-    (Np/m; null where propagating) and beta's error over the frequencies (Hz)."""
+    (Np/m; null where propagating; both for a member of a complex pair, beta - j alpha) and
+    beta's error over the frequencies (Hz)."""
     b = np.asarray(disp.beta, dtype=complex)
-    prop = (b.real > 0) & (np.abs(b.imag) <= 1e-12 * np.abs(b))
+    tiny = 1e-12 * np.abs(b)
     err = disp.beta_error
     out = {"frequencies": _num_list(disp.frequencies),
            "method": "closed form from each cutoff" if disp.overlap is None else "full-vector solves, tracked by "
@@ -107,8 +108,8 @@ def dispersion_document(disp) -> dict:
     for k in range(b.shape[1]):
         out["modes"].append({
             "label": disp.labels[k] or None, "family": disp.family[k],
-            "beta": [_finite(v.real) if p else None for v, p in zip(b[:, k], prop[:, k])],
-            "alpha": [None if p else _finite(abs(v)) for v, p in zip(b[:, k], prop[:, k])],
+            "beta": [_finite(v.real) if v.real > s else None for v, s in zip(b[:, k], tiny[:, k])],
+            "alpha": [_finite(abs(v.imag)) if abs(v.imag) > s else None for v, s in zip(b[:, k], tiny[:, k])],
             "beta_error": None if err is None else _num_list(err[:, k]),
             "overlap": None if disp.overlap is None else _num_list(disp.overlap[:, k])})
     return out

@@ -56,7 +56,8 @@ def write_csv(result, path, analysis=None):
     ``x=odd;y=even``; empty where a value does not exist for the kind of guide); with an
     :class:`Analysis`, ``<name>.at_frequency.csv`` has the quantities at its frequency
     (:data:`AT_FREQUENCY_COLUMNS`); with a band, ``<name>.dispersion.csv`` has beta of each
-    followed mode at each frequency (:data:`DISPERSION_COLUMNS`).  Returns the paths written."""
+    followed mode at each frequency (:data:`DISPERSION_COLUMNS`: beta empty where evanescent, alpha
+    empty where propagating, both for a member of a complex pair).  Returns the paths written."""
     study = as_study(result)
     rows = [CSV_COLUMNS]
     for m in study.modes:
@@ -86,12 +87,13 @@ def write_csv(result, path, analysis=None):
     disp = study.dispersion
     if disp is not None:
         b = np.asarray(disp.beta, dtype=complex)
-        prop = (b.real > 0) & (np.abs(b.imag) <= 1e-12 * np.abs(b))
+        tiny = 1e-12 * np.abs(b)
         rows = [DISPERSION_COLUMNS]
         for i, f in enumerate(disp.frequencies):
             for k in range(b.shape[1]):
-                rows.append((_num(f), k + 1, disp.labels[k], disp.family[k], _num(b[i, k].real) if prop[i, k] else "",
-                             "" if prop[i, k] else _num(abs(b[i, k])),
+                v = b[i, k]
+                rows.append((_num(f), k + 1, disp.labels[k], disp.family[k], _num(v.real) if v.real > tiny[i, k] else "",
+                             _num(abs(v.imag)) if abs(v.imag) > tiny[i, k] else "",
                              "" if disp.beta_error is None else _num(disp.beta_error[i, k])))
         written.append(_write_rows(_sibling(path, "dispersion"), rows))
     return written

@@ -118,10 +118,14 @@ def dispersion_table(study) -> str:
     how = ("tracked by field overlap" if disp.overlap is not None else
            "closed form beta = sqrt(k^2 - kc^2) from each cutoff")
     lines = [f"dispersion: beta [rad/m] of the modes that propagate in the band, {fs.size} frequencies "
-             f"{_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz ({how}; '-' evanescent):"]
+             f"{_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz ({how}; '-' evanescent; a+jb a member of a complex pair):"]
     head = ["f [GHz]"] + [f"{k + 1}: {n}" for k, n in enumerate(names)]
-    rows = [[_f_ghz(fs[i])] + [(_g(b.real, 6) if b.real > 0 and abs(b.imag) <= 1e-12 * abs(b.real) else "-")
-                               for b in disp.beta[i]] for i in picks]
+    def cell(b):
+        if abs(b.imag) <= 1e-12 * abs(b):
+            return _g(b.real, 6) if b.real > 0 else "-"
+        return f"{_g(b.real, 4)}{'-' if b.imag < 0 else '+'}j{_g(abs(b.imag), 4)}" if b.real > 1e-12 * abs(b) else "-"
+
+    rows = [[_f_ghz(fs[i])] + [cell(b) for b in disp.beta[i]] for i in picks]
     lines += _grid(head, rows, set(range(len(head))))
     if disp.overlap is not None:
         low = float(np.min(disp.overlap))
@@ -134,7 +138,7 @@ def dispersion_table(study) -> str:
 def _walls_text(an):
     s = an.settings
     rough = "smooth" if s.roughness == 0 else f"rms roughness {s.roughness * 1e6:.4g} um (Hammerstad-Jensen)"
-    if any(q.mode.frequency is not None for q in an.modes):  # a loaded guide: losses solved with the modes
+    if an.loaded:  # a loaded guide: the dielectric losses are solved with the modes
         return f"walls: {s.conductor_text}, {rough}; fill and regions: the loss tangents they were given"
     fill = "lossless" if s.tan_delta == 0 else f"tan_delta = {s.tan_delta:.3g}"
     return f"walls: {s.conductor_text}, {rough}; fill: {fill}"
@@ -157,7 +161,7 @@ def analysis_table(an, study=None) -> str:
     lines.append("")
 
     prop = an.propagating
-    loaded = any(q.mode.frequency is not None for q in an.modes)
+    loaded = an.loaded
     if prop:
         lines.append(f"propagating at {fg} GHz:" + (" the modes of largest beta" if loaded else ""))
         rows = []
