@@ -164,3 +164,19 @@ def test_loaded_report_has_impedances_and_power_handling_with_errors(pair):
     text = " ".join(R.report_table(loaded, an).split())  # wrapped lines joined
     assert "Z_PV" in text and "±" in text and "check it against the dielectric strength" in text
     assert "High RF power is hazardous" in text  # the cautions come with the numbers
+
+
+def test_loaded_band_sweep_follows_the_closed_form_loss(pair):
+    # the attenuation of the loaded path over the band, from the dispersion curve's own fields
+    # at each frequency, against Pozar eq. 3.96 for the filled TE10 (no loss tangent here); no
+    # per-point error estimate exists, so the bound is the field-level accuracy seen at the
+    # analysis frequency (test above: 1e-4), with margin
+    _, loaded, _ = pair
+    settings = AnalysisSettings(frequency=F, band=BAND, points=5)
+    an = R.analyse(loaded, settings)
+    (key, a), = an.sweep.attenuation.items()
+    assert R.analysis.sweep_name(an, key) == (1, "TE from TE10")
+    want = np.array([_te10(f)[2] for f in an.sweep.frequencies])
+    np.testing.assert_allclose(a, want, rtol=1e-3)
+    doc = R.report_document(loaded, an)["analysis"]["band"]["sweep"]
+    assert doc["modes"][0]["label"] == "TE from TE10" and len(doc["modes"][0]["attenuation_np_per_m"]) == 5

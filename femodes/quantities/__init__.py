@@ -65,6 +65,7 @@ from femodes.quantities.losses import (
                                        skin_depth,
                                        surface_resistance,
                                        to_db,
+    vector_mode_attenuation,
                                        wall_integrals,
 )
 from femodes.quantities.power import (
@@ -96,7 +97,8 @@ __all__ = [
     "WaveQuantities", "Band", "WallIntegrals", "Losses", "PowerHandling", "FieldPhasors",
     "wave_quantities", "band", "propagating", "longitudinal_factor", "field_phasors",
     "conductivity_of", "skin_depth", "surface_resistance", "roughness_factor", "wall_integrals",
-    "conductor_attenuation", "loaded_conductor_attenuation", "loaded_conductor_attenuation_error", "dielectric_attenuation", "attenuation", "losses", "to_db",
+    "conductor_attenuation",
+    "vector_mode_attenuation", "loaded_conductor_attenuation", "loaded_conductor_attenuation_error", "dielectric_attenuation", "attenuation", "losses", "to_db",
     "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
     "GAS_MAX_EPS_R", "LoadedImpedances", "LoadedPowerHandling", "RegionPeak", "CornerField",
     "loaded_impedances", "loaded_power_handling", "lower_order_partner",

@@ -307,6 +307,17 @@ def _alpha_c_vector(vm, conductivity, roughness):
     return rs * vm.wall_integral() / (4.0 * vm.power())
 
 
+def vector_mode_attenuation(vector_mode, conductivity=5.8e7, roughness=0.0):
+    """(alpha_c, alpha_d) in Np/m of a full-vector mode of a loaded guide as solved at its
+    frequency (a :class:`femodes.solvers.vector.VectorMode`, e.g. a point of a dispersion curve):
+    the wall loss by the power-loss method (as :func:`loaded_conductor_attenuation`) and the
+    loss of the fill's and regions' loss tangents (first order).  (NaN, NaN) unless it
+    propagates.  No error estimate: a point of a curve has no lower-order partner solved."""
+    if vector_mode.family == "complex" or not vector_mode.propagating:
+        return math.nan, math.nan
+    return _alpha_c_vector(vector_mode, conductivity, roughness), float(vector_mode.dielectric_attenuation)
+
+
 def loaded_conductor_attenuation(mode, conductivity=5.8e7, roughness=0.0):
     """Wall-loss attenuation alpha_c (Np/m) of a loaded-guide mode (:class:`~femodes.modes.LoadedMode`)
     at the frequency it was solved at, by the power-loss method as for homogeneous modes

@@ -86,6 +86,7 @@ class Sweep:
     frequencies: np.ndarray
     attenuation: dict
     rated_power: dict
+    names: dict | None = None  # key -> (number, label) of each curve; None: the keys are mode indices
 
 
 @dataclass(frozen=True)
@@ -276,13 +277,30 @@ def _analyse_loaded(study, settings):
                 notes.append(f"impedances: V along the path given, I on {li.wall}")
         ph = Q.power_handling(m, f, settings.breakdown_field, settings.safety_factor, section=section)
         rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes), z_err))
+    sweep = None
+    disp = study.dispersion
+    if settings.band is not None and disp is not None and disp.solved is not None:
+        fs = np.asarray(disp.frequencies, dtype=float)
+        att, names = {}, {}
+        for k in range(disp.beta.shape[1]):
+            a = np.full(fs.shape, np.nan)
+            for i in range(fs.size):
+                vm = disp.solved.modes[i][k]
+                ac, ad = Q.vector_mode_attenuation(vm, sigma, rough)
+                total = ac + ad
+                if math.isfinite(total) and total <= PERTURBATION_LIMIT * abs(complex(vm.beta)):
+                    a[i] = total
+            if np.any(np.isfinite(a)):
+                att[k] = a
+                names[k] = (k + 1, disp.labels[k] or f"mode {k + 1}")
+        sweep = Sweep(fs, att, {}, names)
     band = None
     cuts = study.modes
     if len(cuts) >= 2:
         f1, f2 = cuts[0].fc, cuts[1].fc
         lo, hi = Q.RECOMMENDED_LOW * f1, Q.RECOMMENDED_HIGH * f2
         band = Q.Band(f1, f2, f2 / f1, lo if lo < hi else None, hi if lo < hi else None, cuts[0].label, cuts[1].label)
-    return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=None, family=None,
+    return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=sweep, family=None,
                     top_cutoff=math.nan, cautions=tuple(Q.CAUTIONS), loaded=True)
 
 
@@ -293,3 +311,12 @@ def _or_none(x):
 
 def _mode_of(an, index):
     return next(q.mode for q in an.modes if q.mode.index == index)
+
+
+def sweep_name(an, key):
+    """(number shown, label) of a curve of the band sweep: the mode's (homogeneous guides) or the
+    tracked dispersion curve's (loaded guides)."""
+    if an.sweep.names is not None:
+        return an.sweep.names[key]
+    m = _mode_of(an, key)
+    return m.index + 1, m.label

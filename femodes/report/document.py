@@ -10,7 +10,7 @@ import numpy as np
 
 from femodes import quantities as Q
 from femodes.constants import C0, __version__
-from femodes.report.analysis import ANALYSIS_UNITS, _mode_of, as_study
+from femodes.report.analysis import ANALYSIS_UNITS, as_study, sweep_name
 from femodes.report.files import _write_text
 from femodes.report.text import _band, _clean, _finite, _num_list, _section_info
 
@@ -186,9 +186,9 @@ def analysis_document(an) -> dict:
         fs = an.sweep.frequencies
         per = []
         for idx, a in an.sweep.attenuation.items():
-            m = _mode_of(an, idx)
+            number, label = sweep_name(an, idx)
             db = a * Q.NP_TO_DB
-            entry = {"index": idx, "label": m.label, "attenuation_np_per_m": _num_list(a),
+            entry = {"index": number - 1, "label": label, "attenuation_np_per_m": _num_list(a),
                      "attenuation_db_per_m": _num_list(db),
                      "min_db_per_m": _finite(np.nanmin(db)), "min_at": _finite(fs[int(np.nanargmin(db))]),
                      "max_db_per_m": _finite(np.nanmax(db)), "max_at": _finite(fs[int(np.nanargmax(db))]),

@@ -35,6 +35,7 @@ import numpy as np
 
 from femodes import quantities as Q
 from femodes.errors import FemodesError, positive_number
+from femodes.modes.loaded import LoadedMode
 from femodes.quantities import conductivity_of
 from femodes.report.analysis import reliable_attenuation
 from femodes.solvers.fields import _transverse
@@ -441,6 +442,9 @@ def field_pattern(mode, path=None, *, show="E", section=None, mesh=None, modeset
     a member of a degenerate group (k 1-based, as in the file names of :func:`field_patterns`).
     Around the guide the wall metal is tinted light grey.  Axes are in millimetres, equal aspect.
     """
+    if isinstance(mode, LoadedMode):  # one entry for every guide: a loaded mode's own drawing
+        return loaded_field_pattern(mode, path, section=section, arrows=arrows, density=density, cmap=cmap,
+                                    subdivisions=subdivisions or 3, dpi=dpi)
     show = str(show).upper()
     if show not in ("E", "H", "EH"):
         raise FemodesError(f"show must be 'E', 'H' or 'EH', got {show!r}")
@@ -510,7 +514,8 @@ def field_pattern(mode, path=None, *, show="E", section=None, mesh=None, modeset
 
 
 def field_patterns(modeset, directory, fmt="png", count=None, show="E", **options):
-    """Write one field-pattern file per mode of ``modeset`` into ``directory``.
+    """Write one field-pattern file per mode of ``modeset`` into ``directory`` (a ModeSet, or the
+    modes of a loaded guide at a frequency: any sequence of modes, drawn by :func:`field_pattern`).
 
     Files are named ``mode01_TE10.png``, ``mode02_TE11.png``, ... (1-based position in the set,
     label made file-name safe by :func:`safe_name`).  ``count`` limits the number of modes (the
@@ -530,7 +535,10 @@ def field_patterns(modeset, directory, fmt="png", count=None, show="E", **option
     out = []
     for mode in list(modeset)[:n]:
         p = directory / f"mode{mode.index + 1:0{width}d}_{safe_name(mode.label)}.{fmt}"
-        field_pattern(mode, p, show=show, modeset=modeset, **options)
+        if isinstance(mode, LoadedMode):
+            field_pattern(mode, p, **options)
+        else:
+            field_pattern(mode, p, show=show, modeset=modeset, **options)
         out.append(p)
     return out
 

@@ -87,10 +87,7 @@ def _loaded_figures(figs, study, output):
     if "fields" in output.figures and study.frequency is not None:
         prop = [m for m in study.at_frequency if m.propagates()]
         n = len(prop) if output.field_count is None else min(output.field_count, len(prop))
-        for m in prop[:n]:
-            p = d / f"mode{m.index + 1:02d}_{figs.safe_name(m.label)}.{output.format}"
-            figs.loaded_field_pattern(m, p, section=study.section)
-            out.append(str(p))
+        out += [str(p) for p in figs.field_patterns(prop, d, fmt=output.format, count=n, section=study.section)]
     if "dispersion" in output.figures and study.dispersion is not None:
         p = d / f"dispersion.{output.format}"
         figs.dispersion_chart(study.dispersion.solved, p, section=study.section, eps_r=study.eps_r,

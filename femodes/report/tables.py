@@ -9,7 +9,7 @@ import numpy as np
 
 from femodes.constants import C0, __version__
 from femodes.quantities import NP_TO_DB
-from femodes.report.analysis import PERTURBATION_LIMIT, _mode_of, as_study
+from femodes.report.analysis import PERTURBATION_LIMIT, as_study, sweep_name
 from femodes.report.text import (
     _band,
     _degenerate_text,
@@ -293,12 +293,16 @@ def analysis_table(an, study=None) -> str:
             lines.append(f"  (it starts below the dominant cutoff {_f_ghz(b.low)} GHz: nothing propagates there)")
         if b is not None and fs[-1] > b.high:
             lines.append(f"  (it runs above the next cutoff {_f_ghz(b.high)} GHz: more than one mode can propagate)")
+        if an.loaded and an.sweep.attenuation:
+            lines += _wrap("(loss of each dispersion curve, from its full-vector fields at each frequency; no "
+                           "error estimate per point; rated power over the band not computed for loaded guides)",
+                           "  ", "  ")
         for idx, a in an.sweep.attenuation.items():
-            m = _mode_of(an, idx)
+            number, label = sweep_name(an, idx)
             ok = np.isfinite(a)
             db = a * NP_TO_DB
             i_min, i_max = int(np.nanargmin(db)), int(np.nanargmax(db))
-            text = (f"#{m.index + 1} {m.label}: loss {_g(db[i_min], 4)} dB/m (at {_f_ghz(fs[i_min])} GHz) to "
+            text = (f"{'curve ' if an.loaded else '#'}{number} {label}: loss {_g(db[i_min], 4)} dB/m (at {_f_ghz(fs[i_min])} GHz) to "
                     f"{_g(db[i_max], 4)} dB/m (at {_f_ghz(fs[i_max])} GHz)")
             if not np.all(ok):
                 text += (f" over the {int(ok.sum())} of {ok.size} points where it propagates and the loss method "
