@@ -1,0 +1,191 @@
+"""Reading single values of a case file: numbers, counts, choices, lengths in the file's units,
+frequencies and bands, conductors; tables and unknown keys (with a suggestion of the key meant).
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+
+from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, POINT, POINTS
+from femodes.errors import FemodesError
+from femodes.quantities import METALS, conductivity_of
+
+
+def _decimal_scale(value, scale):
+    """value x scale for a power-of-ten scale, rounded as the decimal product would be (8.2 GHz ->
+    exactly 8.2e9 Hz, not 8199999999.999999)."""
+    from decimal import Decimal
+
+    exp = round(math.log10(scale))
+    if 10.0 ** exp != scale:
+        return float(value) * scale
+    return float(Decimal(repr(float(value))).scaleb(exp))
+
+
+def _frequency_value(where, value, units, scale):
+    v = _number(where, value, f"a frequency in {units} (number)")
+    if v <= 0:
+        raise FemodesError(f"{where} must be a positive frequency in {units}, got {_show(value)}")
+    return _decimal_scale(v, scale)
+
+
+def _band_value(where, value, units, scale):
+    if (not isinstance(value, (list, tuple)) or len(value) != 2 or not all(_is_number(v) for v in value)):
+        raise FemodesError(f"{where} must be a pair [f1, f2] of frequencies in {units}, e.g. [8.2, 12.4], "
+                           f"got {_show(list(value) if isinstance(value, tuple) else value)}")
+    f1, f2 = (float(v) for v in value)
+    if not (math.isfinite(f1) and math.isfinite(f2) and 0 < f1 < f2):
+        raise FemodesError(f"{where} must be [f1, f2] with 0 < f1 < f2 ({units}), got [{value[0]!r}, {value[1]!r}]")
+    return (_decimal_scale(f1, scale), _decimal_scale(f2, scale))
+
+
+def _parse_conductor(text):
+    """A --conductor argument: a number (S/m) if it reads as one, else a metal name."""
+    if isinstance(text, str):
+        try:
+            return float(text)
+        except ValueError:
+            return text
+    return text
+
+
+def _conductor_value(where, value):
+    """(name or None, conductivity in S/m) from a metal name or a number in S/m."""
+
+    if isinstance(value, str):
+        try:
+            sigma = conductivity_of(value)
+        except FemodesError:
+            names = list(METALS)
+            raise FemodesError(f"{where}: unknown metal {value!r}{_suggest(value.lower(), names)} (known: "
+                               f"{', '.join(names)}; or give the conductivity in S/m as a number)") from None
+        return next(k for k, v in METALS.items() if v == sigma), sigma
+    v = _number(where, value, "a metal name or a conductivity in S/m")
+    if v <= 0:
+        raise FemodesError(f"{where} must be a metal name or a positive conductivity in S/m (5.8e7 for "
+                           f"copper), got {_show(value)}")
+    return None, v
+
+
+def _convert(key, value, scale, units, table="[guide]"):
+    where = f"{key.name} in {table}"
+    if key.kind == LENGTH:
+        return _number(where, value, f"a length in {units}") * scale
+    if key.kind == ANGLE:
+        return math.radians(_number(where, value, "an angle in degrees"))
+    if key.kind == POINT:
+        return _pair(where, value, scale, units)
+    if key.kind == POINTS:
+        return _points(where, value, scale, units)
+    if key.kind == LOOPS:
+        if not isinstance(value, list):
+            raise FemodesError(f"{where} must be {_KIND_TEXT[LOOPS]} in {units}, e.g. "
+                               f"[[[0, 0], [1, 0], [0, 1]]], got {_show(value)}")
+        return [_points(f"{key.name}[{i}] in {table}", h, scale, units) for i, h in enumerate(value)]
+    if key.kind == AXIS:
+        return _choice(where, value, ("x", "y"))
+    raise AssertionError(key.kind)
+
+
+def _pair(where, value, scale, units):
+    if (not isinstance(value, list) or len(value) != 2
+            or not all(_is_number(v) for v in value)):
+        raise FemodesError(f"{where} must be a pair [dx, dy] of numbers in {units}, got {_show(value)}")
+    return (float(value[0]) * scale, float(value[1]) * scale)
+
+
+def _points(where, value, scale, units):
+    if not isinstance(value, list):
+        raise FemodesError(f"{where} must be {_KIND_TEXT[POINTS]} in {units}, e.g. [[0, 0], [10, 0], [0, 5]], "
+                           f"got {_show(value)}")
+    out = []
+    for i, p in enumerate(value):
+        if not isinstance(p, list) or len(p) != 2 or not all(_is_number(v) for v in p):
+            raise FemodesError(f"{where}: point {i + 1} must be a pair [x, y] of numbers in {units}, got {_show(p)}")
+        out.append((float(p[0]) * scale, float(p[1]) * scale))
+    return out
+
+
+def _table(data, name):
+    t = data.get(name, {})
+    if not isinstance(t, dict):
+        raise FemodesError(f"{name} must be a table [{name}] with keys, got {name} = {_show(t)}")
+    return t
+
+
+def _check_keys(table, allowed, where, shown=None):
+    for k, v in table.items():
+        if k not in allowed:
+            what = "table" if isinstance(v, dict) else "key"
+            raise FemodesError(f"unknown {what} {k!r} in {where}{_suggest(k, allowed)} "
+                               f"(valid: {', '.join(shown or allowed)})")
+
+
+def _suggest(word, options):
+    hits = difflib.get_close_matches(str(word), list(options), n=1, cutoff=0.6)
+    return f"; did you mean {hits[0]!r}?" if hits else ""
+
+
+def _is_number(v):
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def _number(where, value, what="a number"):
+    if not _is_number(value):
+        hint = ""
+        if isinstance(value, str):
+            hint = " (write the number without quotes; the unit is set by `units`)"
+        raise FemodesError(f"{where} must be {what}, got {_show(value)}{hint}")
+    v = float(value)
+    if not math.isfinite(v):
+        raise FemodesError(f"{where} must be a finite number, got {_show(value)}")
+    return v
+
+
+def _parse_number(value, where, what, whole=False):
+    """A number from a command-line string (or pass a number through)."""
+    if isinstance(value, str):
+        try:
+            return int(value) if whole else float(value)
+        except ValueError:
+            raise FemodesError(f"{where} must be {what}, got {value!r}") from None
+    return value
+
+
+def _count(where, value):
+    if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+        raise FemodesError(f"{where} must be a whole number >= 1, got {_show(value)}")
+    return value
+
+
+def _accuracy(where, value):
+    v = _number(where, value, "a relative error (number), e.g. 1e-6")
+    if not (0 < v < 1):
+        raise FemodesError(f"{where} is a relative error on the cutoffs and must lie between 0 and 1 "
+                           f"(e.g. 1e-6), got {_show(value)}")
+    return v
+
+
+def _choice(where, value, options):
+    if not isinstance(value, str) or value not in options:
+        sug = _suggest(value, options) if isinstance(value, str) else ""
+        if isinstance(value, str) and not sug:
+            low = [o for o in options if o.lower() == value.lower()]
+            sug = f"; did you mean {low[0]!r}?" if low else ""
+        raise FemodesError(f"{where} must be one of {', '.join(map(repr, options))}, got {_show(value)}{sug}")
+    return value
+
+
+def _show(value):
+    """A value as the user wrote it in TOML terms, with its type when that helps."""
+    tname = {bool: "a boolean", str: "a string", int: "an integer", float: "a number",
+             list: "a list", dict: "a table"}.get(type(value), type(value).__name__)
+    if isinstance(value, bool):
+        return f"{str(value).lower()} ({tname})"
+    if isinstance(value, dict):
+        return "a table"
+    text = repr(value) if not isinstance(value, str) else '"' + value + '"'
+    if len(text) > 60:
+        text = text[:57] + "..."
+    return f"{text} ({tname})" if isinstance(value, (str, list)) else text
