@@ -1363,6 +1363,24 @@ def _cos_and_sin_over_k(k2: float, x: float) -> Tuple[float, float]:
     return 1.0, x
 
 
+def _side_slab_profile(a, t, eps_r, k0, beta2):
+    """E_y(x) and dE_y/dx of the TE_m0 mode of a guide of width a with a full-height slab eps_r of
+    width t against the wall x = 0 (unnormalised): sin(k_d x)/k_d in the slab, A sin(k_a (a - x))/k_a
+    in the air, A from the continuity of E_y at x = t (k_d^2 = eps_r k0^2 - beta^2, k_a^2 = k0^2 -
+    beta^2; sin(k x)/k -> sinh(kappa x)/kappa for k^2 < 0)."""
+    cs = _cos_and_sin_over_k
+    kd2, ka2 = eps_r * k0 * k0 - beta2, k0 * k0 - beta2
+    amp = cs(kd2, t)[1] / cs(ka2, a - t)[1]
+
+    def e(x):
+        return cs(kd2, x)[1] if x <= t else amp * cs(ka2, a - x)[1]
+
+    def de(x):
+        return cs(kd2, x)[0] if x <= t else -amp * cs(ka2, a - x)[0]
+
+    return e, de
+
+
 def side_slab_te_m0_wall_loss(a: float, b: float, t: float, eps_r: float, frequency: float,
                               beta2: float, surface_resistance: float) -> float:
     """Wall-loss attenuation alpha_c (Np/m) of a TE_m0 mode (E_y(x) only) of the guide a x b
@@ -1380,16 +1398,7 @@ def side_slab_te_m0_wall_loss(a: float, b: float, t: float, eps_r: float, freque
     from scipy.integrate import quad
 
     k0 = 2 * math.pi * float(frequency) / C0
-    l = a - t
-    cs = _cos_and_sin_over_k
-    kd2, ka2 = eps_r * k0 * k0 - beta2, k0 * k0 - beta2
-    amp = cs(kd2, t)[1] / cs(ka2, l)[1]
-
-    def e(x):
-        return cs(kd2, x)[1] if x <= t else amp * cs(ka2, a - x)[1]
-
-    def de(x):
-        return cs(kd2, x)[0] if x <= t else -amp * cs(ka2, a - x)[0]
+    e, de = _side_slab_profile(a, t, eps_r, k0, beta2)
 
     opts = dict(points=[t], epsabs=0.0, epsrel=1e-12, limit=200)
     e2 = quad(lambda x: e(x) ** 2, 0.0, a, **opts)[0]
@@ -1706,13 +1715,7 @@ def side_slab_te_m0_peak_and_voltage(a: float, b: float, t: float, eps_r: float,
     k0 = 2 * math.pi * float(frequency) / C0
     if not 0.0 <= x_path <= a:
         raise ValueError(f"x_path must lie in [0, a = {a!r}] m, got {x_path!r}")
-    l = a - t
-    cs = _cos_and_sin_over_k
-    kd2, ka2 = eps_r * k0 * k0 - beta2, k0 * k0 - beta2
-    amp = cs(kd2, t)[1] / cs(ka2, l)[1]
-
-    def e(x):
-        return cs(kd2, x)[1] if x <= t else amp * cs(ka2, a - x)[1]
+    e, _ = _side_slab_profile(a, t, eps_r, k0, beta2)
 
     opts = dict(points=[t], epsabs=0.0, epsrel=1e-12, limit=200)
     e2 = quad(lambda x: e(x) ** 2, 0.0, a, **opts)[0]

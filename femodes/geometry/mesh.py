@@ -27,10 +27,10 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from femodes.errors import FemodesError, nonnegative_number, positive_number
+from femodes.errors import FemodesError
 from femodes.geometry.locate import locate_straight
 from femodes.geometry.loops import Arc, Corner, Line, _point_edge_distances
-from femodes.geometry.section import Section
+from femodes.geometry.section import Section, material_values
 
 __all__ = ["Mesh", "MeshMaterial", "mesh_section", "read_mesh", "write_mesh"]
 
@@ -139,13 +139,8 @@ class Mesh:
         if any(m.group == group for m in self.materials):
             raise FemodesError(f"group {group!r} of {self._where()} is given a material twice; give each "
                                f"group once (groups there: {', '.join(map(repr, self.groups))})")
-        eps, mu = positive_number("eps_r", eps_r), positive_number("mu_r", mu_r)
-        tand = nonnegative_number("tan_delta", tan_delta)
-        if tand >= 1:
-            raise FemodesError(f"tan_delta is a loss tangent and must lie in 0 <= tan_delta < 1, got {tan_delta!r}")
-        if not isinstance(name, str):
-            raise FemodesError(f"name must be a string, got {type(name).__name__}")
-        mat = MeshMaterial(group, eps, mu, tand, name.strip() or group)
+        eps, mu, tand, name = material_values(eps_r, mu_r, tan_delta, name)
+        mat = MeshMaterial(group, eps, mu, tand, name or group)
         return replace(self, materials=self.materials + (mat,))
 
     def with_materials(self, materials):

@@ -20,7 +20,19 @@ import numpy as np
 from femodes.errors import FemodesError, check_positive, nonnegative_number, positive_number
 from femodes.geometry.loops import Line, Loop, _max_distance, _min_distance, _point_in_polygon, _point_map, _polyline_self_intersects, _polylines_cross
 
-__all__ = ["Section", "Material"]
+__all__ = ["Section", "Material", "material_values"]
+
+
+def material_values(eps_r, mu_r, tan_delta, name):
+    """(eps_r, mu_r, tan_delta, name) of a material region, checked: eps_r, mu_r > 0 (real),
+    0 <= tan_delta < 1, name a string (stripped)."""
+    eps, mu = positive_number("eps_r", eps_r), positive_number("mu_r", mu_r)
+    tand = nonnegative_number("tan_delta", tan_delta)
+    if tand >= 1:
+        raise FemodesError(f"tan_delta is a loss tangent and must lie in 0 <= tan_delta < 1, got {tan_delta!r}")
+    if not isinstance(name, str):
+        raise FemodesError(f"name must be a string, got {type(name).__name__}")
+    return eps, mu, tand, name.strip()
 
 
 @dataclass(frozen=True)
@@ -249,13 +261,8 @@ class Section:
         if not isinstance(shape, Section):
             raise FemodesError(f"with_material needs a shape (e.g. femodes.rectangle(...).translated(...)), "
                                f"got {type(shape).__name__}")
-        eps, mu = positive_number("eps_r", eps_r), positive_number("mu_r", mu_r)
-        tand = nonnegative_number("tan_delta", tan_delta)
-        if tand >= 1:
-            raise FemodesError(f"tan_delta is a loss tangent and must lie in 0 <= tan_delta < 1, got {tan_delta!r}")
-        if not isinstance(name, str):
-            raise FemodesError(f"name must be a string, got {type(name).__name__}")
-        mat = Material(shape.outer, tuple(shape.holes), eps, mu, tand, name.strip())
+        eps, mu, tand, name = material_values(eps_r, mu_r, tan_delta, name)
+        mat = Material(shape.outer, tuple(shape.holes), eps, mu, tand, name)
         # the region must reach into the guide: test sample points of both outlines
         guide_pts = np.hstack([l.polyline(32, line_pieces=8) for l in self.loops])
         reg_pts = np.hstack([mat.region.polyline(32, line_pieces=8)] + [h.polyline(32, 8) for h in mat.holes])

@@ -132,29 +132,16 @@ def path_voltage(mode, path, points=None):
     integrated element by element with a Gauss rule (exact for the polynomial field of a
     straight element).  The physical voltage is V times this."""
     fld = _field(mode)
-    p = _check_path(path)
     basis = fld.basis
-    if points is None:
-        points = basis.elem.maxdeg + 4
-    s, w = _gauss01(int(points))
-    total = 0.0
-    for k in range(len(p) - 1):
-        a, b = p[k], p[k + 1]
-        cuts = np.concatenate([[0.0], _edge_crossings(basis.mesh, a, b), [1.0]])
-        lo, hi = cuts[:-1], cuts[1:]
-        u = (lo[:, None] + (hi - lo)[:, None] * s[None, :]).ravel()
-        wt = ((hi - lo)[:, None] * w[None, :]).ravel()
-        seg = b - a
-        pts = a[:, None] + seg[:, None] * u[None, :]
-        _, gx, gy = fld.evaluate(pts)
-        ex, ey, _, _ = _transverse(mode.family, mode.kc, fld, gx, gy)
-        bad = ~np.isfinite(ex)
-        if np.any(bad):
-            q = pts[:, np.flatnonzero(bad)[0]]
-            raise FemodesError(f"the voltage path leaves the cross-section near ({q[0] * 1e3:.6g}, {q[1] * 1e3:.6g}) mm: "
-                               "give points inside the guide, from wall to wall")
-        total += float(np.sum((ex * seg[0] + ey * seg[1]) * wt))
-    return total
+    pts, wl = _path_rule(basis, path, basis.elem.maxdeg + 4 if points is None else points)
+    _, gx, gy = fld.evaluate(pts)
+    ex, ey, _, _ = _transverse(mode.family, mode.kc, fld, gx, gy)
+    bad = ~np.isfinite(ex)
+    if np.any(bad):
+        q = pts[:, np.flatnonzero(bad)[0]]
+        raise FemodesError(f"the voltage path leaves the cross-section near ({q[0] * 1e3:.6g}, {q[1] * 1e3:.6g}) mm: "
+                           "give points inside the guide, from wall to wall")
+    return float(np.sum(ex * wl[0] + ey * wl[1]))
 
 
 def wall_current(mode, wall=None, section=None):
@@ -174,13 +161,7 @@ def wall_current(mode, wall=None, section=None):
         c, d = _frame(mode, section)
         sel = d[0] * (x - c[0]) + d[1] * (y - c[1]) > 0
     else:
-        try:
-            sel = np.asarray(wall(x, y), dtype=bool)
-        except Exception as exc:  # the user's function failed
-            raise FemodesError(f"the wall selection function failed on arrays of wall points: {exc}") from None
-        if sel.shape != x.shape:
-            raise FemodesError(f"the wall selection function must return a bool array shaped like x "
-                               f"{x.shape}, got shape {sel.shape}")
+        sel = _user_wall(wall)(rule, None)
     if not np.any(sel):
         raise FemodesError("the wall selection contains no wall points")
     return float(np.sum(jz * rule["dl"] * sel))

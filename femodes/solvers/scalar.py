@@ -179,18 +179,6 @@ def _initial_size(accuracy, p, kc_max, size):
     return min(h, size / 2)
 
 
-def _check_count(modes):
-    try:
-        n = int(modes)
-    except (TypeError, ValueError):
-        raise FemodesError(f"modes must be a whole number >= 1, got {modes!r}") from None
-    if n < 1 or n != modes:
-        raise FemodesError(f"modes must be a whole number >= 1, got {modes!r}")
-    if n > 500:
-        raise FemodesError(f"modes={n} is more than this solver is meant for (at most 500)")
-    return n
-
-
 def _weyl_estimate(n, area, perimeter, family):
     """kc^2 of the n-th mode by Weyl's law (with the perimeter term), padded by 15%.
 
