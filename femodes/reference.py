@@ -1601,6 +1601,18 @@ def _rod_characteristic(n: int, rho: float, eps_r: float, k0b: float, family: st
     return func
 
 
+def _rod_geometry(a, b, eps_r):
+    """(a, b, eps_r) of a rod-loaded circular guide, checked: 0 < a < b, eps_r >= 1 finite."""
+    a = _check_length("a", a)
+    b = _check_length("b", b)
+    if not a < b:
+        raise ValueError(f"rod radius a must be below the guide radius b = {b!r} m, got {a!r}")
+    eps_r = float(eps_r)
+    if not (math.isfinite(eps_r) and eps_r >= 1.0):
+        raise ValueError(f"eps_r must be a finite number >= 1 (vacuum outside the rod), got {eps_r!r}")
+    return a, b, eps_r
+
+
 def rod_in_circular_guide_betas(a: float, b: float, eps_r: float, frequency: float,
                                 azimuthal_order: int, count: int, family=None,
                                 points_per_pi: int = 200) -> List[float]:
@@ -1619,13 +1631,7 @@ def rod_in_circular_guide_betas(a: float, b: float, eps_r: float, frequency: flo
     every sign change refined by Brent's method; a refined root whose value is not small against
     the bracket ends (a jump, not a zero) raises RuntimeError.
     """
-    a = _check_length("a", a)
-    b = _check_length("b", b)
-    if not a < b:
-        raise ValueError(f"rod radius a must be below the guide radius b = {b!r} m, got {a!r}")
-    eps_r = float(eps_r)
-    if not (math.isfinite(eps_r) and eps_r >= 1.0):
-        raise ValueError(f"eps_r must be a finite number >= 1 (vacuum outside the rod), got {eps_r!r}")
+    a, b, eps_r = _rod_geometry(a, b, eps_r)
     f = float(frequency)
     if not (math.isfinite(f) and f > 0):
         raise ValueError(f"frequency must be a positive number of Hz, got {frequency!r}")
@@ -2037,13 +2043,7 @@ def rod_in_circular_guide_complex_beta2(a: float, b: float, eps_r: float, freque
     then each root kept only if the argument principle counts exactly one zero in a small circle
     around it (a minimum that is not a zero counts none).  Roots within 1e-6 (relative) of the
     real axis are left out (they are the real modes)."""
-    a = _check_length("a", a)
-    b = _check_length("b", b)
-    if not a < b:
-        raise ValueError(f"rod radius a must be below the guide radius b = {b!r} m, got {a!r}")
-    eps_r = float(eps_r)
-    if not (math.isfinite(eps_r) and eps_r >= 1.0):
-        raise ValueError(f"eps_r must be a finite number >= 1, got {eps_r!r}")
+    a, b, eps_r = _rod_geometry(a, b, eps_r)
     if isinstance(azimuthal_order, bool) or not isinstance(azimuthal_order, (int, np.integer)) \
             or azimuthal_order < 1:
         raise ValueError(f"azimuthal_order must be an integer >= 1 (n = 0 has real beta^2 only), "
