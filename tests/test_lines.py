@@ -340,3 +340,22 @@ def test_mesh_file_line_from_two_element_orders():
     assert [m.label for m in ms] == ["TEM odd", "TEM even"]
     # conductors of a mesh file in the order of their centroids (x, then y)
     np.testing.assert_allclose(line.centroids, [[-PAIR_D / 2, 0.0], [PAIR_D / 2, 0.0]], atol=1e-9)
+
+
+def test_report_shows_the_line_against_the_multipole_solution(pair, pair_reference):
+    # the report (JSON "line" object and the text table) carries C, L and the even / odd
+    # impedances of the pair, each within its error of the series solution
+    from femodes import report as R
+
+    doc = R.report_document(pair)["line"]
+    C = np.array(doc["capacitance"])
+    assert np.all(np.abs(C - pair_reference) <= np.array(doc["capacitance_error"]))
+    v = C0 / math.sqrt(PAIR_EPS)
+    z_even = 1 / (v * (pair_reference[0, 0] + pair_reference[0, 1]))  # Paul ch. 7 / common practice
+    z_odd = 1 / (v * (pair_reference[0, 0] - pair_reference[0, 1]))
+    p = doc["pair"]
+    assert abs(p["even"] - z_even) <= p["even_error"] and abs(p["odd"] - z_odd) <= p["odd_error"]
+    assert [m["label"] for m in doc["modes"]] == ["TEM odd", "TEM even"]
+    text = R.report_table(pair)
+    assert "multi-conductor line: 2 inner conductors" in text and "symmetric pair: Z_even" in text
+    assert R.report_document(fm.solve(fm.rectangle(22.86e-3, 10.16e-3), modes=2, accuracy=1e-4))["line"] is None

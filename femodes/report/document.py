@@ -18,7 +18,7 @@ from femodes.report.text import _band, _clean, _finite, _num_list, _section_info
 DOCUMENT_UNITS = {"length": "m", "angle": "rad", "kc": "rad/m", "kc_error": "rad/m", "fc": "Hz",
                   "fc_error": "Hz", "cutoff_wavelength": "m (in the fill; loaded guides: free space)",
                   "f_low": "Hz", "f_high": "Hz", "frequencies": "Hz", "beta": "rad/m", "alpha": "Np/m",
-                  "beta_error": "rad/m",
+                  "beta_error": "rad/m", "capacitance": "F/m", "inductance": "H/m", "impedance": "ohm",
                   "accuracy": "1 (relative: on kc; loaded guides on fc, and at a frequency on beta^2 / "
                               "(k0^2 eps_max mu_max))"}
 
@@ -74,10 +74,28 @@ def report_document(result, analysis=None, title=None) -> dict:
             "nodal_domains": None if m.nodal_domains is None else int(m.nodal_domains),
             "indices": None if m.indices is None else [int(i) for i in m.indices],
         } for m in modes],
+        "line": _line_document(getattr(modes, "line", None)),
         "analysis": None if analysis is None else analysis_document(analysis),
         "dispersion": None if study.dispersion is None else dispersion_document(study.dispersion),
     }
     return _clean(doc)
+
+
+def _line_document(line):
+    """The "line" object of a guide with two or more inner conductors (SI: F/m, H/m, ohm), else None."""
+    if line is None or line.n_conductors < 2:
+        return None
+    mi = Q.modal_impedances(line)
+    pair = Q.pair_impedances(line) if line.symmetric_pair else None
+    return {"conductors": [[_finite(v) for v in c] for c in line.centroids],
+            "capacitance": _num_list(line.capacitance), "capacitance_error": _num_list(line.capacitance_error),
+            "inductance": _num_list(line.inductance), "inductance_error": _num_list(line.inductance_error),
+            "modes": [{"label": lab, "voltages": _num_list(mi.voltages[:, k]), "impedance": _finite(z),
+                       "impedance_error": _finite(e)}
+                      for k, (lab, z, e) in enumerate(zip(mi.labels, mi.impedance, mi.error))],
+            "pair": None if pair is None else {k: _finite(getattr(pair, k)) for k in (
+                "even", "even_error", "odd", "odd_error", "differential", "differential_error", "common",
+                "common_error")}}
 
 
 def modes_document(result, title=None, analysis=None) -> dict:

@@ -8,7 +8,7 @@ import math
 import numpy as np
 
 from femodes.constants import C0, __version__
-from femodes.quantities import NP_TO_DB
+from femodes.quantities import NP_TO_DB, modal_impedances, pair_impedances
 from femodes.report.analysis import PERTURBATION_LIMIT, as_study, sweep_name
 from femodes.report.text import (
     _band,
@@ -91,7 +91,35 @@ def modes_table(result, title=None, family=None) -> str:
             who = (f"only the degenerate {m1.label} pair" if (m1.degenerate_with or m1.multiplicity > 1)
                    else f"{m1.label} alone")
             lines.append(f"single-mode band{only}: {text} (ratio {ratio:.3f}:1, {who})")
+    line = getattr(modes, "line", None) if not study.loaded else None
+    if line is not None and line.n_conductors > 1:
+        lines += [""] + line_table(line)
     return "\n".join(lines) + "\n"
+
+
+def line_table(line):
+    """Text lines of a multi-conductor line: the capacitance and inductance matrices (pF/m, nH/m)
+    with their errors, the modal impedances and, for a symmetric pair, the even, odd,
+    differential and common-mode impedances (ohm)."""
+    n = line.n_conductors
+    out = [f"multi-conductor line: {n} inner conductors (voltages against the outer wall; conductor k at "
+           + ", ".join(f"({_mm(x)}, {_mm(y)})" for x, y in line.centroids) + " mm)"]
+    for name, M, dM, scale, unit in (("C", line.capacitance, line.capacitance_error, 1e12, "pF/m"),
+                                     ("L", line.inductance, line.inductance_error, 1e9, "nH/m")):
+        head = [f"{name} [{unit}]"] + [str(k + 1) for k in range(n)]
+        rows = [[str(i + 1)] + [f"{_g(M[i, j] * scale, 6)} ± {dM[i, j] * scale:.1g}" for j in range(n)]
+                for i in range(n)]
+        out += _grid(head, rows, set(range(1, n + 1)))
+    mi = modal_impedances(line)
+    rows = [[lab, _g(z, 6), f"{e:.1g}", "(" + ", ".join(f"{v:+.3f}" for v in mi.voltages[:, k]) + ")"]
+            for k, (lab, z, e) in enumerate(zip(mi.labels, mi.impedance, mi.error))]
+    out += _grid(["mode", "Z [ohm]", "± [ohm]", "conductor voltages"], rows, {1, 2})
+    if line.symmetric_pair:
+        p = pair_impedances(line)
+        out.append(f"symmetric pair: Z_even = {_g(p.even, 6)} ± {p.even_error:.1g} ohm, Z_odd = {_g(p.odd, 6)} ± "
+                   f"{p.odd_error:.1g} ohm; differential 2 Z_odd = {_g(p.differential, 6)} ohm, common Z_even / 2 = "
+                   f"{_g(p.common, 6)} ohm")
+    return out
 
 
 def report_table(result, analysis=None, title=None, family=None) -> str:

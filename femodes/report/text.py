@@ -168,7 +168,10 @@ def _wrap(text, first, rest, width=100):
 
 
 def _num_list(a):
-    return [_finite(v) for v in np.asarray(a, dtype=float).tolist()]
+    """Nested lists of finite floats (None for NaN / infinity) of an array of any dimension."""
+    def clean(x):
+        return [clean(v) for v in x] if isinstance(x, list) else _finite(x)
+    return clean(np.asarray(a, dtype=float).tolist())
 
 
 def _share(x):
