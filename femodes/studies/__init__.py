@@ -1,2 +1,10 @@
-"""Design studies (sweeps, goal seeking, sensitivities, tolerances): the next stage to be built.
-They call the front door (femodes.api) many times and sit beside the report, above the quantities."""
+"""Design studies: many solves of a guide whose parameters change.
+
+:mod:`.sweeps` (cutoffs over one parameter or a grid, in parallel locally or on a dask cluster,
+stored point by point in :mod:`.store` so that an interrupted sweep resumes).  Studies call the
+front door (femodes.api) and sit beside the report, above the quantities.
+"""
+
+from femodes.studies.sweeps import SweepResult, sweep
+
+__all__ = ["sweep", "SweepResult"]

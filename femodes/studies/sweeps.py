@@ -1,0 +1,314 @@
+"""Sweeps: the cutoffs of a guide over one parameter or a grid of several, stored point by point.
+
+``sweep(femodes.double_ridge, {"width": 34e-3, ...}, {"gap": gaps})`` solves the guide at every
+point (every combination of the varied values, in the order given) and returns a
+:class:`SweepResult`: per point every mode's cutoff with its error and label, and the
+single-mode band.  Each point is an ordinary :func:`femodes.solve` of the shape built with that
+point's parameters, so its numbers carry the same error estimates as a single solve.
+
+* Points run in parallel: on the local cores by default (separate processes: gmsh is not thread
+  safe), or on a dask.distributed cluster when ``scheduler`` names one (an address or a Client).
+* With ``store`` (a file name) each finished point is written to disk at once
+  (:class:`femodes.studies.store.SweepStore`): an interrupted sweep loses at most the points in
+  flight, and the same sweep run again computes only the missing points (``reused`` and
+  ``computed`` say how many).  A store made with other settings is refused.
+* A point whose geometry is invalid (the shape refuses its parameters) is recorded as such, with
+  the shape's message, and the sweep goes on.
+* Progress: a tqdm bar on a terminal (points done, time per point, time left); nothing elsewhere.
+"""
+
+from __future__ import annotations
+
+import inspect
+import itertools
+import json
+import math
+import multiprocessing
+import os
+import sys
+import time
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass
+
+import numpy as np
+
+from femodes.api import _check_count, solve
+from femodes.errors import FemodesError
+from femodes.studies.store import SweepStore
+
+__all__ = ["sweep", "SweepResult", "SWEEP_OPTIONS"]
+
+#: options of :func:`femodes.solve` a sweep passes on to every point
+SWEEP_OPTIONS = ("eps_r", "mu_r", "family", "order")
+
+
+@dataclass(frozen=True)
+class SweepResult:
+    """The points of a sweep.
+
+    shape      : the shape function's name;  parameters : the fixed keyword arguments (SI)
+    names      : the varied parameters, in the order given;  values : their values (tuple of arrays)
+    modes      : modes asked per point;  accuracy : asked relative accuracy of each cutoff
+    points     : {tuple of the point's varied values: result dict} with keys ``status`` ('ok' or
+                 'invalid'), ``message``, ``fc``, ``fc_error`` (Hz, cutoff order), ``label``,
+                 ``family``, ``band`` ([f_low, f_high] of the single-mode band, or None),
+                 ``n_dofs``, ``seconds``
+    reused     : points taken from the store;  computed : points solved in this run
+    """
+
+    shape: str
+    parameters: dict
+    names: tuple
+    values: tuple
+    modes: int
+    accuracy: float
+    points: dict
+    reused: int
+    computed: int
+
+    def to_xarray(self):
+        """An xarray Dataset on the dimensions (the varied names in the order given, then
+        ``mode``, numbered 1.. in cutoff order at each point): ``fc`` and ``fc_error`` (Hz),
+        ``label`` and ``family`` of each mode; per point ``f_low``, ``f_high`` (the single-mode
+        band, Hz), ``single_mode_ratio``, ``status`` ('ok' or 'invalid') and ``message``.
+        Attributes: shape, parameters (JSON), accuracy, reused, computed."""
+        import xarray as xr
+
+        shape = tuple(len(v) for v in self.values)
+        n = self.modes
+        fc = np.full(shape + (n,), np.nan)
+        err = np.full(shape + (n,), np.nan)
+        label = np.full(shape + (n,), "", dtype=object)
+        family = np.full(shape + (n,), "", dtype=object)
+        lo, hi = np.full(shape, np.nan), np.full(shape, np.nan)
+        status = np.full(shape, "", dtype=object)
+        message = np.full(shape, "", dtype=object)
+        for idx in itertools.product(*(range(s) for s in shape)):
+            key = tuple(float(self.values[d][i]) for d, i in enumerate(idx))
+            r = self.points[key]
+            status[idx], message[idx] = r["status"], r["message"]
+            k = len(r["fc"])
+            fc[idx][:k], err[idx][:k] = r["fc"], r["fc_error"]
+            label[idx][:k], family[idx][:k] = r["label"], r["family"]
+            if r["band"] is not None:
+                lo[idx], hi[idx] = r["band"]
+        dims = self.names + ("mode",)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ratio = np.where(lo > 0, hi / np.where(lo > 0, lo, 1.0), np.nan)
+        coords = {name: np.asarray(v, dtype=float) for name, v in zip(self.names, self.values)}
+        coords["mode"] = np.arange(1, n + 1)
+        ds = xr.Dataset(
+            {"fc": (dims, fc, {"units": "Hz", "long_name": "cutoff frequency"}),
+             "fc_error": (dims, err, {"units": "Hz", "long_name": "estimated error of the cutoff frequency"}),
+             "label": (dims, label), "family": (dims, family),
+             "f_low": (self.names, lo, {"units": "Hz", "long_name": "single-mode band, lower edge"}),
+             "f_high": (self.names, hi, {"units": "Hz", "long_name": "single-mode band, upper edge"}),
+             "single_mode_ratio": (self.names, ratio),
+             "status": (self.names, status), "message": (self.names, message)},
+            coords=coords,
+            attrs={"shape": self.shape, "parameters": json.dumps(self.parameters), "accuracy": self.accuracy,
+                   "reused": self.reused, "computed": self.computed})
+        for name in self.names:
+            ds[name].attrs["units"] = "rad" if name == "angle" else "m"
+        return ds
+
+
+def _shape_function(shape):
+    """The shape function and its parameter names (keyword arguments)."""
+    if not callable(shape):
+        raise FemodesError(f"shape must be a shape function such as femodes.double_ridge, got {shape!r}")
+    try:
+        sig = inspect.signature(shape)
+    except (TypeError, ValueError):
+        raise FemodesError(f"shape {shape!r} has no signature to read its parameters from") from None
+    names = [p.name for p in sig.parameters.values() if p.kind in (p.POSITIONAL_OR_KEYWORD, p.KEYWORD_ONLY)]
+    if getattr(shape, "__module__", None) is None or "<lambda>" in getattr(shape, "__qualname__", "<lambda>"):
+        raise FemodesError("shape must be a function defined at module level (the points are solved in other "
+                           "processes, which find it by name)")
+    return names
+
+
+def _number(name, value):
+    if isinstance(value, bool):
+        raise FemodesError(f"{name} must be a number (SI), got {value!r}")
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise FemodesError(f"{name} must be a number (SI), got {value!r}") from None
+    if not math.isfinite(x):
+        raise FemodesError(f"{name} must be a finite number (SI), got {value!r}")
+    return x
+
+
+def _plan(shape, parameters, vary):
+    """(names, values, fixed parameters) checked against the shape's parameters."""
+    allowed = _shape_function(shape)
+    if not isinstance(parameters, dict):
+        raise FemodesError(f"parameters must be a dict of the shape's keyword arguments, got {type(parameters).__name__}")
+    if not isinstance(vary, dict) or not vary:
+        raise FemodesError("vary must be a dict from a parameter name to a sequence of its values, with at least one "
+                           "parameter")
+    for name in list(parameters) + list(vary):
+        if name not in allowed:
+            raise FemodesError(f"{shape.__name__} has no parameter {name!r}; its parameters: {', '.join(allowed)}")
+    both = sorted(set(parameters) & set(vary))
+    if both:
+        raise FemodesError(f"{', '.join(both)} is both fixed (parameters) and varied (vary): give it in one only")
+    names, values = [], []
+    for name, seq in vary.items():
+        vals = [_number(f"a value of {name!r}", v) for v in np.atleast_1d(np.asarray(seq, dtype=object)).ravel()]
+        if not vals:
+            raise FemodesError(f"the range of {name!r} is empty: give at least one value")
+        if len(set(vals)) != len(vals):
+            raise FemodesError(f"the values of {name!r} repeat: give each value once")
+        names.append(name)
+        values.append(np.array(vals))
+    fixed = {}
+    for name, v in parameters.items():
+        if isinstance(v, (int, float, np.floating, np.integer)) and not isinstance(v, bool):
+            fixed[name] = _number(name, v)
+        else:
+            fixed[name] = v  # e.g. a 'ridges' count or an axis: passed on as given
+    return tuple(names), tuple(values), fixed
+
+
+def _key(point):
+    return json.dumps([float(v) for v in point])
+
+
+def solve_point(shape, fixed, point, modes, accuracy, options):
+    """Solve one point (in a worker): the section ``shape(**fixed, **point)`` and its cutoffs.
+    Returns the result dict of :class:`SweepResult` (status 'invalid' with the shape's message
+    when the parameters make the geometry invalid)."""
+    t0 = time.perf_counter()
+    out = {"status": "ok", "message": "", "fc": [], "fc_error": [], "label": [], "family": [], "band": None,
+           "n_dofs": 0, "seconds": 0.0}
+    try:
+        section = shape(**fixed, **point)
+    except FemodesError as exc:
+        out.update(status="invalid", message=str(exc))
+        return out
+    ms = solve(section, modes=modes, accuracy=accuracy, **options)
+    out["fc"] = [float(m.fc) for m in ms]
+    out["fc_error"] = [float(m.fc_error) for m in ms]
+    out["label"] = [str(m.label) for m in ms]
+    out["family"] = [str(m.family) for m in ms]
+    try:
+        band = ms.single_mode_band() if hasattr(ms, "single_mode_band") else (ms[0].fc, ms[1].fc)
+        out["band"] = [float(band[0]), float(band[1])]
+    except (FemodesError, IndexError):
+        out["band"] = None
+    out["n_dofs"] = int(getattr(ms, "n_dofs", 0))
+    out["seconds"] = time.perf_counter() - t0
+    return out
+
+
+def _progress(total, enabled):
+    if enabled is None:
+        enabled = sys.stderr.isatty()
+    if not enabled or total == 0:
+        return None
+    from tqdm import tqdm
+
+    return tqdm(total=total, unit="point", desc="femodes sweep", file=sys.stderr)
+
+
+def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, scheduler=None, workers=None,
+          progress=None, **options):
+    """The cutoffs of ``shape`` over a grid of parameter values (see the module docstring).
+
+    shape      : a shape function, e.g. ``femodes.double_ridge`` (module-level, found by name in
+                 the worker processes)
+    parameters : its fixed keyword arguments (SI), e.g. {"width": 34e-3, "height": 16e-3}
+    vary       : parameter name -> sequence of values (SI); several names make a grid, in the
+                 order given
+    modes, accuracy : as for :func:`femodes.solve`, at every point; ``options`` too (eps_r,
+                 mu_r, family, order)
+    store      : a file (SQLite) to keep every finished point in and to resume from
+    scheduler  : a dask.distributed scheduler address or Client: run the points there
+    workers    : local processes (default: the cores, at most the points to compute; 1 runs in
+                 this process)
+    progress   : a progress bar (default: on a terminal only)
+
+    Returns a :class:`SweepResult` (``.to_xarray()`` for a Dataset).
+    """
+    names, values, fixed = _plan(shape, parameters, vary)
+    unknown = sorted(set(options) - set(SWEEP_OPTIONS))
+    if unknown:
+        raise FemodesError(f"unknown option(s) {', '.join(unknown)}; a sweep passes on {', '.join(SWEEP_OPTIONS)}")
+    modes = _check_count(modes)  # the solver's own message, once, before any point
+    accuracy = _number("accuracy", accuracy)
+    grid = list(itertools.product(*values))
+    settings = {"shape": f"{shape.__module__}.{shape.__qualname__}", "parameters": fixed, "modes": modes,
+                "accuracy": accuracy, "options": {k: options[k] for k in sorted(options)}}
+    points, reused = {}, 0
+    st = SweepStore(store, json.loads(json.dumps(settings, default=str))) if store is not None else None
+    try:
+        todo = []
+        for p in grid:
+            got = st.get(_key(p)) if st is not None else None
+            if got is not None:
+                points[tuple(float(v) for v in p)] = got
+                reused += 1
+            else:
+                todo.append(p)
+        bar = _progress(len(todo), progress)
+        try:
+            for p, result in _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers):
+                points[tuple(float(v) for v in p)] = result
+                if st is not None:
+                    st.put(_key(p), result)
+                if bar is not None:
+                    bar.update(1)
+        finally:
+            if bar is not None:
+                bar.close()
+    finally:
+        if st is not None:
+            st.close()
+    return SweepResult(shape.__name__, fixed, names, values, modes, accuracy, points, reused, len(todo))
+
+
+def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers):
+    """Yield (point, result) as the points finish."""
+    args = [(shape, fixed, dict(zip(names, (float(v) for v in p))), modes, accuracy, options) for p in todo]
+    if not args:
+        return
+    if scheduler is not None:
+        yield from _run_dask(scheduler, todo, args)
+        return
+    n = min(len(args), os.cpu_count() or 1) if workers is None else int(workers)
+    if n < 1:
+        raise FemodesError(f"workers must be a whole number >= 1, got {workers!r}")
+    if n == 1:
+        for p, a in zip(todo, args):
+            yield p, solve_point(*a)
+        return
+    # separate processes started afresh (spawn): gmsh and the BLAS pools are per process
+    with ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("spawn")) as pool:
+        futures = {pool.submit(solve_point, *a): p for p, a in zip(todo, args)}
+        try:
+            for fut in as_completed(futures):
+                yield futures[fut], fut.result()
+        except BaseException:
+            for fut in futures:
+                fut.cancel()
+            raise
+
+
+def _run_dask(scheduler, todo, args):
+    """The points on a dask.distributed cluster (``scheduler``: an address or a Client)."""
+    try:
+        from distributed import Client
+        from distributed import as_completed as dask_completed
+    except ImportError:
+        raise FemodesError("scheduler= needs dask.distributed: pip install 'femodes[cluster]'") from None
+    own = not isinstance(scheduler, Client)
+    client = Client(scheduler) if own else scheduler
+    try:
+        futures = {client.submit(solve_point, *a, pure=False): p for p, a in zip(todo, args)}
+        for fut in dask_completed(list(futures)):
+            yield futures[fut], fut.result()
+    finally:
+        if own:
+            client.close()

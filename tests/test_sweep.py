@@ -1,0 +1,131 @@
+"""Sweeps: cutoffs over a grid of parameters against the rectangle's closed form (Pozar, Microwave
+Engineering, 4th ed., sec. 3.3: fc_mn = (c / 2) sqrt((m / a)^2 + (n / b)^2)); a resumed or
+interrupted sweep equals an uninterrupted one; local processes and a dask cluster give the same
+numbers as one process; bad input gets one clear message."""
+
+import json
+import math
+
+import numpy as np
+import pytest
+
+import femodes as fm
+import femodes.studies.sweeps as S
+from femodes import FemodesError
+
+C0 = 299792458.0
+WIDTHS = [20e-3, 22.86e-3, 25e-3]
+HEIGHTS = [9e-3, 10.16e-3]
+
+
+def _rect_fc(a, b, count):
+    fcs = sorted(C0 / 2 * math.hypot(m / a, n / b) for m in range(6) for n in range(6) if m + n > 0)
+    return np.array(fcs[:count])
+
+
+def test_grid_sweep_against_the_closed_form():
+    r = fm.sweep(fm.rectangle, {}, {"width": WIDTHS, "height": HEIGHTS}, modes=3, accuracy=1e-6, workers=1)
+    ds = r.to_xarray()
+    assert ds.fc.dims == ("width", "height", "mode") and list(ds["mode"].values) == [1, 2, 3]
+    assert ds.attrs["computed"] == 6 and ds.attrs["reused"] == 0
+    for i, a in enumerate(WIDTHS):
+        for j, b in enumerate(HEIGHTS):
+            want = _rect_fc(a, b, 3)
+            got, err = ds.fc.values[i, j], ds.fc_error.values[i, j]
+            assert np.all(np.abs(got - want) <= err) and np.all(err <= 1e-6 * want)
+            # the single-mode band: TE10 to the next cutoff (Pozar sec. 3.3)
+            assert ds.f_low.values[i, j] == pytest.approx(want[0], rel=1e-6)
+            assert ds.f_high.values[i, j] == pytest.approx(want[1], rel=1e-6)
+    assert ds.label.values[1, 1, 0] == "TE10" and set(ds.status.values.ravel()) == {"ok"}
+
+
+def test_resumed_sweep_equals_an_uninterrupted_one(tmp_path):
+    store = tmp_path / "sweep.db"
+    whole = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, modes=2, accuracy=1e-5, workers=1)
+    first = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS[:2]}, modes=2, accuracy=1e-5,
+                     store=store, workers=1)
+    assert (first.reused, first.computed) == (0, 2)
+    again = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, modes=2, accuracy=1e-5,
+                     store=store, workers=1)
+    assert (again.reused, again.computed) == (2, 1)
+    np.testing.assert_allclose(again.to_xarray().fc.values, whole.to_xarray().fc.values, rtol=1e-12)
+
+
+def test_interrupted_sweep_keeps_the_finished_points(tmp_path, monkeypatch):
+    store = tmp_path / "sweep.db"
+    real = S.solve_point
+    calls = []
+
+    def interrupted(*args):
+        if len(calls) == 2:
+            raise KeyboardInterrupt  # Ctrl-C while the third point is solved
+        calls.append(args)
+        return real(*args)
+
+    monkeypatch.setattr(S, "solve_point", interrupted)
+    with pytest.raises(KeyboardInterrupt):
+        fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, modes=2, accuracy=1e-5, store=store,
+                 workers=1)
+    monkeypatch.setattr(S, "solve_point", real)
+    resumed = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, modes=2, accuracy=1e-5, store=store,
+                       workers=1)
+    assert (resumed.reused, resumed.computed) == (2, 1)
+    for a, got in zip(WIDTHS, resumed.to_xarray().fc.values):
+        assert np.all(np.abs(got - _rect_fc(a, 10.16e-3, 2)) <= 1e-5 * got)
+
+
+def test_store_with_other_settings_or_not_a_store_is_refused(tmp_path):
+    store = tmp_path / "sweep.db"
+    fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS[:1]}, modes=2, accuracy=1e-5, store=store,
+             workers=1)
+    with pytest.raises(FemodesError, match="other settings.*accuracy"):
+        fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS[:1]}, modes=2, accuracy=1e-4, store=store,
+                 workers=1)
+    junk = tmp_path / "notes.txt"
+    junk.write_text("not a database\n" * 100)
+    with pytest.raises(FemodesError, match="not a femodes sweep store"):
+        fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS[:1]}, modes=2, store=junk, workers=1)
+
+
+def test_invalid_point_is_recorded_and_the_sweep_goes_on():
+    # a ridge gap larger than the height is refused by the shape: that point is recorded invalid
+    r = fm.sweep(fm.double_ridge, {"width": 34e-3, "height": 16e-3, "ridge_width": 8e-3},
+                 {"gap": [2e-3, 20e-3]}, modes=2, accuracy=1e-4, workers=1)
+    ds = r.to_xarray()
+    assert list(ds.status.values) == ["ok", "invalid"]
+    assert "gap" in ds.message.values[1] and np.all(np.isnan(ds.fc.values[1]))
+    assert np.all(np.isfinite(ds.fc.values[0]))
+
+
+def test_local_processes_and_a_dask_cluster_give_the_same_numbers():
+    distributed = pytest.importorskip("distributed")
+    kw = dict(modes=2, accuracy=1e-5)
+    one = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, workers=1, **kw).to_xarray()
+    two = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, workers=2, **kw).to_xarray()
+    np.testing.assert_allclose(two.fc.values, one.fc.values, rtol=1e-12)
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cl:
+        with distributed.Client(cl) as client:
+            far = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, scheduler=client, **kw).to_xarray()
+    np.testing.assert_allclose(far.fc.values, one.fc.values, rtol=1e-12)
+    assert list(far.label.values[:, 0]) == ["TE10"] * 3
+
+
+@pytest.mark.parametrize("args, words", [
+    (({}, {"wdth": [1e-2]}), ["no parameter 'wdth'", "width"]),
+    (({"height": 1e-2}, {"width": []}), ["empty"]),
+    (({"width": 2e-2}, {"width": [1e-2]}), ["both fixed", "varied"]),
+    (({"height": 1e-2}, {"width": [1e-2, "x"]}), ["number"]),
+    (({"height": 1e-2}, {}), ["at least one parameter"]),
+])
+def test_bad_input_says_what_to_fix(args, words):
+    with pytest.raises(FemodesError) as exc:
+        fm.sweep(fm.rectangle, *args, modes=2, workers=1)
+    for w in words:
+        assert w in str(exc.value), (w, str(exc.value))
+
+
+def test_a_shape_made_on_the_fly_is_refused():
+    with pytest.raises(FemodesError, match="module level"):
+        fm.sweep(lambda width, height: fm.rectangle(width, height), {"height": 1e-2}, {"width": [2e-2]}, workers=1)
+    assert json.loads(fm.sweep(fm.rectangle, {"height": 1e-2}, {"width": [2e-2]}, modes=1, accuracy=1e-4,
+                               workers=1).to_xarray().attrs["parameters"]) == {"height": 1e-2}
