@@ -129,3 +129,36 @@ def test_a_shape_made_on_the_fly_is_refused():
         fm.sweep(lambda width, height: fm.rectangle(width, height), {"height": 1e-2}, {"width": [2e-2]}, workers=1)
     assert json.loads(fm.sweep(fm.rectangle, {"height": 1e-2}, {"width": [2e-2]}, modes=1, accuracy=1e-4,
                                workers=1).to_xarray().attrs["parameters"]) == {"height": 1e-2}
+
+
+def test_sweep_files_round_trip(tmp_path):
+    import csv
+
+    import xarray as xr
+
+    r = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS[:2]}, modes=2, accuracy=1e-5, workers=1)
+    ds = r.to_xarray()
+    back = xr.open_dataset(r.to_netcdf(tmp_path / "s.nc"), engine="scipy")
+    np.testing.assert_array_equal(back.fc.values, ds.fc.values)
+    assert list(back.label.values[:, 0]) == ["TE10", "TE10"]
+    back.close()
+    rows = list(csv.DictReader(open(r.to_csv(tmp_path / "s.csv"), encoding="utf-8")))
+    assert len(rows) == 4 and rows[0]["label"] == "TE10" and rows[0]["mode"] == "1"
+    assert float(rows[0]["fc_Hz"]) == ds.fc.values[0, 0] and float(rows[0]["width"]) == WIDTHS[0]
+    assert not list(tmp_path.glob("*.part-*"))  # written whole, then moved into place
+
+
+def test_design_figures_are_written(tmp_path):
+    from femodes.report import figures as F
+
+    one = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, modes=2, accuracy=1e-4, workers=1)
+    path = tmp_path / "curves.png"
+    F.design_curves(one, path, spec_band=(8e9, 12e9), target=7e9)
+    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    two = fm.sweep(fm.rectangle, {}, {"width": WIDTHS[:2], "height": HEIGHTS}, modes=2, accuracy=1e-4, workers=1)
+    F.design_map(two, tmp_path / "map.svg", quantity="ratio")
+    assert (tmp_path / "map.svg").read_text().lstrip().startswith("<?xml")
+    with pytest.raises(FemodesError, match="two-parameter"):
+        F.design_map(one)
+    with pytest.raises(FemodesError, match="one-parameter"):
+        F.design_curves(two)

@@ -19,7 +19,9 @@ point's parameters, so its numbers carry the same error estimates as a single so
 
 from __future__ import annotations
 
+import csv
 import inspect
+import io
 import itertools
 import json
 import math
@@ -111,6 +113,55 @@ class SweepResult:
         for name in self.names:
             ds[name].attrs["units"] = "rad" if name == "angle" else "m"
         return ds
+
+    def rows(self):
+        """One dict per point and mode, in grid order (SI units; the columns of :meth:`to_csv`)."""
+        out = []
+        for p in itertools.product(*self.values):
+            r = self.points[tuple(float(v) for v in p)]
+            band = r["band"] or [math.nan, math.nan]
+            base = dict(zip(self.names, (float(v) for v in p)))
+            base.update(status=r["status"], message=r["message"], f_low_Hz=band[0], f_high_Hz=band[1])
+            for k in range(max(1, len(r["fc"]))):
+                row = dict(base, mode=k + 1)
+                if k < len(r["fc"]):
+                    row.update(label=r["label"][k], family=r["family"][k], fc_Hz=r["fc"][k],
+                               fc_error_Hz=r["fc_error"][k])
+                out.append(row)
+        return out
+
+    def to_csv(self, path):
+        """The points as CSV, one row per point and mode (SI units named in the header; empty where
+        a point is invalid).  Written to a temporary name and moved into place.  Returns the path."""
+        cols = list(self.names) + ["mode", "label", "family", "fc_Hz", "fc_error_Hz", "f_low_Hz", "f_high_Hz",
+                                   "status", "message"]
+        buf = io.StringIO()
+        w = csv.DictWriter(buf, cols, lineterminator="\n")
+        w.writeheader()
+        for row in self.rows():
+            w.writerow({k: ("" if isinstance(v, float) and not math.isfinite(v) else v) for k, v in row.items()})
+        return _replace_file(path, buf.getvalue().encode("utf-8"), "CSV")
+
+    def to_netcdf(self, path):
+        """The Dataset of :meth:`to_xarray` as a netCDF (3) file, written to a temporary name and
+        moved into place.  Returns the path."""
+        return _replace_file(path, self.to_xarray().to_netcdf(None, engine="scipy"), "netCDF")
+
+
+def _replace_file(path, data, what):
+    """Write ``data`` (bytes) to a temporary file beside ``path``, then move it into place: an
+    interrupted write leaves the old file or the whole new one."""
+    path = os.fspath(path)
+    tmp = f"{path}.part-{os.getpid()}"
+    try:
+        with open(tmp, "wb") as fh:
+            fh.write(bytes(data))
+        os.replace(tmp, path)
+    except OSError as exc:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+        raise FemodesError(f"cannot write {what} file {path}: {exc.strerror or exc}") from None
+    return str(path)
 
 
 def _shape_function(shape):

@@ -1,0 +1,123 @@
+"""Design curves of a sweep (femodes.sweep): the cutoff of each mode against the varied parameter
+with the single-mode band shaded and the bandwidth ratio below it; for two varied parameters,
+contour maps of the dominant cutoff and of the single-mode ratio.
+
+They take the Dataset of ``SweepResult.to_xarray()`` (or the result itself): dimensions (the
+varied names, ``mode``), ``fc`` and ``fc_error`` (Hz), ``f_low`` / ``f_high`` (the single-mode
+band) and ``single_mode_ratio``.  The modes are numbered in cutoff order at each point (curve k
+is the k-th cutoff, whichever mode that is): where two modes cross, curves k and k + 1 touch
+rather than cross.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from femodes.errors import FemodesError
+from femodes.report.figures.common import _new_figure, _save, _style
+
+__all__ = ["design_curves", "design_map"]
+
+_PARAM_SCALE = {"angle": (180.0 / np.pi, "deg")}
+
+
+def _dataset(result):
+    ds = result.to_xarray() if hasattr(result, "to_xarray") else result
+    for v in ("fc", "fc_error", "f_low", "f_high", "single_mode_ratio"):
+        if v not in ds:
+            raise FemodesError(f"expected the result of femodes.sweep (or its .to_xarray()), missing {v!r}")
+    return ds
+
+
+def _axis(name):
+    scale, unit = _PARAM_SCALE.get(name, (1e3, "mm"))
+    return scale, f"{name.replace('_', ' ')} ({unit})"
+
+
+def design_curves(result, path=None, *, spec_band=None, target=None, dpi=200):
+    """Design curves of a one-parameter sweep; returns the Figure (saved to ``path`` if given).
+
+    Top: fc of each mode (GHz) against the parameter (mm, or degrees for an angle), error bars
+    where they would be visible (larger than 1e-3 of the axis), the single-mode band (f_low ..
+    f_high at each point) shaded; ``spec_band`` (f1, f2 Hz) drawn as two horizontal lines and
+    ``target`` (Hz) as a dashed one.  Bottom: the single-mode ratio f_high / f_low.  Invalid
+    points are left out (gaps in the curves)."""
+    ds = _dataset(result)
+    names = [d for d in ds.fc.dims if d != "mode"]
+    if len(names) != 1:
+        raise FemodesError(f"design_curves draws a one-parameter sweep; this one varies {', '.join(names)}: "
+                           "use design_map for two")
+    name = names[0]
+    scale, xlabel = _axis(name)
+    x = np.asarray(ds[name].values, dtype=float) * scale
+    fc = np.asarray(ds.fc.values, dtype=float) / 1e9
+    err = np.asarray(ds.fc_error.values, dtype=float) / 1e9
+    st = _style()
+    fig = _new_figure(7.5, 6.0)
+    top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
+    lo, hi = np.asarray(ds.f_low.values) / 1e9, np.asarray(ds.f_high.values) / 1e9
+    top.fill_between(x, lo, hi, color=st["band"], alpha=0.6, lw=0, label="single-mode band", zorder=1)
+    span = np.nanmax(fc) - np.nanmin(fc) if np.any(np.isfinite(fc)) else 1.0
+    for k in range(fc.shape[1]):
+        y, e = fc[:, k], err[:, k]
+        line, = top.plot(x, y, lw=1.6, marker="o", ms=3, zorder=3, label=f"mode {k + 1}")
+        show = np.isfinite(e) & (e > 1e-3 * span)
+        if np.any(show):
+            top.errorbar(x[show], y[show], yerr=e[show], fmt="none", ecolor=line.get_color(), capsize=2, zorder=3)
+    if spec_band is not None:
+        for f in spec_band:
+            top.axhline(float(f) / 1e9, color=st["band_edge"], lw=1.2, ls="-", zorder=2)
+        top.text(x[0], float(spec_band[1]) / 1e9, " spec band", va="bottom", color=st["band_edge"], fontsize=8)
+    if target is not None:
+        top.axhline(float(target) / 1e9, color=st["text"], lw=1.0, ls="--", zorder=2)
+        top.text(x[-1], float(target) / 1e9, "target ", ha="right", va="bottom", color=st["text"], fontsize=8)
+    top.set_ylabel("cutoff frequency (GHz)")
+    top.set_title(f"Cutoffs against {name.replace('_', ' ')} ({ds.attrs.get('shape', '')})", fontsize=11)
+    top.grid(alpha=0.3)
+    top.legend(fontsize=8, ncol=2, loc="best")
+    bottom.plot(x, np.asarray(ds.single_mode_ratio.values, dtype=float), color=st["family"]["TE"][1], marker="o",
+                ms=3)
+    bottom.set_ylabel("f_high / f_low")
+    bottom.set_xlabel(xlabel)
+    bottom.grid(alpha=0.3)
+    if path is not None:
+        _save(fig, path, dpi)
+    return fig
+
+
+def design_map(result, path=None, *, quantity="fc1", target=None, dpi=200):
+    """Contour map of a two-parameter sweep: ``quantity`` 'fc1' (the dominant cutoff, GHz) or
+    'ratio' (the single-mode ratio) over the two parameters, with the ``target`` contour (Hz for
+    fc1) drawn bold.  Returns the Figure (saved to ``path`` if given)."""
+    ds = _dataset(result)
+    names = [d for d in ds.fc.dims if d != "mode"]
+    if len(names) != 2:
+        raise FemodesError(f"design_map draws a two-parameter sweep; this one varies {len(names)}")
+    if quantity == "fc1":
+        z, label, tz = np.asarray(ds.fc.values[..., 0], dtype=float) / 1e9, "dominant cutoff fc1 (GHz)", target
+        tz = None if target is None else float(target) / 1e9
+    elif quantity == "ratio":
+        z, label, tz = np.asarray(ds.single_mode_ratio.values, dtype=float), "single-mode ratio f_high / f_low", target
+    else:
+        raise FemodesError(f"quantity must be 'fc1' or 'ratio', got {quantity!r}")
+    (sx, lx), (sy, ly) = _axis(names[0]), _axis(names[1])
+    x = np.asarray(ds[names[0]].values, dtype=float) * sx
+    y = np.asarray(ds[names[1]].values, dtype=float) * sy
+    if x.size < 2 or y.size < 2:
+        raise FemodesError("design_map needs at least two values of each parameter")
+    st = _style()
+    fig = _new_figure(6.5, 5.0)
+    ax = fig.subplots()
+    cs = ax.contourf(x, y, z.T, levels=12, cmap=st["cmap"])
+    ax.contour(x, y, z.T, levels=12, colors="k", linewidths=0.4, alpha=0.5)
+    fig.colorbar(cs, ax=ax, label=label)
+    if tz is not None and np.nanmin(z) < tz < np.nanmax(z):
+        ax.contour(x, y, z.T, levels=[tz], colors="#c0562f", linewidths=2.0)
+    ax.set_xlabel(lx)
+    ax.set_ylabel(ly)
+    shown = tz is not None and np.nanmin(z) < tz < np.nanmax(z)
+    ax.set_title(f"{label} ({ds.attrs.get('shape', '')})" + (f"\nbold: the target {tz:.6g}" if shown else ""),
+                 fontsize=11)
+    if path is not None:
+        _save(fig, path, dpi)
+    return fig
