@@ -3,6 +3,8 @@
     femodes solve CASE.toml [--json] [--csv PATH] [--fields PATH] [--figures DIR | --no-figures] [--format FMT]
                             [--modes N] [--accuracy X]
                             [--frequency F] [--band F1 F2] [--conductor NAME|S/m]
+    femodes sweep CASE.toml [--json] [--csv PATH] [--netcdf PATH] [--store PATH] [--workers N]
+                            [--scheduler ADDRESS] [--figure PATH] [--modes N] [--accuracy X]
     femodes shapes
     femodes --version
 
@@ -16,20 +18,24 @@ import argparse
 import json
 import os
 import sys
+import time
 import warnings
 
 from femodes.case import FORMATS, load_case, run_case, shapes_help
+from femodes.case.sweep import run_sweep
 from femodes.constants import __version__
 from femodes.errors import FemodesError
 from femodes.report import (
     analyse,
     check_figures,
+    figures,
     report_document,
     report_table,
     write_csv,
     write_fields,
     write_figures,
 )
+from femodes.report.sweeps import sweep_document, sweep_table
 
 __all__ = ["main"]
 
@@ -78,6 +84,23 @@ def _parser():
                    "quantities are printed at the band centre unless --frequency is given (overrides [analysis] band)")
     s.add_argument("--conductor", metavar="NAME|S/m", help="wall metal (copper, silver, gold, aluminium, brass, "
                    "stainless steel) or its conductivity in S/m (overrides [analysis] conductor)")
+    w = sub.add_parser("sweep", help="solve a case file at every point of its [sweep] table",
+                       description="Vary the [guide] parameters named in the case file's [sweep] table, solve "
+                       "the guide at every point (in parallel), and print the cutoffs and the single-mode band "
+                       "of each point.  With a store, every finished point is kept on disk and a second run "
+                       "computes only the missing points.")
+    w.add_argument("case", metavar="CASE.toml", help="the case file, with a [sweep] table")
+    w.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
+    w.add_argument("--csv", metavar="PATH", help="also write the points to a CSV file (one row per point and mode)")
+    w.add_argument("--netcdf", metavar="PATH", help="also write the points as a netCDF file (xarray)")
+    w.add_argument("--store", metavar="PATH", help="keep every finished point in PATH and resume from it "
+                   "(overrides [sweep] store)")
+    w.add_argument("--workers", metavar="N", help="local processes (overrides [sweep] workers)")
+    w.add_argument("--scheduler", metavar="ADDRESS", help="run the points on a dask.distributed scheduler")
+    w.add_argument("--figure", metavar="PATH", help="write the design curves (one parameter) or the map of the "
+                   "dominant cutoff (two) to PATH (.png, .svg, .pdf)")
+    w.add_argument("--modes", metavar="N", help="number of modes per point (overrides [solve] modes)")
+    w.add_argument("--accuracy", metavar="X", help="relative accuracy of the cutoffs (overrides [solve] accuracy)")
     sub.add_parser("shapes", help="list the shapes a case file can use and their keys",
                    description="List the shapes of the [guide] table and the keys each one takes.")
     return p
@@ -100,16 +123,69 @@ def main(argv=None) -> int:
     try:
         if args.command == "solve":
             return _solve(args)
+        if args.command == "sweep":
+            return _sweep(args)
         if args.command == "shapes":
 
             print(shapes_help())
             return 0
-        return _fail("choose a command: solve or shapes (see 'femodes --help')")
+        return _fail("choose a command: solve, sweep or shapes (see 'femodes --help')")
     except FemodesError as exc:
         return _fail(str(exc))
     except KeyboardInterrupt:
         print("femodes: interrupted", file=sys.stderr)
         return 130
+
+
+def _sweep(args):
+    case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy)
+    workers = None
+    if args.workers is not None:
+        try:
+            workers = int(args.workers)
+        except ValueError:
+            workers = 0
+        if workers < 1 or str(workers) != args.workers.strip():
+            return _fail(f"--workers must be a whole number >= 1, got {args.workers!r}")
+    t0 = time.perf_counter()
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = run_sweep(case, store=args.store, workers=workers, scheduler=args.scheduler)
+    _print_warnings(caught)
+    seconds = time.perf_counter() - t0
+    labels = case.sweep.labels
+    written = []
+    if args.csv:
+        written.append(result.to_csv(args.csv))
+    if args.netcdf:
+        written.append(result.to_netcdf(args.netcdf))
+    if args.figure:
+        os.environ.setdefault("MPLBACKEND", "Agg")
+        s = case.sweep
+        if len(result.names) == 1:
+            figures.design_curves(result, args.figure, spec_band=s.spec_band, target=s.target)
+        else:
+            figures.design_map(result, args.figure, target=s.target)
+        written.append(args.figure)
+    if args.json:
+        doc = sweep_document(result, title=case.title, labels=labels)
+        doc["files"] = written
+        print(json.dumps(doc, indent=2, allow_nan=False))
+        return 0
+    sys.stdout.write(sweep_table(result, title=case.title, labels=labels, seconds=seconds))
+    for p in written:
+        print(f"wrote {p}")
+    return 0
+
+
+def _print_warnings(caught):
+    shown = set()  # each distinct message once (the refinement repeats solves on similar meshes)
+    for w in caught:
+        msg = str(w.message)
+        if issubclass(w.category, (RuntimeWarning, UserWarning)) and msg not in shown:
+            shown.add(msg)
+            print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
+                  file=sys.stderr)
 
 
 def _fail(message):
@@ -128,13 +204,7 @@ def _solve(args):
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         study = run_case(case)
-    shown = set()  # each distinct message once (the refinement repeats solves on similar meshes)
-    for w in caught:
-        msg = str(w.message)
-        if issubclass(w.category, (RuntimeWarning, UserWarning)) and msg not in shown:
-            shown.add(msg)
-            print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
-                  file=sys.stderr)
+    _print_warnings(caught)
     analysis = analyse(study, case.analysis) if case.analysis is not None else None
     csv_paths = write_csv(study, args.csv, analysis) if args.csv else None
     fields_path = write_fields(study, args.fields) if args.fields else None

@@ -162,3 +162,67 @@ def test_design_figures_are_written(tmp_path):
         F.design_map(one)
     with pytest.raises(FemodesError, match="one-parameter"):
         F.design_curves(two)
+
+
+# ----------------------------------------------------------------------------- the command line
+
+SWEEP_CASE = """title = "WR-90-like width sweep"
+[guide]
+shape = "rectangle"
+width = 22.86
+height = 10.16
+[solve]
+modes = 2
+accuracy = 1e-5
+[sweep]
+width = [20.0, 22.86, 25.0]
+workers = 1
+"""
+
+
+def _run(capsys, *argv):
+    from femodes.cli import main
+
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_sweep_command_against_the_closed_form(tmp_path, capsys):
+    case = tmp_path / "w.toml"
+    case.write_text(SWEEP_CASE, encoding="utf-8")
+    code, out, err = _run(capsys, "sweep", str(case), "--json", "--store", str(tmp_path / "w.db"),
+                          "--csv", str(tmp_path / "w.csv"))
+    assert code == 0, err
+    doc = json.loads(out)
+    assert doc["computed"] == 3 and doc["varied"][0]["case_key"] == "width"
+    for p in doc["points"]:
+        a = p["parameters"]["width"]
+        want = _rect_fc(a, 10.16e-3, 2)  # Pozar sec. 3.3
+        got = np.array([m["fc"] for m in p["modes"]])
+        assert np.all(np.abs(got - want) <= np.array([m["fc_error"] for m in p["modes"]]) + 0 * got)
+        assert p["single_mode_band"]["f_low"] == pytest.approx(want[0], rel=1e-5)
+    code, out, err = _run(capsys, "sweep", str(case), "--store", str(tmp_path / "w.db"))
+    assert code == 0 and "3 points: 3 from the store, 0 computed" in out and "fc1 [GHz]" in out
+
+
+@pytest.mark.parametrize("table, words", [
+    ("[sweep]\nwidht = [20.0]\n", ["unknown key 'widht'", "width"]),
+    ("[sweep]\nwidth = []\n", ["non-empty list"]),
+    ("[sweep]\nwidth = { from = 20, to = 20, points = 3 }\n", ["must differ"]),
+    ("[sweep]\nworkers = 2\n", ["names no parameter"]),
+])
+def test_bad_sweep_table_says_what_to_fix(tmp_path, capsys, table, words):
+    case = tmp_path / "w.toml"
+    case.write_text(SWEEP_CASE.split("[sweep]")[0] + table, encoding="utf-8")
+    code, out, err = _run(capsys, "sweep", str(case))
+    assert code == 2 and len(err.strip().splitlines()) == 1
+    for w in words:
+        assert w in err, (w, err)
+
+
+def test_sweep_command_without_a_sweep_table(tmp_path, capsys):
+    case = tmp_path / "w.toml"
+    case.write_text(SWEEP_CASE.split("[sweep]")[0], encoding="utf-8")
+    code, out, err = _run(capsys, "sweep", str(case))
+    assert code == 2 and "no [sweep] table" in err

@@ -32,6 +32,7 @@ from femodes.case.schema import (
     UNITS,
 )
 from femodes.case.settings import AnalysisSettings, Case, OutputSettings, _check_figures_apply
+from femodes.case.sweep import build_sweep
 from femodes.case.values import (
     _accuracy,
     _band_value,
@@ -180,8 +181,9 @@ def _build_case(data, base_dir, path):
         an = _table(data, "analysis")
         analysis = _build_analysis(an, tan_delta)
     _check_figures_apply(out, analysis, "in the case file", loaded)
+    sweep = build_sweep(_table(data, "sweep"), guide, base_dir) if "sweep" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
-                tan_delta=tan_delta)
+                tan_delta=tan_delta, sweep=sweep)
 
 
 def _build_analysis(an, tan_delta):

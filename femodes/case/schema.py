@@ -176,7 +176,7 @@ SHAPES = {
 
 
 # the other tables: key -> (type check, default)
-_TOP_KEYS = ("title", "guide", "region", "fill", "solve", "analysis", "output")
+_TOP_KEYS = ("title", "guide", "region", "fill", "solve", "analysis", "output", "sweep")
 
 
 _REGION_KEYS = ("eps_r", "mu_r", "tan_delta", "name")

@@ -91,6 +91,7 @@ class Case:
     path: str | None = None
     analysis: AnalysisSettings | None = None
     tan_delta: float = 0.0
+    sweep: object = None  # femodes.case.sweep.SweepSettings of a [sweep] table, or None
 
     @property
     def loaded(self):

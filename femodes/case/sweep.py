@@ -1,0 +1,113 @@
+"""The [sweep] table of a case file: which [guide] parameters to vary, and how.
+
+    [sweep]
+    gap = { from = 1.0, to = 3.0, points = 21 }   # in the [guide] units (angles in degrees)
+    ridge_width = [6, 8, 10]                      # or the values themselves; two names: a grid
+    store = "gap_sweep.db"                        # optional: keep every point, resume (relative to the case file)
+    workers = 2                                   # optional: local processes (default: the cores)
+    spec_band = [2, 18]                           # optional, GHz: drawn on the design curves
+    target = 2.0                                  # optional, GHz: drawn on the curves / as the map's contour
+
+The fixed parameters are the [guide] table's own; the shape's placement does not change a cutoff
+and is left out.  :func:`run_sweep` runs it through :func:`femodes.sweep`.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from dataclasses import dataclass
+
+import numpy as np
+
+from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
+from femodes.case.values import _check_keys, _count, _number, _show, _suggest
+from femodes.errors import FemodesError
+from femodes.studies import sweep
+
+__all__ = ["SweepSettings", "build_sweep", "run_sweep", "SWEEP_KEYS"]
+
+#: the keys of [sweep] other than the parameters varied
+SWEEP_KEYS = ("store", "workers", "spec_band", "target")
+
+
+@dataclass(frozen=True)
+class SweepSettings:
+    """[sweep], checked, SI: ``vary`` the shape function's parameter -> values (m or rad),
+    ``labels`` the case-file key of each, ``store`` a path or None, ``workers`` or None,
+    ``spec_band`` (Hz, Hz) or None, ``target`` Hz or None."""
+
+    vary: dict
+    labels: dict
+    store: str | None = None
+    workers: int | None = None
+    spec_band: tuple | None = None
+    target: float | None = None
+
+
+def build_sweep(table, guide, base_dir):
+    """SweepSettings from the [sweep] table and the [guide] table (its shape and units)."""
+    shape = guide.get("shape")
+    if shape == "mesh" or shape not in SHAPES or SHAPES[shape].build is None:
+        raise FemodesError("[sweep] varies the parameters of a built-in shape; a mesh file has none")
+    keys = {k.name: k for k in SHAPES[shape].keys if k.kind in (LENGTH, ANGLE)}
+    _check_keys(table, tuple(keys) + SWEEP_KEYS, "[sweep]",
+                shown=[f"{k} (a [guide] key of {shape})" for k in keys] + list(SWEEP_KEYS))
+    scale = UNITS[guide.get("units", "mm")]
+    vary, labels = {}, {}
+    for name, value in table.items():
+        if name in SWEEP_KEYS:
+            continue
+        key = keys[name]
+        where = f"{name} in [sweep]"
+        if isinstance(value, dict):
+            extra = sorted(set(value) - {"from", "to", "points"})
+            if extra or not {"from", "to", "points"} <= set(value):
+                raise FemodesError(f"{where} must be a list of values or {{ from = A, to = B, points = N }}, got "
+                                   f"{_show(value)}")
+            lo, hi = _number(f"from of {where}", value["from"]), _number(f"to of {where}", value["to"])
+            n = _count(f"points of {where}", value["points"])
+            if n < 2 or lo == hi:
+                raise FemodesError(f"{where}: from and to must differ and points be >= 2, got {_show(value)}")
+            vals = np.linspace(lo, hi, n)
+        elif isinstance(value, list) and value:
+            vals = np.array([_number(where, v) for v in value])
+        else:
+            raise FemodesError(f"{where} must be a non-empty list of values or {{ from = A, to = B, points = N }}, got "
+                               f"{_show(value)}")
+        factor = math.pi / 180.0 if key.kind == ANGLE else scale
+        vary[key.target] = tuple(float(v) * factor for v in vals)
+        labels[key.target] = name
+    if not vary:
+        raise FemodesError(f"[sweep] names no parameter to vary: give one of {', '.join(keys)} with its values"
+                           + (_suggest(next(iter(table), ""), keys) if table else ""))
+    store = table.get("store")
+    if store is not None:
+        if not isinstance(store, str) or not store.strip():
+            raise FemodesError(f"store in [sweep] must be a file name, got {_show(store)}")
+        store = store if os.path.isabs(store) else os.path.join(base_dir, store)
+    workers = _count("workers in [sweep]", table["workers"]) if "workers" in table else None
+    spec = table.get("spec_band")
+    if spec is not None:
+        if not isinstance(spec, list) or len(spec) != 2:
+            raise FemodesError(f"spec_band in [sweep] must be [f1, f2] in GHz, got {_show(spec)}")
+        spec = tuple(_number("spec_band in [sweep]", v) * 1e9 for v in spec)
+    target = _number("target in [sweep]", table["target"]) * 1e9 if "target" in table else None
+    return SweepSettings(vary, labels, store, workers, spec, target)
+
+
+def run_sweep(case, store=None, workers=None, scheduler=None):
+    """Run the case's [sweep] (:func:`femodes.sweep`) with its [solve] settings; ``store``,
+    ``workers`` and ``scheduler`` override the table's.  Returns the SweepResult."""
+    s = case.sweep
+    if s is None:
+        raise FemodesError("the case file has no [sweep] table: add one naming the [guide] parameters to vary")
+    if case.loaded:
+        raise FemodesError("[sweep] of a guide with [[region]] tables is not supported yet: sweep the empty guide, "
+                           "or solve each point as its own case")
+    shape_function = SHAPES[case.section.kind].build
+    fixed = {k: v for k, v in case.section.params.items() if k not in s.vary}
+    opts = {k: v for k, v in case.solve.items() if k in ("eps_r", "mu_r", "family", "order")}
+    kw = {k: case.solve[k] for k in ("modes", "accuracy") if k in case.solve}
+    return sweep(shape_function, fixed, s.vary, store=store or s.store, workers=workers or s.workers,
+                 scheduler=scheduler, **kw, **opts)
