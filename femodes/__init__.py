@@ -24,11 +24,11 @@ from femodes.geometry.section import Section
 from femodes.geometry.shapes import circle, coaxial, double_ridge, ellipse, l_shape, polygon, rectangle, rectangular_coax, ridged, sector, single_ridge
 from femodes.modes import LoadedCutoff, LoadedMode, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
-from femodes.studies import sweep
+from femodes.studies import seek, sweep
 
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet", "LoadedMode",
     "LoadedCutoff", "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
     "rectangular_coax", "ridged", "sector", "single_ridge", "solve", "dispersion", "study", "attenuation",
-    "impedance", "power_handling", "sweep", "C0", "EPS0", "ETA0", "MU0", "__version__",
+    "impedance", "power_handling", "sweep", "seek", "C0", "EPS0", "ETA0", "MU0", "__version__",
 ]

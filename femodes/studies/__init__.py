@@ -1,10 +1,12 @@
 """Design studies: many solves of a guide whose parameters change.
 
 :mod:`.sweeps` (cutoffs over one parameter or a grid, in parallel locally or on a dask cluster,
-stored point by point in :mod:`.store` so that an interrupted sweep resumes).  Studies call the
+stored point by point in :mod:`.store` so that an interrupted sweep resumes); :mod:`.seek`
+(the parameter values that meet target cutoffs or band edges, with their uncertainty).  Studies call the
 front door (femodes.api) and sit beside the report, above the quantities.
 """
 
+from femodes.studies.seek import SeekResult, seek
 from femodes.studies.sweeps import SweepResult, sweep
 
-__all__ = ["sweep", "SweepResult"]
+__all__ = ["sweep", "SweepResult", "seek", "SeekResult"]

@@ -1,0 +1,205 @@
+"""Goal seeking: the parameter value(s) at which a guide meets its targets.
+
+``seek(femodes.double_ridge, {...}, {"ridge_width": (4e-3, 12e-3)}, {"fc1": 2.0e9})`` finds the
+ridge width, within the bounds given, at which the dominant cutoff is 2.0 GHz.  Targets:
+``"fcN"`` the N-th cutoff (cutoff order), ``"f_high"`` the upper edge of the single-mode band,
+``"ratio"`` the single-mode ratio f_high / f_low; values in Hz (the ratio: a number).
+
+One free parameter: bracketed root finding (scipy.optimize.brentq) of quantity - target, which
+needs the target between the values at the two bounds (else one clear message saying how close
+the bounds come).  The solve accuracy is the caller's; the parameter tolerance is derived from
+it: iterations stop when a step moves the quantity by less than its own error bar.  Two free
+parameters for two targets: a bounded least-squares solve (scipy.optimize.least_squares) of the
+two residuals scaled by their targets.
+
+The answer's uncertainty: the error of the quantity at the solution divided by its slope (from
+the last bracket: a secant), i.e. how far the parameter may be off because the quantity itself is
+only known to within its error bar; for two parameters, the same through the inverse Jacobian.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import optimize
+
+from femodes.api import solve
+from femodes.errors import FemodesError
+from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _shape_function
+
+__all__ = ["seek", "SeekResult"]
+
+
+@dataclass(frozen=True)
+class SeekResult:
+    """values: parameter -> value found (SI); errors: parameter -> its uncertainty (SI);
+    achieved: target -> value reached (Hz, or the ratio); achieved_error: target -> its error;
+    solves: how many solves it took."""
+
+    values: dict
+    errors: dict
+    achieved: dict
+    achieved_error: dict
+    solves: int
+
+
+def _target_names(targets):
+    if not isinstance(targets, dict) or not targets:
+        raise FemodesError("targets must be a dict such as {'fc1': 2.0e9} (fcN the N-th cutoff in Hz, 'f_high' "
+                           "the top of the single-mode band, 'ratio' the single-mode ratio)")
+    out = {}
+    for name, value in targets.items():
+        ok = name in ("f_high", "ratio") or (isinstance(name, str) and name.startswith("fc") and name[2:].isdigit()
+                                             and int(name[2:]) >= 1)
+        if not ok:
+            raise FemodesError(f"unknown target {name!r}: use fcN (the N-th cutoff, e.g. fc1), f_high or ratio")
+        v = _number(f"target {name}", value)
+        if v <= 0:
+            raise FemodesError(f"target {name} must be positive, got {value!r}")
+        out[name] = v
+    return out
+
+
+def _quantities(ms, names):
+    """{target name: (value, error)} of a solved mode set."""
+    out = {}
+    fcs = [(m.fc, m.fc_error) for m in ms]
+    band = None
+    for name in names:
+        if name.startswith("fc"):
+            n = int(name[2:])
+            if n > len(fcs):
+                raise FemodesError(f"target {name} needs at least {n} modes: raise modes=")
+            out[name] = fcs[n - 1]
+            continue
+        if band is None:
+            first = ms[0]
+            same = set(first.degenerate_with) | {first.index}
+            rest = [m for m in ms if m.index not in same]
+            if not rest:
+                raise FemodesError(f"target {name} needs the second distinct cutoff: raise modes=")
+            band = (first, rest[0])
+        f1, f2 = band
+        if name == "f_high":
+            out[name] = (f2.fc, f2.fc_error)
+        else:
+            r = f2.fc / f1.fc
+            out[name] = (r, r * (f2.fc_error / f2.fc + f1.fc_error / f1.fc))
+    return out
+
+
+def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, **options):
+    """The values of the parameters in ``vary`` (name -> (low, high) bounds, SI) at which the
+    ``targets`` are met (see the module docstring); the other parameters fixed at
+    ``parameters``.  As many free parameters as targets (one or two).  ``modes`` defaults to
+    what the targets need plus two; ``options`` go to :func:`femodes.solve` (eps_r, mu_r,
+    family, order).  Returns a :class:`SeekResult`."""
+    allowed = _shape_function(shape)
+    goals = _target_names(targets)
+    if not isinstance(vary, dict) or not vary:
+        raise FemodesError("vary must map each free parameter to its (low, high) bounds")
+    if len(vary) != len(goals) or len(vary) > 2:
+        raise FemodesError(f"give as many free parameters as targets (one or two): {len(vary)} parameter(s) for "
+                           f"{len(goals)} target(s)")
+    unknown = sorted(set(options) - set(SWEEP_OPTIONS))
+    if unknown:
+        raise FemodesError(f"unknown option(s) {', '.join(unknown)}; seek passes on {', '.join(SWEEP_OPTIONS)}")
+    bounds = {}
+    for name, b in vary.items():
+        if name not in allowed:
+            raise FemodesError(f"{shape.__name__} has no parameter {name!r}; its parameters: {', '.join(allowed)}")
+        if name in parameters:
+            raise FemodesError(f"{name} is both fixed (parameters) and free (vary): give it in one only")
+        try:
+            lo, hi = (_number(f"a bound of {name!r}", v) for v in b)
+        except (TypeError, ValueError):
+            raise FemodesError(f"the bounds of {name!r} must be a pair (low, high), got {b!r}") from None
+        if not lo < hi:
+            raise FemodesError(f"the bounds of {name!r} must be (low, high) with low < high, got {b!r}")
+        bounds[name] = (lo, hi)
+    need = max([int(k[2:]) for k in goals if k.startswith("fc")] + [2])
+    n_modes = need + 2 if modes is None else modes
+    count = [0]
+
+    def evaluate(point):
+        params = dict(parameters, **point)
+        try:
+            section = shape(**params)
+        except FemodesError as exc:
+            raise FemodesError(f"the shape refuses {', '.join(f'{k} = {v:.6g}' for k, v in point.items())} inside "
+                               f"the bounds: {exc}; narrow the bounds") from None
+        count[0] += 1
+        return _quantities(solve(section, modes=n_modes, accuracy=accuracy, **options), goals)
+
+    names = list(bounds)
+    if len(names) == 1:
+        return _seek_one(names[0], bounds[names[0]], goals, evaluate, count)
+    return _seek_two(names, bounds, goals, evaluate, count)
+
+
+def _seek_one(name, bound, goals, evaluate, count):
+    (goal, want), = goals.items()
+    lo, hi = bound
+    q_lo, q_hi = evaluate({name: lo})[goal][0], evaluate({name: hi})[goal][0]
+    if not min(q_lo, q_hi) <= want <= max(q_lo, q_hi):
+        unit = "" if goal == "ratio" else " GHz"
+        scale = 1.0 if goal == "ratio" else 1e-9
+        raise FemodesError(f"target {goal} = {want * scale:.6g}{unit} cannot be met for {name} in [{lo:.6g}, {hi:.6g}]: "
+                           f"{goal} runs from {q_lo * scale:.6g} to {q_hi * scale:.6g}{unit} there; widen the bounds")
+    cache = {}
+
+    def f(x):
+        if x not in cache:
+            cache[x] = evaluate({name: x})[goal]
+        return cache[x][0] - want
+
+    # stop when the parameter step moves the quantity by less than about its own error bar
+    slope = abs(q_hi - q_lo) / (hi - lo)
+    err0 = evaluate({name: 0.5 * (lo + hi)})[goal][1]
+    xtol = max(err0 / slope if slope > 0 else 0.0, 1e-12 * abs(hi))
+    x = optimize.brentq(f, lo, hi, xtol=xtol, rtol=4 * np.finfo(float).eps)
+    value, error = (cache[x] if x in cache else evaluate({name: x})[goal])
+    # the local slope from the two evaluations nearest the answer (a secant)
+    near = sorted((abs(k - x), k) for k in cache if k != x)
+    if near:
+        x2 = near[0][1]
+        slope = abs(cache[x2][0] - value) / abs(x2 - x) if x2 != x else slope
+    return SeekResult({name: float(x)}, {name: float(error / slope) if slope > 0 else math.inf},
+                      {goal: float(value)}, {goal: float(error)}, count[0])
+
+
+def _seek_two(names, bounds, goals, evaluate, count):
+    keys = list(goals)
+    want = np.array([goals[k] for k in keys])
+    lo = np.array([bounds[n][0] for n in names])
+    hi = np.array([bounds[n][1] for n in names])
+    span = hi - lo
+    last = {}
+
+    def residual(u):
+        x = lo + u * span
+        got = evaluate(dict(zip(names, x)))
+        last["x"], last["q"] = x, got
+        return np.array([got[k][0] for k in keys]) / want - 1.0
+
+    sol = optimize.least_squares(residual, 0.5 * np.ones(2), bounds=(0.0, 1.0), diff_step=1e-4, xtol=1e-12,
+                                 ftol=1e-14, gtol=1e-14)
+    x = lo + sol.x * span
+    got = evaluate(dict(zip(names, x)))
+    values = np.array([got[k][0] for k in keys])
+    errors = np.array([got[k][1] for k in keys])
+    if np.any(np.abs(values - want) > np.maximum(3 * errors, 1e-6 * want)):
+        raise FemodesError("the targets " + ", ".join(f"{k} = {w:.6g}" for k, w in zip(keys, want))
+                           + " cannot both be met within the bounds; closest: "
+                           + ", ".join(f"{k} = {v:.6g}" for k, v in zip(keys, values)))
+    J = sol.jac * want[:, None] / span[None, :]   # d quantity / d parameter
+    try:
+        dx = np.abs(np.linalg.solve(J, np.diag(errors)))
+        perr = np.sqrt(np.sum(dx ** 2, axis=1))
+    except np.linalg.LinAlgError:
+        perr = np.full(2, np.inf)
+    return SeekResult(dict(zip(names, (float(v) for v in x))), dict(zip(names, (float(e) for e in perr))),
+                      dict(zip(keys, (float(v) for v in values))), dict(zip(keys, (float(e) for e in errors))),
+                      count[0])
