@@ -17,6 +17,12 @@ meshes, 3 where arcs are curved: the rate is less certain there).  The
 rate is 2p on straight meshes and p + 1 where arcs are meshed with degree-p isoparametric edges.  If any wanted
 mode misses the asked accuracy, h is reduced by the observed rate and the fine mesh becomes the
 next coarse one.  The estimate is checked against closed forms in the tests.
+
+Corners.  Every wall corner whose exponent pi / angle is not whole and below p (re-entrant ones,
+and convex ones of 120, 135, 150 degrees: :meth:`Section.rate_limiting_corners`) is graded toward
+and lowers the model's rate as graded (:func:`_rate`).  A third, coarsest mesh is solved first:
+each mode's error is also estimated from the older meshes carried to the fine one (two meshes can
+agree by chance), with the mode's observed rate where the rate is uncertain (:func:`_merge`).
 """
 
 from __future__ import annotations
