@@ -50,7 +50,7 @@ __all__ = [
     "rectangle_kc", "rectangle_modes", "RectangularGuide", "WR90_A", "WR90_B", "wr90",
     "circle_modes", "bessel_roots", "annulus_roots",
     "coax_modes", "coax_te11_estimate", "coax_tem_impedance",
-    "sector_modes",
+    "sector_modes", "equilateral_triangle_modes", "right_isosceles_triangle_modes",
     "L_SHAPE_DIRICHLET", "L_SHAPE_NEUMANN", "l_shape_eigenvalue_mps",
     "mathieu_tridiagonal", "mathieu_characteristic", "ellipse_modes", "ellipse_ritz_kc",
     "rod_in_circular_guide_betas", "side_slab_te_m0_wall_loss",
@@ -2079,3 +2079,73 @@ def rod_in_circular_guide_complex_beta2(a: float, b: float, eps_r: float, freque
             if abs(_winding(det, r, rad) - 1.0) < 0.1:
                 found.append(r)
     return sorted(found, key=lambda x: -x.real)
+
+
+# ---------------------------------------------------------------------------
+# Triangles with closed-form spectra (corners of 60, 90 and 45 degrees)
+# ---------------------------------------------------------------------------
+def equilateral_triangle_modes(side: float, n: int) -> List[RefMode]:
+    """First n modes of a guide whose section is an equilateral triangle of ``side``.
+
+    Lamé's closed form (G. Lamé, 1833; M. A. Pinsky, "The eigenvalues of an equilateral
+    triangle", SIAM J. Math. Anal. 11, 1980; B. J. McCartin, "Eigenstructure of the equilateral
+    triangle", SIAM Review 45, 2003; recalled from memory):
+
+        kc^2 = (16 pi^2 / (9 side^2)) (m^2 + m n + n^2)
+
+    TM (Dirichlet): m, n >= 1; TE (Neumann): m, n >= 0, not both 0.  Each ordered pair (m, n) is
+    one eigenfunction: for m != n the pair (m, n), (n, m) is a degenerate pair (a symmetric and
+    an antisymmetric mode about an altitude), for m = n a single mode.  Indices (m, n) with
+    m >= n for the first of a pair; the corners (60 degrees, pi / angle = 3) are regular.
+    """
+    side = _check_length("side", side)
+    n = _check_count(n)
+    unit = 16.0 * math.pi**2 / (9.0 * side**2)
+
+    def below(kmax: float) -> List[RefMode]:
+        out = []
+        top = int(kmax * side) + 2
+        for family, low in (("TE", 0), ("TM", 1)):
+            for m in range(low, top):
+                for k in range(low, top):
+                    if m == 0 and k == 0:
+                        continue
+                    kc = math.sqrt(unit * (m * m + m * k + k * k))
+                    if kc <= kmax:
+                        out.append(RefMode(family, kc, mode_label(family, max(m, k), min(m, k)), (m, k)))
+        return out
+
+    area = math.sqrt(3.0) / 4.0 * side**2
+    return _collect_first(n, max(_weyl_k(area, n), 2.0 / side), below)
+
+
+def right_isosceles_triangle_modes(leg: float, n: int) -> List[RefMode]:
+    """First n modes of a guide whose section is a right isosceles triangle with legs ``leg``.
+
+    The triangle is half of the square of side ``leg`` cut along a diagonal: its Dirichlet
+    eigenfunctions are the square's modes antisymmetric about the diagonal,
+    sin(m pi x / a) sin(n pi y / a) - sin(n pi x / a) sin(m pi y / a), its Neumann ones the
+    symmetric cos cos + cos cos (common practice: the square's modes of one parity about its
+    diagonal, from the rectangle's closed form):
+
+        kc^2 = pi^2 (m^2 + n^2) / leg^2,  TM: m > n >= 1;  TE: m >= n >= 0, m >= 1.
+
+    Corners of 90 and 45 degrees: pi / angle = 2 and 4, every corner term is smooth.
+    """
+    leg = _check_length("leg", leg)
+    n = _check_count(n)
+
+    def below(kmax: float) -> List[RefMode]:
+        out = []
+        top = int(kmax * leg / math.pi) + 2
+        for m in range(1, top):
+            for k in range(0, m + 1):
+                kc = math.pi * math.sqrt(m * m + k * k) / leg
+                if kc > kmax:
+                    continue
+                out.append(RefMode("TE", kc, mode_label("TE", m, k), (m, k)))
+                if m > k >= 1:
+                    out.append(RefMode("TM", kc, mode_label("TM", m, k), (m, k)))
+        return out
+
+    return _collect_first(n, max(_weyl_k(0.5 * leg**2, n), 2.0 / leg), below)

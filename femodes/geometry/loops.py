@@ -160,6 +160,37 @@ class Corner:
         """Singular exponent lambda = pi / angle of the potential near the corner."""
         return math.pi / self.angle
 
+    def exponents(self, upto):
+        """The corner exponents lambda_k = k pi / angle, k = 1, 2, ..., up to ``upto``.
+
+        Near a straight-sided corner of interior angle alpha on a PEC wall a solution of the
+        Helmholtz equation expands in r^(lambda_k) sin(lambda_k theta) (Dirichlet: TM's E_z,
+        and a wall potential) or r^(lambda_k) cos(lambda_k theta) (Neumann: TE's H_z; k = 0 is the
+        constant), times power series in r^2, with lambda_k = k pi / alpha for both problems
+        (Grisvard, "Elliptic problems in nonsmooth domains", 1985, sections 4.4 and 5.1; Strang &
+        Fix, "An analysis of the finite element method", 1973, ch. 8; from memory).  A term is
+        smooth (a polynomial times an entire function) when lambda_k is a whole number, and singular
+        otherwise: its derivatives of order > lambda_k blow up at the corner.  A corner where a
+        straight side meets an arc (or two arcs meet) is taken with its tangent angle.
+        """
+        lam = self.exponent
+        return [k * lam for k in range(1, int(upto / lam) + 1)]
+
+    @property
+    def singular_exponent(self):
+        """The smallest non-integer exponent k pi / angle (Dirichlet and Neumann alike), or inf
+        where pi / angle is a whole number (angles pi / n: every term is smooth).  It is the
+        first term, k = 1, whenever pi / angle is not whole; when it is whole, so is every
+        multiple."""
+        lam = self.exponent
+        return math.inf if abs(lam - round(lam)) < 1e-9 else lam
+
+    def limits_rate(self, order):
+        """True if the corner's singular term caps the eigenvalue convergence of conforming
+        order-``order`` elements on a quasi-uniform mesh: the error of the eigenvalue falls like
+        h^(2 min(p, lambda)) (Strang & Fix ch. 8), so the corner limits when lambda < p."""
+        return self.singular_exponent < order
+
 
 @dataclass(frozen=True)
 class Loop:

@@ -3,7 +3,9 @@
 :func:`mesh_section` meshes a :class:`~femodes.section.Section` with gmsh's Python API:
 
 * element size ``h_max`` away from singular points, set by the caller from the accuracy wanted;
-* grading toward re-entrant corners, h(r) = h_max (r / R)^(1 - mu) with mu = lambda / (p + 1)
+* grading toward re-entrant corners (with ``all_corners``, toward every corner whose exponent
+  pi / angle is not whole and below p: convex 120, 135, 150 degrees too),
+  h(r) = h_max (r / R)^(1 - mu) with mu = lambda / (p + 1)
   for elements of order p and corner exponent lambda = pi / angle: this equidistributes the
   energy error of the singular field r^lambda, so that the eigenvalue error falls like h^(2p)
   as on a smooth problem instead of like h^(2 lambda);
@@ -369,11 +371,16 @@ def _build_geometry_occ(gmsh, section: Section):
     occ.synchronize()
 
 
-def singular_corners(section):
+def singular_corners(section, order=None):
     """The points where the fields are singular: re-entrant wall corners, and the corners of
     material regions.  A region corner is graded like a 270-degree conducting corner (exponent
     2/3), a conservative choice for any contrast; a right-angled region corner standing on a
-    straight wall is regular (its image in the wall is a straight interface) and is left out."""
+    straight wall is regular (its image in the wall is a straight interface) and is left out.
+
+    With ``order`` the wall corners are all those whose smallest non-integer exponent
+    k pi / angle limits the convergence of order-``order`` elements
+    (:meth:`Section.rate_limiting_corners`: convex ones of 120, 135, 150 degrees too), wall
+    corners first in either case."""
 
     L0 = section.size
     walls = np.hstack([l.polyline(64, line_pieces=1) for l in section.loops])
@@ -383,16 +390,19 @@ def singular_corners(section):
             on_wall = _point_edge_distances(np.array([[c.point[0]], [c.point[1]]]), walls)[0] < 1e-9 * L0
             if not (on_wall and abs(c.angle - 0.5 * math.pi) < 1e-6):
                 material_corners.append(Corner(c.point, 1.5 * math.pi))
-    return list(section.reentrant_corners()) + material_corners
+    wall = section.reentrant_corners() if order is None else section.rate_limiting_corners(order)
+    return list(wall) + material_corners
 
 
 def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: float, radius=None,
-                 floor=1e-7):
+                 floor=1e-7, all_corners=False):
     """Install the element-size field as gmsh fields (evaluated in C++, so meshing stays fast).
 
-    Re-entrant corner of exponent lambda: h = h_max (r / L)^e with e = 1 - grading lambda / (p + 1),
+    Singular corner of exponent lambda: h = h_max (r / L)^e with e = 1 - grading lambda / (p + 1),
     r the distance to the corner and L the grading radius (default the section size); r / L is
-    floored at ``floor``.
+    floored at ``floor``.  The graded corners are the re-entrant ones, or with ``all_corners``
+    every corner whose exponent limits the rate at this order (convex ones included; e is
+    clipped at 0: a mild corner is never meshed coarser than h_max).
     """
     fld = gmsh.model.mesh.field
     L0 = section.size
@@ -403,10 +413,11 @@ def _size_fields(gmsh, section: Section, h_max: float, order: int, grading: floa
         x, y, _ = gmsh.model.getValue(0, tag, [])
         pts[(round(x / L0, 9), round(y / L0, 9))] = tag
     by_exponent = {}  # corners of one angle share one Distance field (fewer fields: faster meshing)
-    for c in singular_corners(section):
+    for c in singular_corners(section, order if all_corners else None):
         tag = pts.get((round(c.point[0] / L0, 9), round(c.point[1] / L0, 9)))
         if tag is not None:
-            by_exponent.setdefault(round(1.0 - grading * c.exponent / (order + 1), 12), []).append(tag)
+            e = max(0.0, 1.0 - grading * c.exponent / (order + 1))
+            by_exponent.setdefault(round(e, 12), []).append(tag)
     for e, tags in by_exponent.items():
         d = fld.add("Distance")
         fld.setNumbers(d, "PointsList", tags)
@@ -475,12 +486,14 @@ def _gmsh_arc_curves(gmsh, section):
 
 def mesh_section(section: Section, h_max: float, order: int = 3, grading: float = 1.0,
                  curved: bool = True, graded: bool = True, grading_radius=None,
-                 grading_floor: float = 1e-7) -> Mesh:
+                 grading_floor: float = 1e-7, all_corners: bool = False) -> Mesh:
     """Mesh ``section`` with maximum element size ``h_max`` (m), graded for elements of ``order``.
 
     Returns a :class:`Mesh`; with ``curved`` (default) edges on arcs carry their true mid-points.
     ``graded=False`` gives a uniform mesh (for comparisons); ``grading`` scales the corner
-    exponent (1 = equidistributing).
+    exponent (1 = equidistributing); ``all_corners`` grades toward every wall corner whose
+    exponent limits the rate at ``order`` (convex ones of 120, 135, 150 degrees ...), not only
+    the re-entrant ones.
     """
     if not (h_max > 0):
         raise FemodesError(f"mesh size must be positive, got {h_max!r}")
@@ -498,7 +511,8 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
         gmsh.option.setNumber("Mesh.MeshSizeMax", float(h_max))
         gmsh.option.setNumber("Mesh.MeshSizeMin", 0.0)
         if graded:
-            _size_fields(gmsh, section, h_max, order, grading, grading_radius, grading_floor)
+            _size_fields(gmsh, section, h_max, order, grading, grading_radius, grading_floor,
+                         all_corners)
         gmsh.model.mesh.generate(2)
         if curved:
             gmsh.model.mesh.setOrder(2)

@@ -178,6 +178,14 @@ class Section:
     def reentrant_corners(self):
         return [c for c in self.corners() if c.reentrant]
 
+    def rate_limiting_corners(self, order):
+        """Wall corners, convex or re-entrant, whose smallest non-integer exponent k pi / angle
+        is below ``order``: they cap the eigenvalue convergence of order-``order`` elements
+        unless the mesh is graded toward them (see :meth:`Corner.exponents`).  Every re-entrant
+        corner is among them; so are convex corners of 120, 135, 150 degrees (exponents 1.5,
+        4/3, 1.2), not those of 90, 60 or 45 degrees (pi / angle whole: smooth)."""
+        return [c for c in self.corners() if c.limits_rate(order)]
+
     @property
     def n_conductors(self):
         """Number of separate conductors: 1 for a hollow guide, 1 + holes for coax-like guides."""

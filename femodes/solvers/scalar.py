@@ -17,6 +17,12 @@ meshes, 3 where arcs are curved: the rate is less certain there).  The
 rate is 2p on straight meshes and p + 1 where arcs are meshed with degree-p isoparametric edges.  If any wanted
 mode misses the asked accuracy, h is reduced by the observed rate and the fine mesh becomes the
 next coarse one.  The estimate is checked against closed forms in the tests.
+
+Corners.  Every wall corner whose exponent pi / angle is not whole and below p (re-entrant ones,
+and convex ones of 120, 135, 150 degrees: :meth:`Section.rate_limiting_corners`) is graded toward
+and lowers the model's rate as graded (:func:`_rate`).  A third, coarsest mesh is solved first:
+each mode's error is also estimated from the older meshes carried to the fine one (two meshes can
+agree by chance), with the mode's observed rate where the rate is uncertain (:func:`_merge`).
 """
 
 from __future__ import annotations
@@ -129,6 +135,15 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
             # ask each family for what the coarse solve found of it among the wanted, plus margin
             seen = _families_of_lowest(coarse, want)
             counts = {f: min(c, seen.get(f, 0) + 2) for f, c in counts.items()}
+        history = []  # eigenvalues of the meshes before the coarse one, coarsest first
+        if mesh_size is None:
+            # a third, coarsest mesh (cheap): the observed rate of every mode, and a guard against
+            # the coarse and fine meshes agreeing by chance (see _merge)
+            try:
+                history.append(_eigenvalues(_discrete_solve(section, 1.6 * h_coarse, p, fams, counts,
+                                                            shifts, radius)))
+            except FemodesError:  # too coarse for the modes asked: two meshes only
+                pass
         fine = _discrete_solve(section, h, p, fams, counts, shifts, radius)
         for it in range(max_iterations):
             short = _short_families(fine, want)
@@ -137,26 +152,35 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
                 coarse = _discrete_solve(section, coarse["h"], p, fams, counts, shifts, radius)
                 fine = _discrete_solve(section, h, p, fams, counts, shifts, radius)
                 continue
-            merged = _merge(fine, coarse, p, want)
+            merged = _merge(fine, coarse, p, want, history=history)
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
             tem = _tem_statics(fine, coarse, p, section) if n_tem else None
             worst = max(worst, relative_error(tem))
             trusted = (fine["n_dofs"] >= _MIN_DOF_RATIO * coarse["n_dofs"]
-                       and math.sqrt(merged[-1][0]) * coarse["h"] <= _KH_MAX[p] * 1.5) if merged else True
+                       and math.sqrt(merged[-1][0]) * coarse["h"] <= _KH_MAX[p]) if merged else True
             _debug(f"iteration {it}: h={h:.4g} N={fine['n_dofs']} (coarse {coarse['n_dofs']}) "
                    f"worst estimate {worst:.2e} trusted={trusted}")
             if mesh_size is not None or (worst <= accuracy and trusted) or not (merged or n_tem):
                 break
-            shrink = min(0.85, max(0.3, (0.3 * accuracy / worst) ** (1.0 / _rate(fine, p))))
+            # plan with the observed rate, but not below half the model's (on coarse meshes the
+            # observed rate is partly noise: planning with it alone overshoots by far)
+            model = _rate(fine, p)
+            rate = min(model, max(fine.get("observed_rate", model), 0.5 * model))
+            shrink = min(0.85, max(0.3, (0.3 * accuracy / worst) ** (1.0 / rate)))
             if not trusted:
                 shrink = min(shrink, _KH_MAX[p] / (math.sqrt(merged[-1][0]) * h))
+                if fine["n_dofs"] < _MIN_DOF_RATIO * coarse["n_dofs"]:
+                    # the unknowns hardly grew (graded zones do not follow h_max alone): a
+                    # bigger step, or the loop creeps on meshes too alike to compare
+                    shrink = min(shrink, 0.7)
             shrink = max(shrink, 0.25)
             if fine["n_dofs"] / shrink ** 2 > MAX_DOFS:
                 break  # the next mesh would be too large: report what was reached
             h *= shrink
+            history.append(_eigenvalues(coarse))
             coarse, fine = fine, _discrete_solve(section, h, p, fams, counts, shifts, radius)
         else:
-            merged = _merge(fine, coarse, p, want)
+            merged = _merge(fine, coarse, p, want, history=history)
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
             tem = _tem_statics(fine, coarse, p, section) if n_tem else None
             worst = max(worst, relative_error(tem))
@@ -199,7 +223,7 @@ def _discrete_solve(geometry, h, p, fams, counts, shifts, radius=None):
     """Mesh (or reuse a fixed mesh), assemble, and solve each family for ``counts[f]`` pairs."""
     if isinstance(geometry, Section):
         r, g = radius if isinstance(radius, tuple) else (radius, 1.0)
-        mesh = mesh_section(geometry, h, order=p, grading_radius=r, grading=g)
+        mesh = mesh_section(geometry, h, order=p, grading_radius=r, grading=g, all_corners=True)
     else:
         mesh = geometry
     skm = mesh.to_skfem(order=max(2, p))
@@ -208,8 +232,11 @@ def _discrete_solve(geometry, h, p, fams, counts, shifts, radius=None):
         raise FemodesError(f"the mesh needs {disc.n_dofs} unknowns, more than the limit {MAX_DOFS}: "
                            "ask for a looser accuracy or fewer modes")
     r, g = radius if isinstance(radius, tuple) else (radius, 1.0)
-    singular = isinstance(geometry, Section) and bool(geometry.reentrant_corners())
-    out = {"mesh": mesh, "disc": disc, "n_dofs": disc.n_dofs, "h": h, "grading": g, "singular": singular}
+    # the exponents of the corners graded toward (they cap the rate unless the grading restores it)
+    corners = tuple(c.singular_exponent for c in geometry.rate_limiting_corners(p)) \
+        if isinstance(geometry, Section) else ()
+    out = {"mesh": mesh, "disc": disc, "n_dofs": disc.n_dofs, "h": h, "grading": g,
+           "singular": bool(corners), "corners": corners}
     interior = disc.interior()
     for f in fams:
         if f == "TM":
@@ -237,25 +264,63 @@ def _discrete_solve(geometry, h, p, fams, counts, shifts, radius=None):
     return out
 
 
-def _merge(fine, coarse, p, want, same_mesh=False):
+def _eigenvalues(result):
+    """The part of a discrete solve the error estimate keeps from older meshes (no vectors)."""
+    return {"n_dofs": result["n_dofs"], **{f: (result[f][0],) for f in ("TE", "TM") if f in result}}
+
+
+def _merge(fine, coarse, p, want, same_mesh=False, history=()):
     """Wanted (lam, err, family, column, residual) rows, lowest first, with Richardson errors.
 
     With ``same_mesh`` the coarse solution is one element order lower on the same mesh and the
     whole difference is taken as the error (no extrapolation: a conservative estimate).
+
+    With ``history`` (eigenvalues of older, coarser meshes, coarsest first) each mode's error is
+    the largest of the fine pair's Richardson estimate, the estimate of the last older pair
+    carried to the fine mesh, and that of the finest older mesh with at most half the fine
+    mesh's unknowns against the fine one: two meshes close in size can agree by chance (on the
+    octagon at accuracy 1e-4, meshes of 1873 and 2481 unknowns differed by a quarter of the fine
+    mesh's error: the corner's innermost elements from gmsh do not follow h_max smoothly).  Each
+    uses the mode's observed rate from the last three meshes where that is slower than the
+    model's (:func:`_observed_rate`): never a faster rate than the meshes show.  Where the rate
+    is certain (2p: straight mesh, no rate-limiting corner) the model's rate is used.
     """
     rate = _rate(fine, p)
+    # the rate is certain (2p) on straight meshes without a rate-limiting corner: there the
+    # observed rate of a few coarse unstructured meshes is mostly noise
+    certain = not fine.get("singular") and not fine["mesh"].is_curved
     s2p = 2.0 if same_mesh else (fine["n_dofs"] / coarse["n_dofs"]) ** (rate / 2)  # s^rate, s = sqrt(N_f/N_c)
+    slowest = rate
     rows = []
     for f in ("TE", "TM"):
         if f not in fine:
             continue
         lf, _, rf = fine[f]
         lc = coarse[f][0]
+        older = history[-1] if history else None
+        lo = older[f][0] if older is not None and f in older else ()
+        far = [r for r in history if 2 * r["n_dofs"] <= fine["n_dofs"] and f in r]
+        far = far[-1] if far else None
         n = min(len(lf), len(lc))
         for i in range(n):
+            floor = 2 * fine["n_dofs"] * 2.2e-16 * lf[i]  # round-off floor, grows with N
             err = abs(lc[i] - lf[i]) / max(s2p - 1.0, 1.0)
-            err = max(err, 2 * fine["n_dofs"] * 2.2e-16 * lf[i])  # round-off floor, grows with N
+            q = rate
+            if i < len(lo) and not same_mesh and coarse["n_dofs"] >= _MIN_DOF_RATIO * older["n_dofs"]:
+                if not certain:
+                    q = _observed_rate((older["n_dofs"], coarse["n_dofs"], fine["n_dofs"]),
+                                       (lo[i], lc[i], lf[i]), rate, 30 * floor)
+                    slowest = min(slowest, q)
+                s1 = (coarse["n_dofs"] / older["n_dofs"]) ** (q / 2)
+                s2 = (fine["n_dofs"] / coarse["n_dofs"]) ** (q / 2)
+                err = max(err, abs(lc[i] - lf[i]) / max(s2 - 1.0, 1e-3),
+                          abs(lo[i] - lc[i]) / max(s1 - 1.0, 1e-3) / s2)
+            if far is not None and i < len(far[f][0]) and not same_mesh:
+                s3 = (fine["n_dofs"] / far["n_dofs"]) ** (q / 2)
+                err = max(err, abs(far[f][0][i] - lf[i]) / (s3 - 1.0))
+            err = max(err, floor)
             rows.append((float(lf[i]), float(err), f, i, float(rf[i])))
+    fine["observed_rate"] = slowest
     rows.sort(key=lambda r: r[0])
     if not same_mesh and rows:
         # a single mode's coarse/fine difference can be small by chance on unstructured meshes:
@@ -273,6 +338,46 @@ def _merge(fine, coarse, p, want, same_mesh=False):
         keep.append(rows[k])
         k += 1
     return keep
+
+
+# the slowest observed rate believed: below it two of the three differences are taken as noise
+_MIN_OBSERVED_RATE = 1.0
+
+
+def _observed_rate(dofs, values, rate, noise):
+    """The rate q of  lam(N) = lam* + C N^(-q/2)  through three meshes' values of one mode,
+    capped at the model's ``rate`` (never faster than the model) and floored at
+    _MIN_OBSERVED_RATE.
+
+    The differences d1 = lam_0 - lam_1, d2 = lam_1 - lam_2 satisfy
+    d1 / d2 = s2^a (s1^a - 1) / (s2^a - 1),  s1 = N_1 / N_0, s2 = N_2 / N_1, a = q / 2,
+    which increases with a.  Differences of opposite sign (not yet asymptotic) or below ``noise``
+    (round-off) say nothing about the rate: the model's is kept.
+    """
+    d1 = values[0] - values[1]
+    d2 = values[1] - values[2]
+    if abs(d1) <= noise or abs(d2) <= noise or d1 * d2 <= 0:
+        return rate
+    s1, s2 = dofs[1] / dofs[0], dofs[2] / dofs[1]
+    if s1 <= 1.0 or s2 <= 1.0:
+        return rate
+    ratio = abs(d1 / d2)
+
+    def g(a):
+        return s2 ** a * (s1 ** a - 1.0) / (s2 ** a - 1.0) - ratio
+
+    lo, hi = _MIN_OBSERVED_RATE / 2, rate / 2
+    if g(hi) <= 0:
+        return rate
+    if g(lo) >= 0:
+        return _MIN_OBSERVED_RATE
+    for _ in range(60):  # bisection: g is monotone in a
+        mid = 0.5 * (lo + hi)
+        if g(mid) > 0:
+            hi = mid
+        else:
+            lo = mid
+    return 2.0 * lo
 
 
 def _families_of_lowest(result, want):
@@ -293,16 +398,22 @@ def _short_families(result, want):
 
 
 def _rate(fine, p):
-    """Convergence rate of kc^2 in h.
+    """Convergence rate of kc^2 in h: the slowest any mode can feel on this mesh.
 
-    2p for smooth fields.  Near a re-entrant corner graded as h ~ r^(1 - g lambda / (p + 1)) the
-    singular part converges like h^(2 (p + 1) / g): the full 2p only for g <= (p + 1) / p.  On
-    curved meshes the degree-p isoparametric boundary limits the rate to about p + 1 (measured:
-    5.4 for p = 4 on a circle).
+    2p for smooth fields.  A corner of non-integer exponent lambda = pi / angle < p (re-entrant,
+    or convex of 120, 135, 150 degrees: :meth:`Corner.singular_exponent`) caps it at 2 lambda on
+    a quasi-uniform mesh (Strang & Fix ch. 8).  Graded as h ~ r^(1 - mu), mu = g lambda / (p + 1),
+    the singular part's error density h^(2p) r^(2 lambda - 2 p mu - 2) is integrable for
+    mu < lambda / p, and otherwise the innermost elements (size h^(1 / mu)) leave h^(2 lambda / mu):
+    rate min(2p, 2 lambda / min(1, mu)), i.e. 2 (p + 1) / g, the full 2p only for
+    g <= (p + 1) / p.  On curved meshes the degree-p isoparametric boundary limits the rate to
+    about p + 1 (measured: 5.4 for p = 4 on a circle).
     """
     rate = 2.0 * p
     g = fine.get("grading", 1.0)
-    if fine.get("singular"):
+    for lam in fine.get("corners", ()):
+        rate = min(rate, 2.0 * lam / min(1.0, g * lam / (p + 1)))
+    if fine.get("singular") and not fine.get("corners"):
         rate = min(rate, 2.0 * (p + 1) / g)
     if fine["mesh"].is_curved:
         rate = min(rate, p + 1.0)
