@@ -12,7 +12,7 @@ error falls like h^(2p), so the difference of the two (Richardson) estimates the
 
     err(lam_fine) ~= |lam_coarse - lam_fine| / (s^rate - 1),   s = sqrt(N_fine / N_coarse),
 
-and the reported error on kc is half that relative error times a safety factor (2 on straight
+and the reported error on kc is half that relative error times a safety factor (3 on straight
 meshes, 3 where arcs are curved: the rate is less certain there).  The
 rate is 2p on straight meshes and p + 1 where arcs are meshed with degree-p isoparametric edges.  If any wanted
 mode misses the asked accuracy, h is reduced by the observed rate and the fine mesh becomes the
@@ -47,7 +47,7 @@ DEFAULT_ORDER = 4
 # reported error = SAFETY x Richardson estimate.  Smallest (raw estimate / true error) seen over the
 # closed-form cases: about 1.0 on straight meshes; on curved ones the assumed rate p + 1 already
 # makes the raw estimate conservative there, but the rate is less certain for other curves
-SAFETY = {"straight": 2.0, "curved": 3.0}
+SAFETY = {"straight": 3.0, "curved": 3.0}
 
 
 def _safety(disc_result):
