@@ -12,8 +12,8 @@ error falls like h^(2p), so the difference of the two (Richardson) estimates the
 
     err(lam_fine) ~= |lam_coarse - lam_fine| / (s^rate - 1),   s = sqrt(N_fine / N_coarse),
 
-and the reported error on kc is half that relative error times a safety factor (3 on straight
-meshes, 3 where arcs are curved: the rate is less certain there).  The
+and the reported error on kc is half that relative error times a safety factor of 3 (see
+SAFETY).  The
 rate is 2p on straight meshes and p + 1 where arcs are meshed with degree-p isoparametric edges.  If any wanted
 mode misses the asked accuracy, h is reduced by the observed rate and the fine mesh becomes the
 next coarse one.  The estimate is checked against closed forms in the tests.
