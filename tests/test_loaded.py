@@ -320,3 +320,20 @@ def test_wall_loss_of_filled_guides_is_the_handbook_value():
     m = fm.solve(cx, modes=1, frequency=f, accuracy=1e-7)[0]
     want = rs * (1 / a + 1 / b) / (2 * 376.730313668 / math.sqrt(eps) * math.log(b / a))
     assert abs(Q.loaded_conductor_attenuation(m) - want) <= Q.loaded_conductor_attenuation_error(m) < 0.2 * want  # 2.8 %, 12 %
+
+
+def test_filled_135_degree_sector_through_the_loaded_path_within_its_estimates():
+    # a convex wall corner of 135 degrees (pi / angle = 4/3, not whole: the field is singular
+    # there and limits the rate of order-3 edge elements) filled with eps_r 2.2 through the loaded
+    # path: beta = sqrt(k0^2 eps_r - kc^2) with kc from the sector's fractional-order Bessel zeros
+    # (femodes.reference.sector_modes, scipy.special); the mesh grades toward the corner and the
+    # rate model takes it into account
+    R, ang, eps, f = 10e-3, 0.75 * math.pi, 2.2, 20e9
+    g = fm.sector(R, ang)
+    k2 = (2 * math.pi * f / C0) ** 2 * eps
+    want = sorted((math.sqrt(k2 - m.kc ** 2) for m in ref.sector_modes(R, ang, 8) if m.kc ** 2 < k2), reverse=True)
+    for acc in (1e-4, 1e-6):
+        got = fm.solve(g.with_material(g, eps_r=eps), modes=3, frequency=f, accuracy=acc)
+        for m, w in zip(got, want):
+            assert abs(m.beta() - w) <= m.beta_error, (acc, m.label, m.beta(), w, m.beta_error)
+            assert abs(m.beta() ** 2 - w ** 2) <= acc * k2

@@ -79,7 +79,8 @@ def _mesh(section, h, order, k_max=None):
     """The mesh of size h for edge elements of ``order``, graded over 1 / k_max (GRADING_FLOOR)."""
 
     radius = None if not k_max else 1.0 / float(k_max)
-    return mesh_section(section, h, order=order, grading_radius=radius, grading_floor=GRADING_FLOOR)
+    return mesh_section(section, h, order=order, grading_radius=radius, grading_floor=GRADING_FLOOR,
+                        all_corners=True)
 
 
 def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0):
@@ -93,11 +94,13 @@ def _rate(section, p):
     """Assumed convergence rate in h of beta^2 (and of cutoff k0^2) for edge elements of order p:
     2p where the fields are smooth in every region (no singular corner, see
     femodes.mesh.singular_corners, and no curved wall or interface, whose geometry the mesh
-    only follows to the element order), else the conservative p + 1 (graded singular corners)."""
+    only follows to the element order), else the conservative p + 1 (graded singular corners:
+    re-entrant wall corners, material corners, and convex wall corners whose exponent pi / angle
+    is not whole and below p, e.g. 135 degrees, which :func:`_mesh` grades too)."""
 
     loops = list(section.loops) + [l for m in section.materials for l in (m.region,) + tuple(m.holes)]
     curved = any(isinstance(seg, Arc) for l in loops for seg in l.segments)
-    if curved or singular_corners(section):
+    if curved or singular_corners(section, order=p):
         return p + 1.0
     return 2.0 * p
 
