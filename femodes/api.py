@@ -37,7 +37,7 @@ MAX_MODES = 500
 
 
 def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, order=None,
-          mesh_size=None, max_iterations=6, frequency=None, evanescent=False):
+          mesh_size=None, max_iterations=6, frequency=None, evanescent=False, start_size=None):
     """The ``modes`` lowest-cutoff modes of a guide.
 
     Parameters
@@ -52,6 +52,9 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     order    : element order (default 4 for homogeneous guides, Lagrange 1..4; 3 for loaded
                guides, edge elements 1..3)
     mesh_size: fix the fine element size h (m) instead of choosing it from the accuracy
+    start_size: start the accuracy loop at this element size (m), e.g. the ``mesh_size`` of a
+               solve of a similar section (sweeps pass it from point to point); the accuracy
+               control is unchanged
     frequency, evanescent : for sections with material regions only: the modes of largest beta
                at ``frequency`` (evanescent ones too if asked); without a frequency such a
                section gives its lowest cutoffs
@@ -100,7 +103,9 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
                            "other methods of each mode at any frequency")
     if mesh_size is not None:
         mesh_size = positive_number("mesh_size", mesh_size, "m")
-    sol = solve_scalar(section, n_modes, accuracy, family, p, mesh_size, max_iterations)
+    if start_size is not None:
+        start_size = positive_number("start_size", start_size, "m")
+    sol = solve_scalar(section, n_modes, accuracy, family, p, mesh_size, max_iterations, start_size)
     return _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family)
 
 

@@ -23,6 +23,15 @@ def _rect_fc(a, b, count):
     return np.array(fcs[:count])
 
 
+def _agree(ds, other):
+    """Two runs of the same points agree within their error bars (a point may start its
+    accuracy loop from a different neighbour's mesh, so the last digits may differ), and the
+    points both computed from the same start are equal."""
+    diff = np.abs(ds.fc.values - other.fc.values)
+    assert np.all(diff <= ds.fc_error.values + other.fc_error.values)
+    assert list(ds.label.values.ravel()) == list(other.label.values.ravel())
+
+
 def test_grid_sweep_against_the_closed_form():
     r = fm.sweep(fm.rectangle, {}, {"width": WIDTHS, "height": HEIGHTS}, modes=3, accuracy=1e-6, workers=1)
     ds = r.to_xarray()
@@ -48,7 +57,7 @@ def test_resumed_sweep_equals_an_uninterrupted_one(tmp_path):
     again = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, modes=2, accuracy=1e-5,
                      store=store, workers=1)
     assert (again.reused, again.computed) == (2, 1)
-    np.testing.assert_allclose(again.to_xarray().fc.values, whole.to_xarray().fc.values, rtol=1e-12)
+    _agree(again.to_xarray(), whole.to_xarray())
 
 
 def test_interrupted_sweep_keeps_the_finished_points(tmp_path, monkeypatch):
@@ -56,11 +65,11 @@ def test_interrupted_sweep_keeps_the_finished_points(tmp_path, monkeypatch):
     real = S.solve_point
     calls = []
 
-    def interrupted(*args):
+    def interrupted(*args, **kw):
         if len(calls) == 2:
             raise KeyboardInterrupt  # Ctrl-C while the third point is solved
         calls.append(args)
-        return real(*args)
+        return real(*args, **kw)
 
     monkeypatch.setattr(S, "solve_point", interrupted)
     with pytest.raises(KeyboardInterrupt):
@@ -102,11 +111,11 @@ def test_local_processes_and_a_dask_cluster_give_the_same_numbers():
     kw = dict(modes=2, accuracy=1e-5)
     one = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, workers=1, **kw).to_xarray()
     two = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, workers=2, **kw).to_xarray()
-    np.testing.assert_allclose(two.fc.values, one.fc.values, rtol=1e-12)
+    _agree(two, one)
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cl:
         with distributed.Client(cl) as client:
             far = fm.sweep(fm.rectangle, {"height": 10.16e-3}, {"width": WIDTHS}, scheduler=client, **kw).to_xarray()
-    np.testing.assert_allclose(far.fc.values, one.fc.values, rtol=1e-12)
+    _agree(far, one)
     assert list(far.label.values[:, 0]) == ["TE10"] * 3
 
 

@@ -90,10 +90,13 @@ class ScalarSolution:
         return self.fine["n_dofs"]
 
 
-def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iterations=6):
+def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iterations=6, start_size=None):
     """The accuracy loop of a homogeneously filled Section: TE (Neumann) and TM (Dirichlet)
     eigenvalues kc^2 with Richardson error estimates, and the TEM potentials; see the module
-    docstring.  Arguments are checked by the caller (femodes.api.solve)."""
+    docstring.  Arguments are checked by the caller (femodes.api.solve).  ``start_size``: an
+    element size that met the accuracy on a similar section (a neighbouring sweep point): the loop
+    starts from it instead of from the error model, which usually saves the refinement steps; the
+    estimate and the stopping rule are the same."""
     fams = ("TE", "TM") if family is None else (family,)
     n_tem = len(section.holes) if family is None else 0
     want = max(0, n_modes - n_tem)
@@ -118,7 +121,11 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
     radius = (radius, grading)
 
     with single_thread():
-        if mesh_size is None:
+        if mesh_size is None and start_size is not None:
+            # a neighbour's final size: the pair (1.35 h, h) there, the coarsest mesh below it
+            h = min(float(start_size), section.size / 2)
+            h_coarse = 1.35 * h
+        elif mesh_size is None:
             # a cheap first pair, coarser than the error model asks (the model is pessimistic for
             # many modes); its Richardson estimate then sets the size of the next mesh
             h_coarse = min(3.0 * h, section.size / 2, 1.5 * _KH_MAX[p] / kc_max)

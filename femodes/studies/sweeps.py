@@ -7,7 +7,10 @@ single-mode band.  Each point is an ordinary :func:`femodes.solve` of the shape 
 point's parameters, so its numbers carry the same error estimates as a single solve.
 
 * Points run in parallel: on the local cores by default (separate processes: gmsh is not thread
-  safe), or on a dask.distributed cluster when ``scheduler`` names one (an address or a Client).
+  safe), or on a dask.distributed cluster when ``scheduler`` names one (an address or a Client),
+  in runs of neighbouring points: each point starts its accuracy loop from the element size that
+  met the accuracy at its neighbour (``femodes.solve(start_size=...)``), which saves most of the
+  refinement steps; its estimate and stopping rule are those of an independent solve.
 * With ``store`` (a file name) each finished point is written to disk at once
   (:class:`femodes.studies.store.SweepStore`): an interrupted sweep loses at most the points in
   flight, and the same sweep run again computes only the missing points (``reused`` and
@@ -227,18 +230,21 @@ def _key(point):
     return json.dumps([float(v) for v in point])
 
 
-def solve_point(shape, fixed, point, modes, accuracy, options):
+def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
     """Solve one point (in a worker): the section ``shape(**fixed, **point)`` and its cutoffs.
     Returns the result dict of :class:`SweepResult` (status 'invalid' with the shape's message
-    when the parameters make the geometry invalid)."""
+    when the parameters make the geometry invalid); ``mesh_size`` is the final element size, which
+    the next point may start from (``start_size``)."""
     t0 = time.perf_counter()
     out = {"status": "ok", "message": "", "fc": [], "fc_error": [], "label": [], "family": [], "band": None,
-           "n_dofs": 0, "seconds": 0.0}
+           "n_dofs": 0, "mesh_size": None, "seconds": 0.0}
     try:
         section = shape(**fixed, **point)
     except FemodesError as exc:
         out.update(status="invalid", message=str(exc))
         return out
+    if start_size is not None and not getattr(section, "materials", ()):
+        options = dict(options, start_size=start_size)
     ms = solve(section, modes=modes, accuracy=accuracy, **options)
     out["fc"] = [float(m.fc) for m in ms]
     out["fc_error"] = [float(m.fc_error) for m in ms]
@@ -250,7 +256,20 @@ def solve_point(shape, fixed, point, modes, accuracy, options):
     except (FemodesError, IndexError):
         out["band"] = None
     out["n_dofs"] = int(getattr(ms, "n_dofs", 0))
+    size = getattr(ms, "mesh_size", None)
+    out["mesh_size"] = None if size is None else float(size)
     out["seconds"] = time.perf_counter() - t0
+    return out
+
+
+def solve_points(shape, fixed, points, modes, accuracy, options):
+    """Solve neighbouring points in order (in one worker), each starting its accuracy loop from
+    the element size that met the accuracy at the previous one.  Returns the result dicts."""
+    out, size = [], None
+    for point in points:
+        r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
+        size = r["mesh_size"] or size
+        out.append(r)
     return out
 
 
@@ -320,35 +339,51 @@ def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, schedu
     return SweepResult(shape.__name__, fixed, names, values, modes, accuracy, points, reused, len(todo))
 
 
+def _blocks(todo, n):
+    """``todo`` cut into ``n`` runs of neighbouring points (grid order), as even as can be."""
+    n = max(1, min(n, len(todo)))
+    edges = np.linspace(0, len(todo), n + 1).round().astype(int)
+    return [todo[a:b] for a, b in zip(edges[:-1], edges[1:]) if b > a]
+
+
 def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers):
-    """Yield (point, result) as the points finish."""
-    args = [(shape, fixed, dict(zip(names, (float(v) for v in p))), modes, accuracy, options) for p in todo]
-    if not args:
+    """Yield (point, result) as the points finish: runs of neighbouring points, each run in one
+    worker so that a point starts from its neighbour's element size."""
+    if not todo:
         return
+
+    def kwargs(block):
+        return [dict(zip(names, (float(v) for v in p))) for p in block]
+
     if scheduler is not None:
-        yield from _run_dask(scheduler, todo, args)
+        yield from _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options)
         return
-    n = min(len(args), os.cpu_count() or 1) if workers is None else int(workers)
+    n = min(len(todo), os.cpu_count() or 1) if workers is None else int(workers)
     if n < 1:
         raise FemodesError(f"workers must be a whole number >= 1, got {workers!r}")
     if n == 1:
-        for p, a in zip(todo, args):
-            yield p, solve_point(*a)
+        size = None
+        for p, point in zip(todo, kwargs(todo)):
+            r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
+            size = r["mesh_size"] or size
+            yield p, r
         return
-    # separate processes started afresh (spawn): gmsh and the BLAS pools are per process
+    # separate processes started afresh (spawn): gmsh and the BLAS pools are per process; two runs
+    # per worker, so that a slow run does not leave a worker idle at the end
+    blocks = _blocks(todo, 2 * n)
     with ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("spawn")) as pool:
-        futures = {pool.submit(solve_point, *a): p for p, a in zip(todo, args)}
+        futures = {pool.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options): b for b in blocks}
         try:
             for fut in as_completed(futures):
-                yield futures[fut], fut.result()
+                yield from zip(futures[fut], fut.result())
         except BaseException:
             for fut in futures:
                 fut.cancel()
             raise
 
 
-def _run_dask(scheduler, todo, args):
-    """The points on a dask.distributed cluster (``scheduler``: an address or a Client)."""
+def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
+    """The runs of points on a dask.distributed cluster (``scheduler``: an address or a Client)."""
     try:
         from distributed import Client
         from distributed import as_completed as dask_completed
@@ -357,9 +392,12 @@ def _run_dask(scheduler, todo, args):
     own = not isinstance(scheduler, Client)
     client = Client(scheduler) if own else scheduler
     try:
-        futures = {client.submit(solve_point, *a, pure=False): p for p, a in zip(todo, args)}
+        n = max(1, len(client.scheduler_info().get("workers", {})))
+        blocks = _blocks(todo, 2 * n)
+        futures = {client.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, pure=False): b
+                   for b in blocks}
         for fut in dask_completed(list(futures)):
-            yield futures[fut], fut.result()
+            yield from zip(futures[fut], fut.result())
     finally:
         if own:
             client.close()
