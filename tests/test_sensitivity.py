@@ -69,13 +69,19 @@ def test_circle_every_mode_scales_as_one_over_radius():
         _check(s, "radius", i, -ref[i].fc / R, ref[i].fc / R)
 
 
-def test_relative_sensitivity_of_a_dilation():
-    # every cutoff of a shape scaled by t goes as 1 / t (lambda ~ 1 / size^2, common practice):
-    # the normalised sensitivities of an ellipse's two semi-axes sum to -1 for every mode
-    s = femodes.sensitivity(femodes.ellipse, {"a": 12e-3, "b": 8e-3}, modes=4, accuracy=ACC)
-    total = s.relative("a") + s.relative("b")
-    bound = s.dfc_error["a"] * 12e-3 / s.fc + s.dfc_error["b"] * 8e-3 / s.fc
-    assert np.all(np.abs(total + 1.0) <= bound)
+@pytest.mark.parametrize("shape,params", [
+    (femodes.ellipse, {"a": 12e-3, "b": 8e-3}),
+    (femodes.l_shape, {"width": 20e-3, "height": 16e-3, "notch_width": 9e-3, "notch_height": 7e-3}),
+    (femodes.rectangle, {"width": 20e-3, "height": 10e-3, "corner_radius": 1.5e-3}),
+], ids=["ellipse", "l_shape", "rounded_rectangle"])
+def test_normalised_sensitivities_of_all_lengths_sum_to_minus_one(shape, params):
+    # every cutoff of a shape scaled by t goes as 1 / t (lambda ~ 1 / size^2; Euler's relation for a
+    # function homogeneous of degree -1, common practice): sum over the lengths of (p / fc) d fc / d p = -1
+    s = femodes.sensitivity(shape, params, modes=4, accuracy=ACC)
+    assert set(s.dfc) == set(params)
+    total = sum(s.relative(n) for n in params)
+    bound = sum(s.dfc_error[n] * params[n] / s.fc for n in params)
+    assert np.all(np.abs(total + 1.0) <= bound), (total + 1.0, bound)
     assert np.all(np.abs(total + 1.0) <= ACC)
 
 
@@ -119,7 +125,7 @@ def test_double_ridge_against_finite_differences_of_independent_solves(params, n
 
 def test_zero_radius_and_offsets_are_skipped_with_a_reason():
     s = femodes.sensitivity(femodes.coaxial, {"outer_radius": 5e-3, "inner_radius": 2e-3}, modes=3, accuracy=1e-5)
-    assert set(s.dfc) == {"outer_radius", "inner_radius"}
+    assert set(s.dfc) == {"outer_radius", "inner_radius"} and "offset" in s.skipped
     assert s.modes[0].family == "TEM" and s.dfc["outer_radius"][0] == 0 and s.dfc["inner_radius"][0] == 0
     # TE11 of the coax: fc falls as either radius grows (its kc ~ 2 / (a + b), Pozar sec. 3.5)
     te11 = [i for i, m in enumerate(s.modes) if m.family == "TE"][0]

@@ -173,7 +173,9 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
                            "order p - 1 on the same mesh")
 
     # the velocity fields: shapes rebuilt at +/- delta, outline pieces matched one to one
-    moved, skipped = {}, {}
+    moved = {}
+    skipped = {k: "an offset or other pair: not differentiated" for k, v in values.items()
+               if isinstance(v, (tuple, list, np.ndarray))}
     for n in names:
         v = values[n]
         if n in DISCRETE_PARAMETERS:
