@@ -7,7 +7,7 @@ The pipeline, one subpackage per stage (each imports only the ones below it):
     modes       the mode model (Mode, ModeSet, LoadedMode, LoadedCutoff) and the names of modes
     api         the front door: solve(), dispersion(), study() choose the solver
     quantities  functions of a mode: wave quantities, band, losses, impedance, power handling
-    studies     (design studies: to come)
+    studies     design studies: sensitivity() (d fc / d parameter); sweeps and seeking to come
     report      tables, JSON documents, CSV and field files, figures
     case, cli   the case file (TOML) and the command line: the face
 
@@ -24,11 +24,12 @@ from femodes.geometry.section import Section
 from femodes.geometry.shapes import circle, coaxial, double_ridge, ellipse, l_shape, polygon, rectangle, rectangular_coax, ridged, sector, single_ridge
 from femodes.modes import LoadedCutoff, LoadedMode, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
-from femodes.studies import seek, sweep
+from femodes.studies import Sensitivity, seek, sensitivity, sweep
 
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet", "LoadedMode",
     "LoadedCutoff", "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
     "rectangular_coax", "ridged", "sector", "single_ridge", "solve", "dispersion", "study", "attenuation",
-    "impedance", "power_handling", "sweep", "seek", "C0", "EPS0", "ETA0", "MU0", "__version__",
+    "impedance", "power_handling", "sweep", "seek", "sensitivity", "Sensitivity", "C0", "EPS0", "ETA0", "MU0",
+    "__version__",
 ]

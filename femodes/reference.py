@@ -2149,3 +2149,19 @@ def right_isosceles_triangle_modes(leg: float, n: int) -> List[RefMode]:
         return out
 
     return _collect_first(n, max(_weyl_k(0.5 * leg**2, n), 2.0 / leg), below)
+
+
+# ---------------------------------------------------------------------------
+# Sensitivities of the rectangle's cutoffs
+# ---------------------------------------------------------------------------
+def rectangle_fc_derivatives(a: float, b: float, m: int, n: int) -> Tuple[float, float]:
+    """(d fc / d a, d fc / d b) in Hz/m of the TE_mn / TM_mn mode of an a x b rectangular guide
+    (vacuum filling), from fc = (C0 / 2) sqrt((m / a)^2 + (n / b)^2) (Pozar, "Microwave
+    Engineering", sec. 3.3):  d fc / d a = -(C0 / 2) (m^2 / a^3) / sqrt((m / a)^2 + (n / b)^2),
+    and the same with n, b for d fc / d b.  TE10: d fc / d a = -C0 / (2 a^2), d fc / d b = 0."""
+    a = _check_length("a", a)
+    b = _check_length("b", b)
+    root = math.hypot(m / a, n / b)
+    if root == 0:
+        raise ValueError("m and n must not both be zero")
+    return -0.5 * C0 * m * m / a ** 3 / root, -0.5 * C0 * n * n / b ** 3 / root
