@@ -24,12 +24,12 @@ from femodes.geometry.section import Section
 from femodes.geometry.shapes import circle, coaxial, double_ridge, ellipse, l_shape, polygon, rectangle, rectangular_coax, ridged, sector, single_ridge
 from femodes.modes import LoadedCutoff, LoadedMode, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
-from femodes.studies import Sensitivity, seek, sensitivity, sweep
+from femodes.studies import Sensitivity, Tolerance, seek, sensitivity, sweep, tolerance
 
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet", "LoadedMode",
     "LoadedCutoff", "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
     "rectangular_coax", "ridged", "sector", "single_ridge", "solve", "dispersion", "study", "attenuation",
-    "impedance", "power_handling", "sweep", "seek", "sensitivity", "Sensitivity", "C0", "EPS0", "ETA0", "MU0",
+    "impedance", "power_handling", "sweep", "seek", "sensitivity", "Sensitivity", "tolerance", "Tolerance", "C0", "EPS0", "ETA0", "MU0",
     "__version__",
 ]

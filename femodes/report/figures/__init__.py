@@ -27,8 +27,8 @@ arrows and text stay vectors.
 
 from femodes.report.figures.charts import attenuation_chart, band_chart, dispersion_chart, mode_chart
 from femodes.report.figures.common import safe_name
-from femodes.report.figures.design import design_curves, design_map
+from femodes.report.figures.design import design_curves, design_map, tolerance_histogram
 from femodes.report.figures.fields import field_pattern, field_patterns, field_samples, loaded_field_pattern
 
 __all__ = ["field_pattern", "field_patterns", "field_samples", "mode_chart", "attenuation_chart", "band_chart",
-           "dispersion_chart", "loaded_field_pattern", "safe_name", "design_curves", "design_map"]
+           "dispersion_chart", "loaded_field_pattern", "safe_name", "design_curves", "design_map", "tolerance_histogram"]

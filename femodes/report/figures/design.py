@@ -16,7 +16,7 @@ import numpy as np
 from femodes.errors import FemodesError
 from femodes.report.figures.common import _new_figure, _save, _style
 
-__all__ = ["design_curves", "design_map"]
+__all__ = ["design_curves", "design_map", "tolerance_histogram"]
 
 _PARAM_SCALE = {"angle": (180.0 / np.pi, "deg")}
 
@@ -118,6 +118,36 @@ def design_map(result, path=None, *, quantity="fc1", target=None, dpi=200):
     shown = tz is not None and np.nanmin(z) < tz < np.nanmax(z)
     ax.set_title(f"{label} ({ds.attrs.get('shape', '')})" + (f"\nbold: the target {tz:.6g}" if shown else ""),
                  fontsize=11)
+    if path is not None:
+        _save(fig, path, dpi)
+    return fig
+
+
+def tolerance_histogram(result, path=None, *, quantities=("f_low", "f_high", "ratio"), bins=60, dpi=200):
+    """Histograms of the Monte Carlo changes of ``quantities`` under the tolerances of a
+    :func:`femodes.tolerance` result (MHz for frequencies, the ratio as is), with the linear
+    worst case drawn as dashed lines and the dimension that contributes most named in each
+    panel.  Returns the Figure (saved to ``path`` if given)."""
+    names = list(result.names)
+    missing = [q for q in quantities if q not in names]
+    if missing:
+        raise FemodesError(f"unknown quantities {', '.join(missing)}; have: {', '.join(names)}")
+    st = _style()
+    fig = _new_figure(3.2 * len(quantities) + 0.8, 3.6)
+    axes = np.atleast_1d(fig.subplots(1, len(quantities)))
+    for ax, q in zip(axes, quantities):
+        j = names.index(q)
+        scale, unit = (1.0, "") if q == "ratio" else (1e-6, " (MHz)")
+        ax.hist(result.samples[:, j] * scale, bins=bins, color=st["family"]["TE"][1], alpha=0.85)
+        w = result.worst[j] * scale
+        for s in (-w, w):
+            ax.axvline(s, color=st["band_edge"], ls="--", lw=1.2)
+        top = result.contributions[q][0]
+        ax.set_title(f"{q}: nominal {result.nominal[j] * (1.0 if q == 'ratio' else 1e-9):.6g}"
+                     f"{'' if q == 'ratio' else ' GHz'}\nmost from {top[0]} ({100 * top[1]:.0f} %)", fontsize=9)
+        ax.set_xlabel(f"change{unit}")
+        ax.grid(alpha=0.3)
+    axes[0].set_ylabel("samples")
     if path is not None:
         _save(fig, path, dpi)
     return fig
