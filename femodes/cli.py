@@ -5,6 +5,7 @@
                             [--frequency F] [--band F1 F2] [--conductor NAME|S/m]
     femodes sweep CASE.toml [--json] [--csv PATH] [--netcdf PATH] [--store PATH] [--workers N]
                             [--scheduler ADDRESS] [--figure PATH] [--modes N] [--accuracy X]
+    femodes seek | sensitivity | tolerance CASE.toml [--json] [--modes N] [--accuracy X] [--figure PATH]
     femodes shapes
     femodes --version
 
@@ -22,6 +23,7 @@ import time
 import warnings
 
 from femodes.case import FORMATS, load_case, run_case, shapes_help
+from femodes.case.studies import run_seek, run_sensitivity, run_tolerance
 from femodes.case.sweep import run_sweep
 from femodes.constants import __version__
 from femodes.errors import FemodesError
@@ -35,7 +37,7 @@ from femodes.report import (
     write_fields,
     write_figures,
 )
-from femodes.report.sweeps import sweep_document, sweep_table
+from femodes.report.sweeps import seek_table, sensitivity_table, study_document, sweep_document, sweep_table, tolerance_table
 
 __all__ = ["main"]
 
@@ -101,6 +103,17 @@ def _parser():
                    "dominant cutoff (two) to PATH (.png, .svg, .pdf)")
     w.add_argument("--modes", metavar="N", help="number of modes per point (overrides [solve] modes)")
     w.add_argument("--accuracy", metavar="X", help="relative accuracy of the cutoffs (overrides [solve] accuracy)")
+    for verb, what in (("seek", "find the [seek] table's free parameters that meet its targets"),
+                       ("sensitivity", "d fc / d parameter of every mode for every [guide] dimension"),
+                       ("tolerance", "the spread of the cutoffs and band under the [tolerance] table's tolerances")):
+        v = sub.add_parser(verb, help=what, description=what[0].upper() + what[1:] + ", for the guide of a case "
+                           "file (its [solve] modes and accuracy).")
+        v.add_argument("case", metavar="CASE.toml", help="the case file")
+        v.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
+        v.add_argument("--modes", metavar="N", help="number of modes (overrides [solve] modes)")
+        v.add_argument("--accuracy", metavar="X", help="relative accuracy (overrides [solve] accuracy)")
+        if verb == "tolerance":
+            v.add_argument("--figure", metavar="PATH", help="write the histograms of the band edges and the ratio")
     sub.add_parser("shapes", help="list the shapes a case file can use and their keys",
                    description="List the shapes of the [guide] table and the keys each one takes.")
     return p
@@ -125,11 +138,13 @@ def main(argv=None) -> int:
             return _solve(args)
         if args.command == "sweep":
             return _sweep(args)
+        if args.command in ("seek", "sensitivity", "tolerance"):
+            return _study(args)
         if args.command == "shapes":
 
             print(shapes_help())
             return 0
-        return _fail("choose a command: solve, sweep or shapes (see 'femodes --help')")
+        return _fail("choose a command: solve, sweep, seek, sensitivity, tolerance or shapes (see 'femodes --help')")
     except FemodesError as exc:
         return _fail(str(exc))
     except KeyboardInterrupt:
@@ -173,6 +188,35 @@ def _sweep(args):
         print(json.dumps(doc, indent=2, allow_nan=False))
         return 0
     sys.stdout.write(sweep_table(result, title=case.title, labels=labels, seconds=seconds))
+    for p in written:
+        print(f"wrote {p}")
+    return 0
+
+
+def _study(args):
+    case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy)
+    kind = args.command
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        if kind == "seek":
+            result, labels = run_seek(case), case.seek.labels if case.seek else {}
+        elif kind == "sensitivity":
+            result, labels = run_sensitivity(case), {}
+        else:
+            result, labels = run_tolerance(case), case.tolerance.labels if case.tolerance else {}
+    _print_warnings(caught)
+    written = []
+    if kind == "tolerance" and args.figure:
+        os.environ.setdefault("MPLBACKEND", "Agg")
+        figures.tolerance_histogram(result, args.figure)
+        written.append(args.figure)
+    if args.json:
+        doc = study_document(kind, result, labels=labels, title=case.title)
+        doc["files"] = written
+        print(json.dumps(doc, indent=2, allow_nan=False))
+        return 0
+    table = {"seek": seek_table, "sensitivity": sensitivity_table, "tolerance": tolerance_table}[kind]
+    sys.stdout.write(table(result, labels=labels, title=case.title))
     for p in written:
         print(f"wrote {p}")
     return 0

@@ -40,3 +40,48 @@ def test_a_target_out_of_reach_says_how_close_the_bounds_come():
         fm.seek(fm.rectangle, {}, {"width": (20e-3, 30e-3)}, {"fc1": 7e9, "fc2": 12e9})
     with pytest.raises(FemodesError, match="unknown target"):
         fm.seek(fm.rectangle, {"height": 1e-2}, {"width": (20e-3, 30e-3)}, {"cutoff": 7e9})
+
+
+STUDY_CASE = """[guide]
+shape = "rectangle"
+width = 22.86
+height = 10.16
+[solve]
+modes = 3
+accuracy = 1e-7
+[seek]
+width = [15.0, 30.0]
+fc1 = 6.5
+[tolerance]
+width = 0.05
+height = 0.03
+samples = 2000
+"""
+
+
+def _cli(capsys, *argv):
+    import json
+
+    from femodes.cli import main
+
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    assert code == 0, err
+    return json.loads(out) if "--json" in argv else out
+
+
+def test_study_commands_against_the_rectangle(tmp_path, capsys):
+    # Pozar sec. 3.3: fc_10 = c / (2a), d fc_10 / d a = -c / (2 a^2), d fc_01 / d b = -c / (2 b^2)
+    case = tmp_path / "r.toml"
+    case.write_text(STUDY_CASE, encoding="utf-8")
+    doc = _cli(capsys, "seek", str(case), "--json")
+    a = C0 / (2 * 6.5e9)
+    assert abs(doc["values"]["width"] - a) <= doc["errors"]["width"]
+    doc = _cli(capsys, "sensitivity", str(case), "--json")
+    d, e = doc["dfc"]["width"][0], doc["dfc_error"]["width"][0]
+    assert abs(d + C0 / (2 * 22.86e-3 ** 2)) <= e
+    doc = _cli(capsys, "tolerance", str(case), "--json")
+    j = doc["quantities"].index("fc1")
+    assert doc["worst"][j] == pytest.approx(C0 / (2 * 22.86e-3 ** 2) * 50e-6, rel=1e-5)
+    text = _cli(capsys, "tolerance", str(case))
+    assert "worst case" in text and "width" in text

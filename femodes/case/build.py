@@ -32,6 +32,7 @@ from femodes.case.schema import (
     UNITS,
 )
 from femodes.case.settings import AnalysisSettings, Case, OutputSettings, _check_figures_apply
+from femodes.case.studies import build_seek, build_tolerance
 from femodes.case.sweep import build_sweep
 from femodes.case.values import (
     _accuracy,
@@ -182,8 +183,10 @@ def _build_case(data, base_dir, path):
         analysis = _build_analysis(an, tan_delta)
     _check_figures_apply(out, analysis, "in the case file", loaded)
     sweep = build_sweep(_table(data, "sweep"), guide, base_dir) if "sweep" in data else None
+    seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
+    tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
-                tan_delta=tan_delta, sweep=sweep)
+                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol)
 
 
 def _build_analysis(an, tan_delta):

@@ -176,7 +176,7 @@ SHAPES = {
 
 
 # the other tables: key -> (type check, default)
-_TOP_KEYS = ("title", "guide", "region", "fill", "solve", "analysis", "output", "sweep")
+_TOP_KEYS = ("title", "guide", "region", "fill", "solve", "analysis", "output", "sweep", "seek", "tolerance")
 
 
 _REGION_KEYS = ("eps_r", "mu_r", "tan_delta", "name")

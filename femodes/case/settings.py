@@ -92,6 +92,8 @@ class Case:
     analysis: AnalysisSettings | None = None
     tan_delta: float = 0.0
     sweep: object = None  # femodes.case.sweep.SweepSettings of a [sweep] table, or None
+    seek: object = None  # femodes.case.studies.SeekSettings of a [seek] table, or None
+    tolerance: object = None  # femodes.case.studies.ToleranceSettings of a [tolerance] table, or None
 
     @property
     def loaded(self):

@@ -122,6 +122,7 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, **optio
     need = max([int(k[2:]) for k in goals if k.startswith("fc")] + [2])
     n_modes = need + 2 if modes is None else modes
     count = [0]
+    last = {}  # the element size that met the accuracy at the previous point: the next starts there
 
     def evaluate(point):
         params = dict(parameters, **point)
@@ -131,7 +132,10 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, **optio
             raise FemodesError(f"the shape refuses {', '.join(f'{k} = {v:.6g}' for k, v in point.items())} inside "
                                f"the bounds: {exc}; narrow the bounds") from None
         count[0] += 1
-        return _quantities(solve(section, modes=n_modes, accuracy=accuracy, **options), goals)
+        ms = solve(section, modes=n_modes, accuracy=accuracy, start_size=last.get("h"), **options)
+        if getattr(ms, "mesh_size", None):
+            last["h"] = ms.mesh_size
+        return _quantities(ms, goals)
 
     names = list(bounds)
     if len(names) == 1:

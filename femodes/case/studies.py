@@ -1,0 +1,159 @@
+"""The [seek] and [tolerance] tables of a case file, and running them with the [guide] shape.
+
+    [seek]                         # the free parameters and their bounds, in the [guide] units,
+    ridge_width = [4.0, 14.0]      # and the targets in GHz (fcN the N-th cutoff, f_high the top of
+    fc1 = 1.7                      # the single-mode band) or, for ratio, the single-mode ratio
+
+    [tolerance]                    # +- tolerance of each dimension, in the [guide] units
+    gap = 0.02
+    ridge_width = 0.02
+    samples = 20000                # optional: Monte Carlo draws (default 20000)
+    distribution = "uniform"       # optional: "uniform" (default) or "normal" (tolerance = 3 sigma)
+
+The fixed parameters are the [guide] table's; the guide's placement does not change a cutoff.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
+from femodes.case.values import _check_keys, _count, _number, _show
+from femodes.errors import FemodesError
+from femodes.studies import seek, sensitivity, tolerance
+
+__all__ = ["SeekSettings", "ToleranceSettings", "build_seek", "build_tolerance", "run_seek", "run_sensitivity",
+           "run_tolerance"]
+
+_TOLERANCE_KEYS = ("samples", "distribution")
+
+
+@dataclass(frozen=True)
+class SeekSettings:
+    """[seek], SI: ``bounds`` parameter -> (low, high) (m or rad); ``targets`` name -> Hz (the
+    ratio as is); ``labels`` parameter -> its case-file key."""
+
+    bounds: dict
+    targets: dict
+    labels: dict
+
+
+@dataclass(frozen=True)
+class ToleranceSettings:
+    """[tolerance], SI: ``tolerances`` parameter -> +- value (m or rad); ``samples``,
+    ``distribution``; ``labels`` parameter -> its case-file key."""
+
+    tolerances: dict
+    labels: dict
+    samples: int = 20000
+    distribution: str = "uniform"
+
+
+def _shape_keys(guide, table):
+    shape = guide.get("shape")
+    if shape == "mesh" or shape not in SHAPES or SHAPES[shape].build is None:
+        raise FemodesError(f"[{table}] works on the parameters of a built-in shape; a mesh file has none")
+    return {k.name: k for k in SHAPES[shape].keys if k.kind in (LENGTH, ANGLE)}, UNITS[guide.get("units", "mm")]
+
+
+def _factor(key, scale):
+    return math.pi / 180.0 if key.kind == ANGLE else scale
+
+
+def _is_target(name):
+    return name in ("f_high", "ratio") or (name.startswith("fc") and name[2:].isdigit())
+
+
+def build_seek(table, guide):
+    """SeekSettings from the [seek] table and the [guide] table."""
+    keys, scale = _shape_keys(guide, "seek")
+    bounds, targets, labels = {}, {}, {}
+    for name, value in table.items():
+        where = f"{name} in [seek]"
+        if _is_target(name):
+            v = _number(where, value)
+            targets[name] = v if name == "ratio" else v * 1e9
+        elif name in keys:
+            if not isinstance(value, list) or len(value) != 2:
+                raise FemodesError(f"{where} must be its bounds [low, high] in the [guide] units, got {_show(value)}")
+            key = keys[name]
+            lo, hi = (_number(where, v) * _factor(key, scale) for v in value)
+            bounds[key.target] = (lo, hi)
+            labels[key.target] = name
+        else:
+            _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio"), "[seek]")
+    if not bounds or not targets:
+        raise FemodesError("[seek] needs the free parameters with their bounds (e.g. ridge_width = [4, 14]) and "
+                           "the targets (e.g. fc1 = 1.7, GHz)")
+    return SeekSettings(bounds, targets, labels)
+
+
+def build_tolerance(table, guide):
+    """ToleranceSettings from the [tolerance] table and the [guide] table."""
+    keys, scale = _shape_keys(guide, "tolerance")
+    _check_keys(table, tuple(keys) + _TOLERANCE_KEYS, "[tolerance]",
+                shown=[f"{k} (a [guide] key)" for k in keys] + list(_TOLERANCE_KEYS))
+    tol, labels = {}, {}
+    for name, value in table.items():
+        if name in _TOLERANCE_KEYS:
+            continue
+        v = _number(f"{name} in [tolerance]", value)
+        if v < 0:
+            raise FemodesError(f"{name} in [tolerance] is a +- tolerance and must be >= 0, got {_show(value)}")
+        tol[keys[name].target] = v * _factor(keys[name], scale)
+        labels[keys[name].target] = name
+    if not tol:
+        raise FemodesError("[tolerance] names no dimension: give [guide] keys with their +- tolerances, e.g. gap = 0.02")
+    samples = _count("samples in [tolerance]", table["samples"]) if "samples" in table else 20000
+    dist = table.get("distribution", "uniform")
+    if dist not in ("uniform", "normal"):
+        raise FemodesError(f"distribution in [tolerance] must be \"uniform\" or \"normal\", got {_show(dist)}")
+    return ToleranceSettings(tol, labels, samples, dist)
+
+
+def _shape_and_fixed(case, free=()):
+    if case.loaded:
+        raise FemodesError("design studies of guides with [[region]] tables are not supported yet")
+    if not hasattr(case.section, "kind") or case.section.kind not in SHAPES:
+        raise FemodesError("design studies need a built-in shape in [guide]")
+    fixed = {k: v for k, v in case.section.params.items() if k not in free}
+    return SHAPES[case.section.kind].build, fixed
+
+
+def _options(case):
+    opts = {k: v for k, v in case.solve.items() if k in ("eps_r", "mu_r", "family", "order")}
+    if "accuracy" in case.solve:
+        opts["accuracy"] = case.solve["accuracy"]
+    return opts
+
+
+def run_seek(case):
+    """:func:`femodes.seek` of the case's [seek] table."""
+    if case.seek is None:
+        raise FemodesError("the case file has no [seek] table: add one with the free parameters' bounds and the "
+                           "targets")
+    shape, fixed = _shape_and_fixed(case, case.seek.bounds)
+    kw = _options(case)
+    if "modes" in case.solve:
+        kw["modes"] = case.solve["modes"]
+    return seek(shape, fixed, case.seek.bounds, case.seek.targets, **kw)
+
+
+def run_sensitivity(case):
+    """:func:`femodes.sensitivity` of the case's guide."""
+    shape, fixed = _shape_and_fixed(case)
+    kw = _options(case)
+    kw["modes"] = case.solve.get("modes", 6)
+    return sensitivity(shape, fixed, **kw)
+
+
+def run_tolerance(case):
+    """:func:`femodes.tolerance` of the case's [tolerance] table."""
+    if case.tolerance is None:
+        raise FemodesError("the case file has no [tolerance] table: add one with the +- tolerance of each dimension")
+    shape, fixed = _shape_and_fixed(case)
+    kw = _options(case)
+    kw["modes"] = case.solve.get("modes", 6)
+    t = case.tolerance
+    return tolerance(shape, fixed, t.tolerances, samples=t.samples, distribution=t.distribution, **kw)
