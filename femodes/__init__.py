@@ -21,7 +21,20 @@ from femodes.constants import C0, EPS0, ETA0, MU0, __version__
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import Mesh, mesh_section, read_mesh, write_mesh
 from femodes.geometry.section import Section
-from femodes.geometry.shapes import circle, coaxial, double_ridge, ellipse, l_shape, polygon, rectangle, rectangular_coax, ridged, sector, single_ridge
+from femodes.geometry.shapes import (
+    circle,
+    coaxial,
+    double_ridge,
+    ellipse,
+    l_shape,
+    polygon,
+    rectangle,
+    rectangular_coax,
+    ridged,
+    sector,
+    single_ridge,
+    standard,
+)
 from femodes.modes import LoadedCutoff, LoadedMode, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
 from femodes.studies import Sensitivity, Tolerance, seek, sensitivity, sweep, tolerance
@@ -29,7 +42,7 @@ from femodes.studies import Sensitivity, Tolerance, seek, sensitivity, sweep, to
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet", "LoadedMode",
     "LoadedCutoff", "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
-    "rectangular_coax", "ridged", "sector", "single_ridge", "solve", "dispersion", "study", "attenuation",
+    "rectangular_coax", "ridged", "sector", "single_ridge", "standard", "solve", "dispersion", "study", "attenuation",
     "impedance", "power_handling", "sweep", "seek", "sensitivity", "Sensitivity", "tolerance", "Tolerance", "C0", "EPS0", "ETA0", "MU0",
     "__version__",
 ]

@@ -87,6 +87,7 @@ FILE = "file"            # a path string, relative to the case file
 
 
 AXIS = "axis"            # "x" or "y"
+NAME = "name"            # a designation string, e.g. "WR-90"
 
 
 _KIND_TEXT = {
@@ -97,6 +98,7 @@ _KIND_TEXT = {
     LOOPS: "a list of lists of [x, y] pairs",
     FILE: "a file path (string)",
     AXIS: '"x" or "y"',
+    NAME: 'a designation (string), e.g. "WR-90"',
 }
 
 
@@ -147,6 +149,8 @@ COMMON = ("shape", "units")
 SHAPES = {
     "rectangle": ShapeSpec(_sec.rectangle, (_L("width"), _L("height")), (_L("corner_radius"),),
                            doc="width (x) by height (y), centred at the origin"),
+    "standard": ShapeSpec(_sec.standard, (Key("designation", NAME, doc='EIA rectangular guide, e.g. "WR-90"'),),
+                          (_L("corner_radius"),), doc="a standard rectangular guide by its designation (WR-650 .. WR-3)"),
     "circle": ShapeSpec(_sec.circle, (_L("radius"),), doc="circle centred at the origin"),
     "ellipse": ShapeSpec(_sec.ellipse, (_L("a", doc="semi-axis along x"), _L("b", doc="semi-axis along y")),
                          doc="ellipse with semi-axes a (x) and b (y)"),
@@ -208,7 +212,7 @@ _OUTPUT_KEYS = ("figures", "format", "directory", "field_count")
 def _key_text(k):
     return {LENGTH: k.name, ANGLE: f"{k.name} (degrees)", POINT: f"{k.name} = [dx, dy]",
             POINTS: f"{k.name} = [[x, y], ...]", LOOPS: f"{k.name} = [[[x, y], ...], ...]",
-            FILE: f'{k.name} = "path"', AXIS: f'{k.name} = "x" | "y"'}[k.kind]
+            FILE: f'{k.name} = "path"', AXIS: f'{k.name} = "x" | "y"', NAME: f'{k.name} = "WR-90"'}[k.kind]
 
 
 def shapes_help():

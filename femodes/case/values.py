@@ -7,7 +7,7 @@ from __future__ import annotations
 import difflib
 import math
 
-from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, POINT, POINTS
+from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, NAME, POINT, POINTS
 from femodes.errors import FemodesError
 from femodes.quantities import METALS, conductivity_of
 
@@ -85,6 +85,10 @@ def _convert(key, value, scale, units, table="[guide]"):
         return [_points(f"{key.name}[{i}] in {table}", h, scale, units) for i, h in enumerate(value)]
     if key.kind == AXIS:
         return _choice(where, value, ("x", "y"))
+    if key.kind == NAME:
+        if not isinstance(value, str) or not value.strip():
+            raise FemodesError(f"{where} must be {_KIND_TEXT[NAME]}, got {_show(value)}")
+        return value
     raise AssertionError(key.kind)
 
 

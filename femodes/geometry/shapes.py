@@ -13,6 +13,7 @@ import numpy as np
 from femodes.errors import FemodesError, check_nonnegative, check_positive
 from femodes.geometry.loops import Arc, Line, Loop, _filleted_loop, _full_ellipse_loop, _polygon_loop
 from femodes.geometry.section import Section
+from femodes.geometry.standards import standard_size
 
 
 def rectangle(width, height, corner_radius=0.0):
@@ -228,3 +229,11 @@ def polygon(vertices, holes=()):
             loops.append(_polygon_loop(hv))
     # drop collinear vertices so that no spurious 180-degree corners are reported
     return Section(_polygon_loop(v), tuple(loops), "polygon", {})
+
+
+def standard(designation, corner_radius=0.0):
+    """The standard rectangular guide ``designation`` ('WR-90', 'WR-62', ...): a :func:`rectangle`
+    of its inner dimensions (:mod:`femodes.geometry.standards`; EIA sizes, from memory), with
+    ``corner_radius`` for a milled one."""
+    a, b, _ = standard_size(designation)
+    return rectangle(a, b, corner_radius)

@@ -8,6 +8,7 @@ import math
 import numpy as np
 
 from femodes.constants import C0, __version__
+from femodes.geometry.standards import find_standard, standard_size
 from femodes.quantities import NP_TO_DB, modal_impedances, pair_impedances
 from femodes.report.analysis import PERTURBATION_LIMIT, as_study, sweep_name
 from femodes.report.text import (
@@ -314,6 +315,11 @@ def analysis_table(an, study=None) -> str:
             r1, r2 = b.recommended
             lines.append(f"recommended operating band: {r1 / 1e9:.5g} - {r2 / 1e9:.5g} GHz (rule of thumb 1.25 fc1 .. "
                          "0.95 fc2, common practice; not a standard)")
+        std = _standard_of(study) if study is not None else None
+        if std is not None:
+            name, (s1, s2) = std
+            lines.append(f"{name} (EIA standard size): its recommended band {s1 / 1e9:.4g} - {s2 / 1e9:.4g} GHz "
+                         "(the standard's table, from memory)")
     if an.sweep is not None:
         fs = an.sweep.frequencies
         lines.append(f"analysis band: {_f_ghz(fs[0])} - {_f_ghz(fs[-1])} GHz, {fs.size} points")
@@ -350,6 +356,15 @@ def analysis_table(an, study=None) -> str:
         for c in an.cautions:
             lines += _wrap(c, "  - ", "    ")
     return "\n".join(lines).rstrip("\n") + "\n"
+
+
+def _standard_of(study):
+    """(designation, recommended band Hz) when the section is an empty rectangle of a standard size."""
+    sec = study.section
+    if study.loaded or getattr(sec, "kind", None) not in ("rectangle", "rounded_rectangle"):
+        return None
+    name = find_standard(sec.params["width"], sec.params["height"])
+    return None if name is None else (name, standard_size(name)[2])
 
 
 def _regions_text(study):
