@@ -14,6 +14,7 @@ would be valid.
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -94,6 +95,7 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
         return _mode_set(sol, None, n_modes, eps_r, mu_r, accuracy, family)
     if not isinstance(section, Section):
         raise FemodesError(f"solve() needs a section (e.g. femodes.rectangle(...)) or a mesh, got {type(section).__name__}")
+    _check_scale(section)
     if section.materials:
         return _loaded_modes(section, n_modes, frequency, eps_r, mu_r, accuracy, order=order,
                              evanescent=evanescent)[0]
@@ -107,6 +109,24 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
         start_size = positive_number("start_size", start_size, "m")
     sol = solve_scalar(section, n_modes, accuracy, family, p, mesh_size, max_iterations, start_size)
     return _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family)
+
+
+#: outlines beyond these sizes (m) get a warning: implausible for a microwave guide
+SCALE_LIMITS = (10e-6, 1.0)
+
+
+def _check_scale(section):
+    """Warn (never refuse) when the section's size is implausible for a microwave guide: most
+    often millimetres typed into the SI (metres) call."""
+    size = section.size
+    lo, hi = SCALE_LIMITS
+    if size > hi:
+        warnings.warn(f"femodes: the section is {size:.4g} m across, implausibly large for a microwave guide: "
+                      f"femodes takes metres; if these were millimetres, that is {size * 1e-3:.4g} m (e.g. "
+                      "femodes.rectangle(22.86e-3, 10.16e-3))", UserWarning, stacklevel=3)
+    elif size < lo:
+        warnings.warn(f"femodes: the section is {size:.4g} m across ({size * 1e6:.4g} um), implausibly small for "
+                      "a microwave guide: femodes takes metres", UserWarning, stacklevel=3)
 
 
 def _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family):

@@ -84,6 +84,8 @@ def _parser():
                    "power handling) at F GHz (overrides [analysis] frequency)")
     s.add_argument("--band", nargs=2, metavar=("F1", "F2"), help="sweep the attenuation from F1 to F2 GHz; the "
                    "quantities are printed at the band centre unless --frequency is given (overrides [analysis] band)")
+    s.add_argument("--verbose", action="store_true", help="show the refinement loop (mesh size, unknowns, "
+                   "error estimate at each step) on stderr")
     s.add_argument("--conductor", metavar="NAME|S/m", help="wall metal (copper, silver, gold, aluminium, brass, "
                    "stainless steel) or its conductivity in S/m (overrides [analysis] conductor)")
     w = sub.add_parser("sweep", help="solve a case file at every point of its [sweep] table",
@@ -238,6 +240,8 @@ def _fail(message):
 
 
 def _solve(args):
+    if args.verbose:
+        os.environ["FEMODES_DEBUG"] = "1"
 
     case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
                                              fmt=args.format, no_figures=args.no_figures, frequency=args.frequency,

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import math
 import os
+import warnings
 from dataclasses import replace
 
 from femodes.api import study
@@ -167,6 +168,10 @@ def _build_case(data, base_dir, path):
         out = replace(out, directory=d)
     if "field_count" in ov:
         out = replace(out, field_count=_count("field_count in [output]", ov["field_count"]))
+    if ov and "figures" not in ov and ("directory" in ov or "format" in ov):
+        warnings.warn("femodes: [output] names a directory or format but no figures, so none are written: add "
+                      'figures = ["fields", "chart", ...] to [output] (or pass --figures DIR)', UserWarning,
+                      stacklevel=2)
 
     if loaded and "family" in solve:
         raise FemodesError("family in [solve] does not apply to a guide with [[region]] tables: its modes "

@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import math
 import os
+import sys
 import warnings
 from dataclasses import dataclass
 
@@ -198,8 +199,10 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
 
 
 def _debug(msg):
+    """The refinement loop, step by step, on stderr when FEMODES_DEBUG is set (the command line's
+    --verbose sets it)."""
     if os.environ.get("FEMODES_DEBUG"):
-        print("femodes:", msg)
+        print("femodes:", msg, file=sys.stderr)
 
 
 def _initial_size(accuracy, p, kc_max, size):

@@ -1,0 +1,45 @@
+"""What a new user trips over (common practice: the messages must say what was done, in the
+user's own terms): millimetres typed into the SI call, an [output] table with no figures, and a
+way to watch the refinement."""
+
+import warnings
+
+import pytest
+
+import femodes as fm
+from femodes.case import parse_case
+
+
+def test_millimetres_typed_into_the_si_call_get_a_warning_not_a_refusal():
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        ms = fm.solve(fm.rectangle(22.86, 10.16), modes=1, accuracy=1e-4)
+    text = " ".join(str(w.message) for w in caught)
+    assert "22.86 m across" in text and "millimetres" in text and "22.86e-3" in text
+    assert ms[0].label == "TE10"  # solved all the same
+
+
+def test_an_ordinary_guide_gets_no_scale_warning():
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        fm.solve(fm.rectangle(22.86e-3, 10.16e-3), modes=1, accuracy=1e-4)
+
+
+def test_output_directory_without_figures_warns():
+    with pytest.warns(UserWarning, match="no figures"):
+        parse_case('[guide]\nshape = "circle"\nradius = 5\n[output]\ndirectory = "out"\n')
+
+
+def test_verbose_shows_the_refinement_on_stderr(tmp_path, capsys, monkeypatch):
+    from femodes.cli import main
+
+    monkeypatch.delenv("FEMODES_DEBUG", raising=False)
+    case = tmp_path / "c.toml"
+    case.write_text('[guide]\nshape = "circle"\nradius = 5\n[solve]\nmodes = 2\naccuracy = 1e-4\n', encoding="utf-8")
+    try:
+        assert main(["solve", str(case), "--no-figures", "--verbose", "--json"]) == 0
+    finally:
+        monkeypatch.delenv("FEMODES_DEBUG", raising=False)
+    out, err = capsys.readouterr()
+    assert "iteration 0" in err and "worst estimate" in err
+    assert out.lstrip().startswith("{")  # the JSON on stdout stays clean
