@@ -238,7 +238,7 @@ def test_missing_keys_are_listed(tmp_path):
     ('[guide]\nshape = "circle"\nradius = 5\n[solve]\nmodes = 0\n', ["modes in [solve]", "whole number >= 1", "0"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[solve]\nfamily = "te"\n', ["'TE', 'TM'", "did you mean 'TE'?"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[solve]\norder = 7\n', ["1, 2, 3, 4", "7"]),
-    ('[guide]\nshape = "circle"\nradius = 5\n[solve]\naccuracy = -1\n', ["between 0 and 1", "-1"]),
+    ('[guide]\nshape = "circle"\nradius = 5\n[solve]\naccuracy = -1\n', ["from 1e-11", "up to 0.1", "-1"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[fill]\neps_r = 0\n', ["eps_r in [fill]", "positive", "0"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[fill]\nmu_r = -2.0\n', ["mu_r in [fill]", "-2.0"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[output]\nfigures = ["field"]\n', ["did you mean 'fields'?"]),
@@ -257,7 +257,7 @@ def test_geometry_errors_pass_through(tmp_path):
     msg = error_of(tmp_path, '[guide]\nshape = "double_ridge"\nwidth = 22\nheight = 10\nridge_width = 5\ngap = 12\n')
     assert "gap (12 mm) must be smaller than the guide height (10 mm)" in msg
     msg = error_of(tmp_path, '[guide]\nshape = "circle"\nradius = -5\n')
-    assert "radius" in msg and "positive" in msg
+    assert "radius" in msg and "must not be negative" in msg and "(mm)" in msg
 
 
 def test_bad_toml_reports_the_line(tmp_path):

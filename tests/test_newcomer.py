@@ -43,3 +43,27 @@ def test_verbose_shows_the_refinement_on_stderr(tmp_path, capsys, monkeypatch):
     out, err = capsys.readouterr()
     assert "iteration 0" in err and "worst estimate" in err
     assert out.lstrip().startswith("{")  # the JSON on stdout stays clean
+
+
+@pytest.mark.parametrize("body, words", [
+    ('[guide]\nshape = "circle"\nradius = -5\n', ["radius in [guide]", "-5 (mm)"]),
+    ('[guide]\nshape = "circle"\nunits = "in"\nradius = 0\n', ["in metres", "lengths are in in"]),
+    ('[guide]\nshape = "circle"\nradius = 5\n[analysis]\nfrequency = "ten"\n', ["`frequency_units`"]),
+    ('[guide]\nshape = "circle"\nradius = 5\n[solve]\naccuracy = 0\n', ["from 1e-11", "up to 0.1", "[solve]"]),
+    ('[guide]\nshape = "circle"\nradius = 5\n[solve]\naccuracy = 0.5\n', ["from 1e-11", "up to 0.1", "[solve]"]),
+    ('[guide]\nshape = "circle"\nradius = 5\n[solve]\nmodes = 100000\n', ["modes in [solve]", "at most 500"]),
+    ('[guide]\nshape = "circle"\nradius = 5\n[[region]]\nshape = "circle"\nradius = 1\noffset = [100, 0]\neps_r = 2\n',
+     ["offset = [dx, dy] in mm"]),
+])
+def test_case_file_messages_speak_the_case_file(tmp_path, body, words):
+    from femodes import FemodesError
+    from femodes.case import load_case
+
+    path = tmp_path / "m.toml"
+    path.write_text(body, encoding="utf-8")
+    with pytest.raises(FemodesError) as exc:
+        load_case(path)
+    msg = str(exc.value)
+    assert str(path.name) in msg and ".translated" not in msg
+    for w in words:
+        assert w in msg, (w, msg)

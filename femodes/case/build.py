@@ -9,7 +9,7 @@ import os
 import warnings
 from dataclasses import replace
 
-from femodes.api import study
+from femodes.api import MAX_MODES, study
 from femodes.case.schema import (
     _ANALYSIS_KEYS,
     _ELSEWHERE,
@@ -135,6 +135,9 @@ def _build_case(data, base_dir, path):
     _check_keys(sv, _SOLVE_KEYS, "[solve]")
     if "modes" in sv:
         solve["modes"] = _count("modes in [solve]", sv["modes"])
+        if solve["modes"] > MAX_MODES:
+            raise FemodesError(f"modes in [solve] is at most {MAX_MODES} (more than this solver is meant for), "
+                               f"got {solve['modes']}")
     if "accuracy" in sv:
         solve["accuracy"] = _accuracy("accuracy in [solve]", sv["accuracy"])
     if "family" in sv:
@@ -316,7 +319,9 @@ def _shape_from(guide, shape, spec, scale, units, where):
         if "offset" in moves:
             sec = sec.translated(*moves["offset"])
     except FemodesError as exc:
-        raise FemodesError(f"{where} {shape}: {exc}") from None
+        # the shape speaks SI (metres): say so, since the case file's lengths are in `units`
+        raise FemodesError(f"{where} {shape}: {exc} (the shape checks in metres; the case file's lengths are in "
+                           f"{units})") from None
     return sec
 
 
@@ -367,7 +372,9 @@ def _build_region(table, number, units, section):
     try:
         return section.with_material(region, **vals)
     except FemodesError as exc:
-        raise FemodesError(f"{where}: {exc}") from None
+        # the library's advice speaks Python: a case file places a region with its offset key
+        text = str(exc).replace("use .translated(dx, dy)", f"give the {where} table offset = [dx, dy] in {units}")
+        raise FemodesError(f"{where}: {text}") from None
 
 
 def _region_material(table, where):

@@ -24,7 +24,7 @@ def _decimal_scale(value, scale):
 
 
 def _frequency_value(where, value, units, scale):
-    v = _number(where, value, f"a frequency in {units} (number)")
+    v = _number(where, value, f"a frequency in {units} (number)", unit_key="frequency_units")
     if v <= 0:
         raise FemodesError(f"{where} must be a positive frequency in {units}, got {_show(value)}")
     return _decimal_scale(v, scale)
@@ -71,7 +71,10 @@ def _conductor_value(where, value):
 def _convert(key, value, scale, units, table="[guide]"):
     where = f"{key.name} in {table}"
     if key.kind == LENGTH:
-        return _number(where, value, f"a length in {units}") * scale
+        v = _number(where, value, f"a length in {units}")
+        if v < 0:
+            raise FemodesError(f"{where} is a length and must not be negative, got {_show(value)} ({units})")
+        return v * scale
     if key.kind == ANGLE:
         return math.radians(_number(where, value, "an angle in degrees"))
     if key.kind == POINT:
@@ -135,11 +138,11 @@ def _is_number(v):
     return isinstance(v, (int, float)) and not isinstance(v, bool)
 
 
-def _number(where, value, what="a number"):
+def _number(where, value, what="a number", unit_key="units"):
     if not _is_number(value):
         hint = ""
         if isinstance(value, str):
-            hint = " (write the number without quotes; the unit is set by `units`)"
+            hint = f" (write the number without quotes; the unit is set by `{unit_key}`)"
         raise FemodesError(f"{where} must be {what}, got {_show(value)}{hint}")
     v = float(value)
     if not math.isfinite(v):
@@ -163,11 +166,16 @@ def _count(where, value):
     return value
 
 
+#: the accuracies the solvers take (relative error on the cutoffs): one statement of the range
+ACCURACY_RANGE = (1e-11, 0.1)
+
+
 def _accuracy(where, value):
     v = _number(where, value, "a relative error (number), e.g. 1e-6")
-    if not (0 < v < 1):
-        raise FemodesError(f"{where} is a relative error on the cutoffs and must lie between 0 and 1 "
-                           f"(e.g. 1e-6), got {_show(value)}")
+    lo, hi = ACCURACY_RANGE
+    if not (lo <= v < hi):
+        raise FemodesError(f"{where} is a relative error on the cutoffs and must lie from {lo:g} (the double-precision "
+                           f"floor) up to {hi:g} (e.g. 1e-6), got {_show(value)}")
     return v
 
 
