@@ -67,3 +67,26 @@ def test_case_file_messages_speak_the_case_file(tmp_path, body, words):
     assert str(path.name) in msg and ".translated" not in msg
     for w in words:
         assert w in msg, (w, msg)
+
+
+def test_an_interrupted_write_leaves_the_old_file_whole(tmp_path, monkeypatch):
+    # every output goes to a temporary name and is moved into place when complete (femodes.atomic)
+    from femodes import report as R
+    from femodes.report import files
+
+    ms = fm.solve(fm.rectangle(22.86e-3, 10.16e-3), modes=2, accuracy=1e-4)
+    path = tmp_path / "modes.csv"
+    R.write_csv(ms, path)
+    before = path.read_text()
+
+    def broken(rows):
+        raise KeyboardInterrupt  # Ctrl-C while the rows are written
+
+    monkeypatch.setattr(files.csv, "writer", lambda *a, **k: type("W", (), {"writerows": staticmethod(broken)})())
+    with pytest.raises(KeyboardInterrupt):
+        R.write_csv(ms, path)
+    assert path.read_text() == before and not list(tmp_path.glob(".*part-*"))
+    monkeypatch.undo()
+    figure = tmp_path / "chart.png"
+    R.figures.mode_chart(ms, figure)
+    assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and not list(tmp_path.glob(".*part-*"))

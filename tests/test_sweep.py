@@ -154,7 +154,7 @@ def test_sweep_files_round_trip(tmp_path):
     rows = list(csv.DictReader(open(r.to_csv(tmp_path / "s.csv"), encoding="utf-8")))
     assert len(rows) == 4 and rows[0]["label"] == "TE10" and rows[0]["mode"] == "1"
     assert float(rows[0]["fc_Hz"]) == ds.fc.values[0, 0] and float(rows[0]["width"]) == WIDTHS[0]
-    assert not list(tmp_path.glob("*.part-*"))  # written whole, then moved into place
+    assert not list(tmp_path.glob(".*.part-*"))  # written whole, then moved into place
 
 
 def test_design_figures_are_written(tmp_path):

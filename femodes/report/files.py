@@ -12,6 +12,7 @@ import meshio
 import numpy as np
 
 from femodes import quantities as Q
+from femodes.atomic import replacing
 from femodes.constants import C0
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import triangle_regions
@@ -162,8 +163,11 @@ def write_fields(result, path, subdivisions=None, frequency=None):
         eps = np.full(n_cells, float(study.eps_r))
     xyz = np.column_stack([xy[0], xy[1], np.zeros_like(xy[0])])
     try:
-        meshio.write(str(path), meshio.Mesh(xyz, [("triangle", tri)], point_data=data,
-                                            cell_data={"region": [regions], "eps_r": [eps]}))
+        with replacing(path, "field") as tmp:
+            meshio.write(str(tmp), meshio.Mesh(xyz, [("triangle", tri)], point_data=data,
+                                               cell_data={"region": [regions], "eps_r": [eps]}))
+    except FemodesError:
+        raise
     except Exception as exc:  # meshio raises its own types for unknown formats
         raise FemodesError(f"cannot write field file {path}: {exc}; use a name ending in .vtu or .xdmf") from None
     return str(path)
@@ -193,8 +197,5 @@ def _put_phasors(data, mode, F):
 
 
 def _write_text(path, text, what):
-    try:
-        with open(path, "w", encoding="utf-8") as fh:
-            fh.write(text)
-    except OSError as exc:
-        raise FemodesError(f"cannot write {what} file {path}: {exc.strerror or exc}") from None
+    with replacing(path, what) as tmp, open(tmp, "w", encoding="utf-8") as fh:
+        fh.write(text)

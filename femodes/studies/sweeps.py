@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes.api import _check_count, solve
+from femodes.atomic import replacing
 from femodes.errors import FemodesError
 from femodes.studies.store import SweepStore
 
@@ -152,18 +153,9 @@ class SweepResult:
 
 
 def _replace_file(path, data, what):
-    """Write ``data`` (bytes) to a temporary file beside ``path``, then move it into place: an
-    interrupted write leaves the old file or the whole new one."""
-    path = os.fspath(path)
-    tmp = f"{path}.part-{os.getpid()}"
-    try:
-        with open(tmp, "wb") as fh:
-            fh.write(bytes(data))
-        os.replace(tmp, path)
-    except OSError as exc:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise FemodesError(f"cannot write {what} file {path}: {exc.strerror or exc}") from None
+    """Write ``data`` (bytes) to ``path`` whole (femodes.atomic.replacing)."""
+    with replacing(path, what) as tmp, open(tmp, "wb") as fh:
+        fh.write(bytes(data))
     return str(path)
 
 

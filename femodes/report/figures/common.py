@@ -7,6 +7,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
+from femodes.atomic import replacing
 from femodes.errors import FemodesError
 
 
@@ -61,7 +62,8 @@ def _save(fig, path, dpi=200):
     path.parent.mkdir(parents=True, exist_ok=True)
     kw = {"dpi": dpi} if fmt == "png" else {"dpi": 150}   # dpi of the embedded colour image in svg/pdf
     meta = {"Creator": "femodes"} if fmt in ("svg", "pdf") else {"Software": "femodes"}
-    fig.savefig(path, format=fmt, metadata=meta, **kw)
+    with replacing(path, "figure") as tmp:  # written whole, then moved into place
+        fig.savefig(tmp, format=fmt, metadata=meta, **kw)
     return path
 
 
