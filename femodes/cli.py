@@ -68,8 +68,7 @@ def _parser():
                        "its modes (GHz, mm); with an [analysis] table (or --frequency / --band) also the "
                        "propagation, loss (dB/m), impedance (ohm) and power handling (kW, MW) of the modes, "
                        "with the cautions that go with power figures.  Options override the case file.")
-    s.add_argument("case", metavar="CASE.toml", help="the case file")
-    s.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
+    _common(s, "the case file")
     s.add_argument("--csv", metavar="PATH", help="also write the modes to a CSV file (SI units)")
     s.add_argument("--fields", metavar="PATH", help="also write the mesh with every mode's fields (e.g. "
                    "guide.vtu for ParaView; SI units, normalised)")
@@ -77,9 +76,6 @@ def _parser():
                    "[output] directory)")
     s.add_argument("--no-figures", action="store_true", help="write no figures, whatever the case file asks")
     s.add_argument("--format", choices=FORMATS, help="figure file format (overrides [output] format)")
-    s.add_argument("--modes", metavar="N", help="number of modes (overrides [solve] modes)")
-    s.add_argument("--accuracy", metavar="X", help="relative accuracy of the cutoffs, e.g. 1e-6 "
-                   "(overrides [solve] accuracy)")
     s.add_argument("--frequency", metavar="F", help="print the engineering quantities (loss, impedance, "
                    "power handling) at F GHz (overrides [analysis] frequency)")
     s.add_argument("--band", nargs=2, metavar=("F1", "F2"), help="sweep the attenuation from F1 to F2 GHz; the "
@@ -93,8 +89,7 @@ def _parser():
                        "the guide at every point (in parallel), and print the cutoffs and the single-mode band "
                        "of each point.  With a store, every finished point is kept on disk and a second run "
                        "computes only the missing points.")
-    w.add_argument("case", metavar="CASE.toml", help="the case file, with a [sweep] table")
-    w.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
+    _common(w, "the case file, with a [sweep] table")
     w.add_argument("--csv", metavar="PATH", help="also write the points to a CSV file (one row per point and mode)")
     w.add_argument("--netcdf", metavar="PATH", help="also write the points as a netCDF file (xarray)")
     w.add_argument("--store", metavar="PATH", help="keep every finished point in PATH and resume from it "
@@ -103,22 +98,26 @@ def _parser():
     w.add_argument("--scheduler", metavar="ADDRESS", help="run the points on a dask.distributed scheduler")
     w.add_argument("--figure", metavar="PATH", help="write the design curves (one parameter) or the map of the "
                    "dominant cutoff (two) to PATH (.png, .svg, .pdf)")
-    w.add_argument("--modes", metavar="N", help="number of modes per point (overrides [solve] modes)")
-    w.add_argument("--accuracy", metavar="X", help="relative accuracy of the cutoffs (overrides [solve] accuracy)")
     for verb, what in (("seek", "find the [seek] table's free parameters that meet its targets"),
                        ("sensitivity", "d fc / d parameter of every mode for every [guide] dimension"),
                        ("tolerance", "the spread of the cutoffs and band under the [tolerance] table's tolerances")):
         v = sub.add_parser(verb, help=what, description=what[0].upper() + what[1:] + ", for the guide of a case "
                            "file (its [solve] modes and accuracy).")
-        v.add_argument("case", metavar="CASE.toml", help="the case file")
-        v.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
-        v.add_argument("--modes", metavar="N", help="number of modes (overrides [solve] modes)")
-        v.add_argument("--accuracy", metavar="X", help="relative accuracy (overrides [solve] accuracy)")
+        _common(v, "the case file")
         if verb == "tolerance":
             v.add_argument("--figure", metavar="PATH", help="write the histograms of the band edges and the ratio")
     sub.add_parser("shapes", help="list the shapes a case file can use and their keys",
                    description="List the shapes of the [guide] table and the keys each one takes.")
     return p
+
+
+def _common(parser, case_help):
+    """The case file and the options every command takes: --json, --modes, --accuracy."""
+    parser.add_argument("case", metavar="CASE.toml", help=case_help)
+    parser.add_argument("--json", action="store_true", help="print a JSON document (SI units) instead of the table")
+    parser.add_argument("--modes", metavar="N", help="number of modes (overrides [solve] modes)")
+    parser.add_argument("--accuracy", metavar="X", help="relative accuracy of the cutoffs, e.g. 1e-6 "
+                        "(overrides [solve] accuracy)")
 
 
 def main(argv=None) -> int:
