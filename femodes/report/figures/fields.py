@@ -12,6 +12,7 @@ import numpy as np
 from femodes.errors import FemodesError
 from femodes.modes.loaded import LoadedMode
 from femodes.report.figures.common import _ghz, _new_figure, _save, _style, safe_name
+from femodes.report.figures.raster import fill_edges, sample_on_grid
 from femodes.solvers.fields import _transverse
 
 
@@ -226,9 +227,8 @@ def _wall_distance(px, py, loops):
     return best
 
 
-def _draw_panel(ax, data, comp, outer, holes, *, arrows, lines, density, cmap, vmax, note):
+def _draw_panel(ax, data, comp, outer, holes, *, arrows, lines, density, cmap, vmax, note, pixels=900):
     """One colour map + arrows + outline panel on ``ax``; returns the colour mappable."""
-    import matplotlib.tri as mtri
     from matplotlib.patches import PathPatch, Polygon
     from matplotlib.path import Path as MPath
 
@@ -236,20 +236,25 @@ def _draw_panel(ax, data, comp, outer, holes, *, arrows, lines, density, cmap, v
     mm = 1e3
     x, y, t = data["x"] * mm, data["y"] * mm, data["t"]
     u, v = (data["ex"], data["ey"]) if comp == "E" else (data["hx"], data["hy"])
-    mag = np.hypot(u, v)
-    tri = mtri.Triangulation(x, y, t)
-    shown = np.minimum(mag / vmax, 1.0)
-    pc = ax.tripcolor(tri, shown, shading="gouraud", cmap=cmap, vmin=0.0, vmax=1.0, rasterized=True)
-    pc.set_gid(f"magnitude-{comp}")
-
     ox, oy = outer[0] * mm, outer[1] * mm
     xmin, xmax, ymin, ymax = ox.min(), ox.max(), oy.min(), oy.max()
+    # the colours: one image of the linear interpolant on a grid of about ``pixels`` along the
+    # larger extent (the plotting triangulation is much finer than a pixel near graded corners)
+    step = max(xmax - xmin, ymax - ymin) / float(pixels)
+    gx = np.arange(xmin + 0.5 * step, xmax, step)
+    gy = np.arange(ymin + 0.5 * step, ymax, step)
+    # the vector is interpolated and its length taken per pixel (a zero of the field stays a zero)
+    gu, gv = sample_on_grid(x, y, t, [u / vmax, v / vmax], gx, gy)
+    img = np.ma.masked_invalid(fill_edges(np.minimum(np.hypot(gu, gv), 1.0)))
+    pc = ax.imshow(img, origin="lower", extent=(gx[0] - 0.5 * step, gx[-1] + 0.5 * step, gy[0] - 0.5 * step,
+                                                gy[-1] + 0.5 * step),
+                   cmap=cmap, vmin=0.0, vmax=1.0, interpolation="bilinear", zorder=1)
+    pc.set_gid(f"magnitude-{comp}")
+
     if arrows or lines:
         xs, ys, d = _grid(xmin, xmax, ymin, ymax, density)
         X, Y = np.meshgrid(xs, ys)
-        finder = tri.get_trifinder()
-        U = mtri.LinearTriInterpolator(tri, u / vmax, trifinder=finder)(X, Y)
-        V = mtri.LinearTriInterpolator(tri, v / vmax, trifinder=finder)(X, Y)
+        U, V = sample_on_grid(x, y, t, [u / vmax, v / vmax], xs, ys)
         U = np.ma.masked_invalid(U)
         V = np.ma.masked_invalid(V)
         inside = ~(np.ma.getmaskarray(U) | np.ma.getmaskarray(V))
@@ -293,8 +298,9 @@ def _draw_panel(ax, data, comp, outer, holes, *, arrows, lines, density, cmap, v
     wall = np.vstack([frame, loop, loop[:1]])
     codes = ([MPath.MOVETO] + [MPath.LINETO] * 3 + [MPath.CLOSEPOLY] +
              [MPath.MOVETO] + [MPath.LINETO] * (loop.shape[0] - 1) + [MPath.CLOSEPOLY])
-    ax.add_patch(PathPatch(MPath(wall, codes), facecolor=st["metal"], edgecolor="none", zorder=4,
-                           gid="outer-metal"))
+    # add_artist: the frame reaches far beyond the axes limits (set below) and must not widen them
+    ax.add_artist(PathPatch(MPath(wall, codes), facecolor=st["metal"], edgecolor="none", zorder=4,
+                            gid="outer-metal", transform=ax.transData))
     ax.plot(np.append(ox, ox[0]), np.append(oy, oy[0]), color=st["outline"], lw=st["outline_width"],
             solid_joinstyle="round", zorder=5, gid="outline")
     for k, h in enumerate(holes):
