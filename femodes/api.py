@@ -23,8 +23,9 @@ from femodes.constants import C0
 from femodes.errors import FemodesError, positive_number
 from femodes.geometry.mesh import Mesh
 from femodes.geometry.section import Section
+from femodes.modes.display import at_frequency_html, cutoff_html, fill_text, html_lines, list_repr, section_text
 from femodes.modes.labels import build_modes
-from femodes.modes.loaded import LoadedCutoff, LoadedMode
+from femodes.modes.loaded import LoadedCutoff, LoadedMode, LoadedModes
 from femodes.modes.model import ModeSet
 from femodes.modes.parents import _parents
 from femodes.solvers.discretise import ELEMENT_ORDERS
@@ -198,7 +199,7 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
             fc = o.frequency
             label = f"{fam}-type from {parent}" if parent else f"{fam}-type {counts[fam]}"
             out.append(LoadedCutoff(fam, label, fc, float(fc * err[i] / (2 * vals[i])), len(out), parent, share))
-    return tuple(out), sol.problem
+    return LoadedModes(out), sol.problem
 
 
 def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
@@ -339,6 +340,46 @@ class Study:
         if len(self.modes) < 2:
             return None
         return (self.modes[0].fc, self.modes[1].fc)
+
+    # -- display -----------------------------------------------------------------------------------
+    def __repr__(self):
+        kind = getattr(self.section, "kind", None)
+        extra = (f" of a {kind} section" if kind else " of a mesh") + (" with material regions" if self.loaded else "")
+        if self.frequency is not None:
+            extra += f", at {self.frequency / 1e9:.6g} GHz"
+        if self.dispersion is not None:
+            fs = self.dispersion.frequencies
+            extra += f", dispersion {fs[0] / 1e9:.6g} - {fs[-1] / 1e9:.6g} GHz"
+        return list_repr("Study", self.modes, extra, limit=4)
+
+    def _repr_html_(self):
+        """The study as a notebook shows it: the cutoff table (the columns and units of
+        :func:`femodes.report.modes_table`), the modes at the frequency for a loaded guide (the
+        columns of the report's table at a frequency that the modes themselves know) and a line
+        on the dispersion; the full text report is ``femodes.report.report_table(study)`` (with the
+        losses and power handling of ``femodes.report.analyse``)."""
+        acc = f"accuracy asked {self.accuracy:.1e}; unknowns {self.n_dofs}"
+        fill = fill_text(self.eps_r, self.mu_r) + (f", tan_delta = {self.tan_delta:.3g}" if self.tan_delta else "")
+        if self.loaded:
+            regions = "; ".join(f"{m.name or f'region {i}'}: eps_r = {m.eps_r:g}"
+                                for i, m in enumerate(getattr(self.section, "materials", ()), start=1))
+            fill += f"; regions: {regions}" if regions else ""
+        parts = [cutoff_html(self.modes, self.loaded, caption=f"study of {section_text(self.section)}",
+                             before=[fill, acc + (f"; {self.family} modes only" if self.family else "")],
+                             family=self.family)]
+        if self.frequency is not None and self.loaded and self.at_frequency:
+            parts.append(at_frequency_html(self.at_frequency, caption=f"at f = {self.frequency / 1e9:.6g} GHz"))
+        elif self.frequency is not None:
+            prop = [m.label for m in self.modes if m.propagates(self.frequency)]
+            parts.append(html_lines([f"at f = {self.frequency / 1e9:.6g} GHz: propagating "
+                                     + (", ".join(prop) if prop else "none")]))
+        if self.dispersion is not None:
+            d = self.dispersion
+            fs = d.frequencies
+            parts.append(html_lines([f"dispersion: {fs.size} frequencies {fs[0] / 1e9:.6g} - {fs[-1] / 1e9:.6g} GHz, "
+                                     f"{d.beta.shape[1]} curves ({', '.join(lab or '?' for lab in d.labels)})"]))
+        parts.append(html_lines(["full text report: femodes.report.report_table(study)"]))
+        return "".join(parts)
 
 
 #: the old name of :class:`Study` (loaded guides only)

@@ -7,7 +7,7 @@ degenerate groups); :mod:`.parents` names a loaded mode after the empty-guide mo
 The model knows nothing of the quantities computed from it or of output.
 """
 
-from femodes.modes.loaded import LoadedCutoff, LoadedMode
+from femodes.modes.loaded import LoadedCutoff, LoadedMode, LoadedModes
 from femodes.modes.model import Mode, ModeSet
 
-__all__ = ["Mode", "ModeSet", "LoadedMode", "LoadedCutoff"]
+__all__ = ["Mode", "ModeSet", "LoadedMode", "LoadedCutoff", "LoadedModes"]

@@ -12,6 +12,7 @@ import numpy as np
 
 from femodes.constants import C0, MU0
 from femodes.errors import FemodesError
+from femodes.modes.display import _g, at_frequency_html, cutoff_html, fc_short, list_repr
 
 
 @dataclass(frozen=True, eq=False)
@@ -136,6 +137,20 @@ class LoadedMode:
         """(E_x, E_y, E_z, H_x, H_y, H_z) at points (2, n); see VectorMode.fields."""
         return self.vector.fields(points)
 
+    # -- display -----------------------------------------------------------------------------------
+    def __repr__(self):
+        b = complex(self.beta_value)
+        what = (f"beta = {_g(b.real, 7)} rad/m" if b.imag == 0 and b.real > 0 else
+                f"beta = {_g(b.real, 4)}{'-' if b.imag < 0 else '+'}j{_g(abs(b.imag), 4)} rad/m")
+        return f"<LoadedMode #{self.index + 1} {self.label} ({self.family}) at {self.frequency / 1e9:.6g} GHz: {what}>"
+
+    def _repr_html_(self):
+        """The mode's row of the table at its frequency (beta with its error, guide wavelength,
+        eps_eff, v_p, v_g, longitudinal shares), for a notebook; its field pattern:
+        ``femodes.field_pattern(mode)``."""
+        return at_frequency_html([self], caption=f"mode #{self.index + 1} at {self.frequency / 1e9:.6g} GHz: "
+                                 f"{self.label}", after=("field pattern: femodes.field_pattern(mode)",))
+
 
 @dataclass(frozen=True, eq=False)
 class LoadedCutoff:
@@ -160,6 +175,13 @@ class LoadedCutoff:
     def rel_error(self):
         return self.fc_error / self.fc if self.fc > 0 else 0.0
 
+    def __repr__(self):
+        return f"<LoadedCutoff #{self.index + 1} {self.label}: fc = {fc_short(self)}>"
+
+    def _repr_html_(self):
+        """The cutoff's row of the cutoff table, for a notebook."""
+        return cutoff_html([self], True, caption=f"cutoff #{self.index + 1}: {self.label}", band=False)
+
     @property
     def family(self):
         """'hybrid': above its cutoff a loaded-guide mode has both E_z and H_z in general; the
@@ -183,3 +205,21 @@ class LoadedCutoff:
     indices = None
     degenerate_with = ()
     multiplicity = 1
+
+
+class LoadedModes(tuple):
+    """What :func:`femodes.solve` returns for a guide with material regions: a plain tuple of
+    :class:`LoadedMode` (at a frequency) or :class:`LoadedCutoff` (without), which a notebook
+    shows as a table (the columns of the text report's)."""
+
+    __slots__ = ()
+
+    def __repr__(self):
+        if self and isinstance(self[0], LoadedMode):
+            return list_repr("LoadedModes", self, f" at {self[0].frequency / 1e9:.6g} GHz")
+        return list_repr("LoadedModes", self, " (cutoffs)")
+
+    def _repr_html_(self):
+        if self and isinstance(self[0], LoadedMode):
+            return at_frequency_html(self, caption=f"{len(self)} modes at {self[0].frequency / 1e9:.6g} GHz")
+        return cutoff_html(self, True, caption=f"{len(self)} cutoffs of the loaded guide")

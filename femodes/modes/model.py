@@ -27,6 +27,7 @@ import numpy as np
 
 from femodes.constants import C0, EPS0, MU0
 from femodes.errors import FemodesError
+from femodes.modes.display import cutoff_html, fc_short, fill_text, list_repr, section_text
 from femodes.solvers.fields import ModeField, _transverse
 
 __all__ = ["Mode", "ModeSet"]
@@ -206,6 +207,16 @@ class Mode:
     def summary(self):
         return f"{self.label}: fc = {self.fc / 1e9:.6f} GHz (+/- {self.fc_error / 1e9:.1e})"
 
+    # -- display -----------------------------------------------------------------------------------
+    def __repr__(self):
+        return f"<Mode #{self.index + 1} {self.label} ({self.family}): fc = {fc_short(self)}>"
+
+    def _repr_html_(self):
+        """The mode's row of the cutoff table (the columns of :func:`femodes.report.modes_table`) for
+        a notebook; its field pattern: ``femodes.field_pattern(mode)``."""
+        return cutoff_html([self], False, caption=f"mode #{self.index + 1}: {self.label}", band=False,
+                           after=("field pattern: femodes.field_pattern(mode)",))
+
 
 class ModeSet(tuple):
     """The modes of one solve, ascending in cutoff: a tuple of :class:`Mode` with extras.
@@ -226,6 +237,24 @@ class ModeSet(tuple):
             return self.info[name]
         except KeyError:
             raise AttributeError(name) from None
+
+    def __repr__(self):
+        sec = self.info.get("section")
+        where = f" of a {sec.kind} section" if hasattr(sec, "kind") else " of a mesh" if self.info.get("mesh") else ""
+        return list_repr("ModeSet", self, where, limit=4)
+
+    def _repr_html_(self):
+        """The cutoff table (the columns and units of :func:`femodes.report.modes_table`: GHz to the
+        first digit of each error, mm) with the single-mode band under it, for a notebook."""
+        section = self.info.get("section") or self.info.get("mesh")
+        acc = self.info.get("accuracy")
+        family = self.info.get("family")
+        before = [fill_text(self.info.get("eps_r", 1.0), self.info.get("mu_r", 1.0))
+                  + (f"; accuracy asked {acc:.1e} (relative, on kc)" if acc is not None else "")
+                  + (f"; unknowns {self.info['n_dofs']}" if "n_dofs" in self.info else "")
+                  + (f"; {family} modes only" if family else "")]
+        return cutoff_html(self, False, caption=f"{len(self)} modes of {section_text(section)}", before=before,
+                           family=family)
 
     def by_label(self, label):
         """All modes with this label (a degenerate pair gives two)."""

@@ -7,13 +7,10 @@ from __future__ import annotations
 import math
 
 from femodes.constants import __version__
-from femodes.report.text import _finite, _grid, format_ghz
+from femodes.modes.display import fixed_text, sweep_columns
+from femodes.report.text import _finite, _grid
 
 __all__ = ["sweep_table", "sweep_document", "seek_table", "sensitivity_table", "tolerance_table", "study_document"]
-
-
-def _param_text(name, value):
-    return f"{math.degrees(value):.6g}" if name == "angle" else f"{value * 1e3:.6g}"
 
 
 def sweep_table(result, title=None, labels=None, seconds=None) -> str:
@@ -24,32 +21,12 @@ def sweep_table(result, title=None, labels=None, seconds=None) -> str:
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""),
              f"sweep of {result.shape}: " + ", ".join(
                  f"{labels.get(n, n)} ({len(v)} values)" for n, v in zip(result.names, result.values))
-             + "; fixed: " + (", ".join(f"{k} = {_param_text(k, v)}" + ("" if k == "angle" else " mm")
-                                        for k, v in result.parameters.items() if isinstance(v, float)) or "-"),
+             + "; fixed: " + fixed_text(result),
              f"accuracy asked: {result.accuracy:.1e} (relative, on each cutoff); modes per point: {result.modes}", ""]
-    unit = {n: "deg" if n == "angle" else "mm" for n in result.names}
-    head = [f"{labels.get(n, n)} [{unit[n]}]" for n in result.names]
-    head += [f"fc{k + 1} [GHz]" for k in range(result.modes)] + ["single-mode band [GHz]", "ratio"]
-    rows, notes = [], []
-    for key, r in result.points.items():
-        row = [_param_text(n, v) for n, v in zip(result.names, key)]
-        if r["status"] != "ok":
-            row += ["-"] * result.modes + ["invalid", "-"]
-            notes.append(f"  {', '.join(row[:len(result.names)])}: {r['message']}")
-        else:
-            fcs = [format_ghz(f, e) for f, e in zip(r["fc"], r["fc_error"])]
-            row += fcs + ["-"] * (result.modes - len(fcs))
-            band = r["band"]
-            if band is None:
-                row += ["-", "-"]
-            else:
-                row += [f"{band[0] / 1e9:.5g} - {band[1] / 1e9:.5g}",
-                        f"{band[1] / band[0]:.4f}" if band[0] > 0 else "TEM"]
-        rows.append(row)
-    order = sorted(range(len(rows)), key=lambda i: list(result.points)[i])
-    lines += _grid(head, [rows[i] for i in order], set(range(len(head) - 2)) | {len(head) - 1})
+    head, rows, right, notes = sweep_columns(result, labels)  # the same columns as the notebook's HTML
+    lines += _grid(head, rows, right)
     if notes:
-        lines += ["", "invalid points (the shape refused the parameters):"] + notes
+        lines += ["", "invalid points (the shape refused the parameters):"] + [f"  {n}" for n in notes]
     total = result.reused + result.computed
     lines += ["", f"{total} points: {result.reused} from the store, {result.computed} computed"
               + (f" in {seconds:.1f} s" if seconds is not None else "")]

@@ -9,12 +9,10 @@ import numpy as np
 
 from femodes.constants import C0, __version__
 from femodes.geometry.standards import find_standard, standard_size
+from femodes.modes.display import band_text, cutoff_columns
 from femodes.quantities import NP_TO_DB, modal_impedances, pair_impedances
 from femodes.report.analysis import PERTURBATION_LIMIT, as_study, sweep_name
 from femodes.report.text import (
-    _band,
-    _degenerate_text,
-    _err_text,
     _f_ghz,
     _g,
     _grid,
@@ -23,9 +21,7 @@ from femodes.report.text import (
     _share,
     _sig_digits,
     _significant,
-    _symmetry_text,
     _wrap,
-    format_ghz,
     power_text,
 )
 
@@ -57,41 +53,13 @@ def modes_table(result, title=None, family=None) -> str:
     modes = study.modes
     if study.loaded:
         lines.append("cutoffs (beta = 0) of the loaded guide:")
-        head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"]
-        right = {0, 3, 4, 5}
-    else:
-        head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
-                "degenerate with", "symmetry", "nodal regions"]
-        right = {0, 3, 4, 5, 6, 9}
-    rows = []
-    for m in modes:
-        sig = _sig_digits(m.fc, m.fc_error)
-        wl = m.cutoff_wavelength
-        row = [str(m.index + 1), m.label, m.family, format_ghz(m.fc, m.fc_error), _err_text(m.fc_error),
-               _significant(wl * 1e3, sig) if math.isfinite(wl) else "-"]
-        if not study.loaded:
-            row += [_significant(m.kc, sig) if m.kc > 0 else "0", _degenerate_text(m), _symmetry_text(m.symmetry),
-                    "-" if m.nodal_domains is None else str(m.nodal_domains)]
-        rows.append(row)
-    lines += _grid(head, rows, right)
+    lines += _grid(*cutoff_columns(modes, study.loaded))  # the same columns as the notebook's HTML
     if study.loaded:
         lines += _wrap("(label: TE-type has only transverse E at cutoff, TM-type only E_z; 'from': the "
                        "empty-guide mode whose field at cutoff it mostly has; cutoff wl: the free-space "
                        "wavelength at cutoff.  Above cutoff the modes are hybrid in general.)", "  ", "  ")
     lines.append("")
-    band = _band(modes)
-    only = f" (among {family} modes only)" if family else ""
-    if band is None:
-        lines.append("single-mode band: needs at least two distinct cutoffs; solve for more modes")
-    else:
-        f1, f2, ratio, m1, m2 = band
-        text = f"{format_ghz(f1, m1.fc_error)} - {format_ghz(f2, m2.fc_error)} GHz"
-        if ratio is None:
-            lines.append(f"single-mode band{only}: {text} (TEM only below the first higher-order cutoff)")
-        else:
-            who = (f"only the degenerate {m1.label} pair" if (m1.degenerate_with or m1.multiplicity > 1)
-                   else f"{m1.label} alone")
-            lines.append(f"single-mode band{only}: {text} (ratio {ratio:.3f}:1, {who})")
+    lines.append(band_text(modes, family))
     line = getattr(modes, "line", None) if not study.loaded else None
     if line is not None and line.n_conductors > 1:
         lines += [""] + line_table(line)

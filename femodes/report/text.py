@@ -1,4 +1,5 @@
-"""Number formatting for people: as many digits as an error estimate justifies, engineering units
+"""Number formatting for people: as many digits as an error estimate justifies (those helpers live in
+:mod:`femodes.modes.display`, which the modes' own notebook display needs too), engineering units
 (GHz, mm, kW), fixed-width grids and wrapped notes.
 """
 
@@ -9,49 +10,19 @@ import textwrap
 
 import numpy as np
 
-
-def _decimals(err, floor=0, cap=12):
-    """Decimals that keep the first significant digit of ``err`` (same unit as the value)."""
-    if not (err > 0 and math.isfinite(err)):
-        return None
-    return max(floor, min(cap, -math.floor(math.log10(err))))
-
-
-def _fixed(value, decimals):
-    return f"{value:.{decimals}f}"
-
-
-def _significant(value, sig):
-    """``value`` with ``sig`` significant digits in fixed notation."""
-    if value == 0 or not math.isfinite(value):
-        return "0" if value == 0 else "-"
-    dec = max(0, sig - 1 - math.floor(math.log10(abs(value))))
-    return f"{value:.{dec}f}"
-
-
-def _sig_digits(value, err, default=7):
-    """Significant digits of ``value`` justified by its error ``err`` (3 to 13)."""
-    if not (value > 0 and err > 0 and math.isfinite(err)):
-        return default
-    return max(3, min(13, math.floor(math.log10(value)) - math.floor(math.log10(err)) + 1))
-
-
-def format_ghz(f, err):
-    """A frequency (Hz) in GHz, to the first significant digit of its error (Hz)."""
-    if f == 0:
-        return "0"
-    dec = _decimals(err / 1e9)
-    return _fixed(f / 1e9, 6 if dec is None else dec)
-
-
-def _err_text(err_hz):
-    if not (err_hz > 0 and math.isfinite(err_hz)):
-        return "-"
-    return f"{err_hz / 1e9:.0e}"
-
-
-def _symmetry_text(sym):
-    return ", ".join(f"{ax} {par}" for ax, par in sorted(sym.items())) if sym else "-"
+from femodes.modes.display import (  # noqa: F401  (moved below the mode model; the report's names kept)
+    _band,
+    _decimals,
+    _degenerate_text,
+    _err_text,
+    _fixed,
+    _g,
+    _share,
+    _sig_digits,
+    _significant,
+    _symmetry_text,
+    format_ghz,
+)
 
 
 def _section_info(result):
@@ -68,38 +39,6 @@ def _section_info(result):
     if x0 or y0 or ang:
         info["frame"] = {"x0": float(x0), "y0": float(y0), "angle": float(ang)}
     return info
-
-
-def _band(modeset):
-    """(f_low, f_high, ratio or None): from the lowest cutoff (0 Hz with a TEM mode) to the next
-    cutoff that is not a degenerate partner of it; None without such a second cutoff.
-
-    Same meaning as ModeSet.single_mode_band(), but the partners are taken from each mode's
-    ``degenerate_with`` (the solver's error-aware grouping), so that a pair like a circle's TE11,
-    whose two computed cutoffs differ in the last digits, is not reported as a band of zero width.
-    """
-    modes = sorted(modeset, key=lambda m: m.fc)
-    if not modes:
-        return None
-    first = modes[0]
-    if first.family == "TEM" or first.kc == 0:
-        group = {m.index for m in modes if m.family == "TEM" or m.kc == 0}
-    else:
-        group = {first.index, *first.degenerate_with}
-    rest = [m for m in modes if m.index not in group]
-    if not rest:
-        return None
-    f1, f2 = float(first.fc), float(rest[0].fc)
-    return f1, f2, (f2 / f1 if f1 > 0 else None), first, rest[0]
-
-
-def _degenerate_text(m):
-    """'#2 #3', plus how many partners lie beyond the modes listed ('+1 not listed')."""
-    text = " ".join(f"#{i + 1}" for i in m.degenerate_with)
-    extra = m.multiplicity - 1 - len(m.degenerate_with)
-    if extra > 0:
-        text = (text + " " if text else "") + f"+{extra} not listed"
-    return text or "-"
 
 
 def _finite(x):
@@ -132,18 +71,6 @@ def power_text(watts):
     return f"{w:.4g} W"
 
 
-def _g(x, sig=5):
-    """A number with ``sig`` significant digits, plain notation where sensible."""
-    x = float(x)
-    if not math.isfinite(x):
-        return "-"
-    if x == 0:
-        return "0"
-    if 1e-4 <= abs(x) < 1e7:
-        return _significant(x, sig)
-    return f"{x:.{sig - 1}e}"
-
-
 def _mm(x):
     """A coordinate (m) in mm to the micrometre: -3.884, 0.768, 0."""
     v = round(float(x) * 1e3, 3)
@@ -173,7 +100,3 @@ def _num_list(a):
         return [clean(v) for v in x] if isinstance(x, list) else _finite(x)
     return clean(np.asarray(a, dtype=float).tolist())
 
-
-def _share(x):
-    """A longitudinal energy share: '0' below 1e-12 (rounding noise of a pure TE / TM mode)."""
-    return "0" if abs(x) < 1e-12 else _g(x, 3)

@@ -40,6 +40,7 @@ import numpy as np
 from femodes.api import _check_count, solve
 from femodes.atomic import replacing
 from femodes.errors import FemodesError
+from femodes.modes.display import _param_text, fixed_text, html_block, html_table, sweep_columns
 from femodes.studies.store import SweepStore
 
 __all__ = ["sweep", "SweepResult", "SWEEP_OPTIONS"]
@@ -71,6 +72,27 @@ class SweepResult:
     points: dict
     reused: int
     computed: int
+
+    # -- display -----------------------------------------------------------------------------------
+    def __repr__(self):
+        bad = sum(1 for r in self.points.values() if r["status"] != "ok")
+        over = ", ".join(f"{name} {_param_text(name, float(min(v)))} .. {_param_text(name, float(max(v)))}"
+                         + (" deg" if name == "angle" else " mm") for name, v in zip(self.names, self.values))
+        return (f"<SweepResult of {self.shape}: {len(self.points)} points over {over}, {self.modes} modes each"
+                + (f", {bad} invalid" if bad else "") + ">")
+
+    def _repr_html_(self):
+        """The sweep's table for a notebook: the columns and units of the text report's
+        (:func:`femodes.report.sweeps.sweep_table`: parameters in mm, cutoffs in GHz to the first
+        digit of their errors, the single-mode band and its ratio)."""
+        head, rows, right, notes = sweep_columns(self)
+        before = [f"fixed: {fixed_text(self)}",
+                  f"accuracy asked: {self.accuracy:.1e} (relative, on each cutoff); modes per point: {self.modes}"]
+        after = [f"invalid: {n}" for n in notes]
+        after.append(f"{self.reused + self.computed} points: {self.reused} from the store, {self.computed} computed; "
+                     "one row per point and mode (labels): .rows(); as a Dataset: .to_xarray()")
+        caption = f"sweep of {self.shape}: " + ", ".join(f"{n} ({len(v)} values)" for n, v in zip(self.names, self.values))
+        return html_block(caption, before, html_table(head, rows, right), after)
 
     def to_xarray(self):
         """An xarray Dataset on the dimensions (the varied names in the order given, then

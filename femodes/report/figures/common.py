@@ -4,6 +4,8 @@
 
 from __future__ import annotations
 
+import functools
+import io
 import re
 from pathlib import Path
 
@@ -50,7 +52,17 @@ def _new_figure(width, height):
 
     fig = Figure(figsize=(width, height), layout="compressed")
     FigureCanvasAgg(fig)
+    # a notebook shows the figure as an image by itself: our figures never touch pyplot, so
+    # IPython's inline-backend formatter for Figures is not always registered
+    fig._repr_png_ = functools.partial(_png, fig)
     return fig
+
+
+def _png(fig):
+    """The figure as PNG bytes (100 dpi, cropped to its contents): what a notebook shows."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=100, bbox_inches="tight")
+    return buf.getvalue()
 
 
 def _save(fig, path, dpi=200):
