@@ -15,8 +15,6 @@ from __future__ import annotations
 import html
 import math
 
-import numpy as np
-
 from femodes.constants import C0
 
 # -- numbers for people ------------------------------------------------------------------------
@@ -184,12 +182,11 @@ def loaded_columns(modes):
         err = float(m.beta_error)
         sig = _sig_digits(abs(complex(b)), err)
         prop = bool(m.propagates())
-        eps = m.effective_permittivity
+        eps = complex(m.effective_permittivity)  # complex for a member of a complex pair
         e_sh, h_sh = m.longitudinal_shares()
         rows.append([str(m.index + 1), m.label, m.family, _beta_text(b, sig), f"{err:.0e}" if err > 0 else "-",
                      _g(m.guide_wavelength() * 1e3) if prop else "-",
-                     f"{eps.real:.5f}" if isinstance(eps, (float, np.floating)) or abs(complex(eps).imag) == 0
-                     else "-",
+                     f"{eps.real:.5f}" if eps.imag == 0 else "-",
                      f"{m.phase_velocity() / C0:.4f}" if prop else "-",
                      f"{m.group_velocity() / C0:.4f}" if prop else "-",
                      _share(e_sh), _share(h_sh)])
