@@ -283,7 +283,7 @@ _CASES = (
           "closed form kc = sqrt((m pi/a)^2 + (n pi/b)^2) (Pozar, Microwave Engineering, sec. 3.3)", _rectangle),
     _Case("circle", "circle of radius 10 mm, 8 modes",
           "Bessel zeros j_nm, j'_nm from scipy.special (Pozar, Microwave Engineering, sec. 3.4)", _circle),
-    _Case("coax", "coaxial line 3 / 7 mm: Z0 of the TEM mode and 4 higher modes",
+    _Case("coax", "coaxial line, conductor diameters 3 and 7 mm: Z0 of the TEM mode and 4 higher modes",
           "Z0 = eta0 ln(b/a) / (2 pi) (Pozar, sec. 2.2); kc from the Bessel cross products "
           "J_n(ka) Y_n(kb) - J_n(kb) Y_n(ka) (Marcuvitz, Waveguide Handbook, sec. 2.4) by scipy.special "
           "and brentq", _coax),
@@ -314,6 +314,10 @@ _CASES = (
 )
 
 
+#: the citations of the sources above (book sections, papers) are recalled from memory; the values
+#: themselves are computed here (closed forms, scipy.special) except the L-shape's, see _l_shape_uncertainty
+
+
 def case_names(thorough=False):
     """The names of the cases the fast (or the thorough) set runs, in order."""
     return tuple(c.name for c in _CASES if thorough or c.fast)
@@ -336,8 +340,10 @@ def selfcheck(thorough=False, cases=None):
         chosen = (cases,) if isinstance(cases, str) else tuple(cases)
         unknown = [c for c in chosen if c not in names]
         if unknown:
-            raise FemodesError(f"no self-check case named {', '.join(map(repr, unknown))}; the "
-                               f"{'thorough' if thorough else 'fast'} set has: {', '.join(names)}")
+            hint = "" if thorough or any(c not in case_names(True) for c in unknown) else \
+                " (the thorough set has it: add --thorough, or thorough=True)"
+            raise FemodesError(f"no self-check case named {', '.join(map(repr, unknown))} in the "
+                               f"{'thorough' if thorough else 'fast'} set{hint}; it has: {', '.join(names)}")
     t_all = time.perf_counter()
     out = []
     for c in _CASES:
