@@ -117,7 +117,7 @@ def _parser():
                        "bar and the asked accuracy.  Exit status 0 when every value passes, 1 when some fail.",
                        epilog=f"Fast set: {', '.join(case_names())}.  Thorough set adds: "
                        f"{', '.join(n for n in case_names(True) if n not in case_names())}.")
-    c.add_argument("--thorough", action="store_true", help="more cases, each at several accuracies (minutes)")
+    c.add_argument("--thorough", action="store_true", help="more cases, each at several accuracies (half a minute to minutes)")
     c.add_argument("--details", action="store_true", help="print every value and each case's source")
     c.add_argument("--json", action="store_true", help="print a JSON document instead of the table")
     c.add_argument("--case", metavar="NAME", action="append", help="run only this case (may be repeated)")
