@@ -38,12 +38,13 @@ from femodes.geometry.shapes import (
 from femodes.modes import LoadedCutoff, LoadedMode, LoadedModes, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
 from femodes.report.figures import field_pattern
-from femodes.studies import Sensitivity, Tolerance, seek, sensitivity, sweep, tolerance
+from femodes.studies import SelfCheck, Sensitivity, Tolerance, seek, selfcheck, sensitivity, sweep, tolerance
 
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet", "LoadedMode",
     "LoadedCutoff", "LoadedModes", "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
     "rectangular_coax", "ridged", "sector", "single_ridge", "standard", "solve", "dispersion", "study", "attenuation",
-    "impedance", "power_handling", "field_pattern", "sweep", "seek", "sensitivity", "Sensitivity", "tolerance", "Tolerance", "C0", "EPS0", "ETA0", "MU0",
+    "impedance", "power_handling", "field_pattern", "selfcheck", "SelfCheck",
+    "sweep", "seek", "sensitivity", "Sensitivity", "tolerance", "Tolerance", "C0", "EPS0", "ETA0", "MU0",
     "__version__",
 ]

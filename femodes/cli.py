@@ -6,11 +6,13 @@
     femodes sweep CASE.toml [--json] [--csv PATH] [--netcdf PATH] [--store PATH] [--workers N]
                             [--scheduler ADDRESS] [--figure PATH] [--modes N] [--accuracy X]
     femodes seek | sensitivity | tolerance CASE.toml [--json] [--modes N] [--accuracy X] [--figure PATH]
+    femodes selfcheck [--thorough] [--details] [--json] [--case NAME]
     femodes shapes
     femodes --version
 
 Errors a user can cause are printed as one line, ``femodes: error: <message>``, on stderr, and the
-exit status is 2.
+exit status is 2.  ``femodes selfcheck`` exits with 0 when every reference value passes, 1 when
+some fail (and 2 for a usage error, e.g. an unknown case name).
 """
 
 from __future__ import annotations
@@ -37,11 +39,14 @@ from femodes.report import (
     write_fields,
     write_figures,
 )
+from femodes.report.selfcheck import selfcheck_document, selfcheck_table
 from femodes.report.sweeps import seek_table, sensitivity_table, study_document, sweep_document, sweep_table, tolerance_table
+from femodes.studies.verify import case_names, selfcheck
 
 __all__ = ["main"]
 
 EXIT_USAGE = 2
+EXIT_CHECK_FAILED = 1
 
 
 class _UsageError(Exception):
@@ -106,6 +111,16 @@ def _parser():
         _common(v, "the case file")
         if verb == "tolerance":
             v.add_argument("--figure", metavar="PATH", help="write the histograms of the band edges and the ratio")
+    c = sub.add_parser("selfcheck", help="check this install against published and closed-form reference cases",
+                       description="Solve a bundled set of reference cases (closed forms, published eigenvalues; "
+                       "each names its source) and print, per case, femodes' true error against its own error "
+                       "bar and the asked accuracy.  Exit status 0 when every value passes, 1 when some fail.",
+                       epilog=f"Fast set: {', '.join(case_names())}.  Thorough set adds: "
+                       f"{', '.join(n for n in case_names(True) if n not in case_names())}.")
+    c.add_argument("--thorough", action="store_true", help="more cases, each at several accuracies (half a minute to minutes)")
+    c.add_argument("--details", action="store_true", help="print every value and each case's source")
+    c.add_argument("--json", action="store_true", help="print a JSON document instead of the table")
+    c.add_argument("--case", metavar="NAME", action="append", help="run only this case (may be repeated)")
     sub.add_parser("shapes", help="list the shapes a case file can use and their keys",
                    description="List the shapes of the [guide] table and the keys each one takes.")
     return p
@@ -141,11 +156,13 @@ def main(argv=None) -> int:
             return _sweep(args)
         if args.command in ("seek", "sensitivity", "tolerance"):
             return _study(args)
+        if args.command == "selfcheck":
+            return _selfcheck(args)
         if args.command == "shapes":
 
             print(shapes_help())
             return 0
-        return _fail("choose a command: solve, sweep, seek, sensitivity, tolerance or shapes (see 'femodes --help')")
+        return _fail("choose a command: solve, sweep, seek, sensitivity, tolerance, selfcheck or shapes (see 'femodes --help')")
     except FemodesError as exc:
         return _fail(str(exc))
     except KeyboardInterrupt:
@@ -221,6 +238,15 @@ def _study(args):
     for p in written:
         print(f"wrote {p}")
     return 0
+
+
+def _selfcheck(args):
+    result = selfcheck(thorough=args.thorough, cases=args.case)
+    if args.json:
+        print(json.dumps(selfcheck_document(result), indent=2, allow_nan=False))
+    else:
+        sys.stdout.write(selfcheck_table(result, details=args.details))
+    return 0 if result.passed else EXIT_CHECK_FAILED
 
 
 def _print_warnings(caught):

@@ -134,6 +134,17 @@ def test_coax_capacitance_inductance_and_unchanged_tem_mode():
     assert fm.impedance(ms[0], 1e9) == pytest.approx(z.impedance[0], rel=1e-12)
 
 
+@pytest.mark.parametrize("outer, inner, accuracy", [(3.5e-3, 1.5e-3, 1e-6), (3e-3, 1e-3, 1e-4)])
+def test_coax_capacitance_error_bar_when_two_meshes_agree_by_chance(outer, inner, accuracy):
+    # the two cases where the fine pair of meshes agreed by chance: 7 / 3 mm at 1e-6 (estimate 1.3x
+    # below the true error) and 3 / 1 mm at 1e-4 (31x: the inner conductor's division unchanged
+    # between the meshes); the older meshes now guard the estimate as they do the cutoffs'
+    ms = fm.solve(fm.coaxial(outer, inner), modes=3, accuracy=accuracy)
+    exact = 2 * math.pi * EPS0 / math.log(outer / inner)  # Pozar sec. 2.2 (from memory)
+    c, dc = ms.line.modal_capacitance[0], ms.line.modal_capacitance_error[0]
+    assert abs(c - exact) <= dc <= accuracy * exact
+
+
 def test_eccentric_coax_capacitance_within_its_error():
     a, b, d = 1e-3, 4e-3, 1.5e-3
     ms = fm.solve(fm.coaxial(b, a, offset=(d, 0.0)), modes=1, accuracy=1e-7)

@@ -31,11 +31,12 @@ from femodes.report.document import (
 )
 from femodes.report.files import AT_FREQUENCY_COLUMNS, CSV_COLUMNS, DISPERSION_COLUMNS, write_csv, write_fields
 from femodes.report.output import check_figures, write_figures
+from femodes.report.selfcheck import selfcheck_document, selfcheck_table
 from femodes.report.tables import analysis_table, dispersion_table, modes_table, report_table
 from femodes.report.text import power_text
 
 __all__ = ["report_table", "report_document", "modes_table", "modes_document", "analysis_table", "dispersion_table",
-           "analysis_document", "dispersion_document", "write_csv", "write_json", "write_fields", "write_figures",
+           "analysis_document", "dispersion_document", "selfcheck_table", "selfcheck_document", "write_csv", "write_json", "write_fields", "write_figures",
            "check_figures", "as_study", "DOCUMENT_UNITS", "ANALYSIS_UNITS", "CSV_COLUMNS", "AT_FREQUENCY_COLUMNS",
            "DISPERSION_COLUMNS", "Analysis", "ModeQuantities", "Sweep", "analyse", "power_text",
            "reliable_attenuation", "PERTURBATION_LIMIT"]

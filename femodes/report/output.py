@@ -4,6 +4,7 @@
 from __future__ import annotations
 
 import importlib.util
+import math
 import os
 from pathlib import Path
 
@@ -91,6 +92,7 @@ def _loaded_figures(figs, study, output):
     if "dispersion" in output.figures and study.dispersion is not None:
         p = d / f"dispersion.{output.format}"
         figs.dispersion_chart(study.dispersion.solved, p, section=study.section, eps_r=study.eps_r,
-                              mu_r=study.mu_r, empty=study.empty_modes)
+                              mu_r=study.mu_r, empty=study.empty_modes,
+                              cutoffs=[c.fc for c in study.modes if math.isfinite(getattr(c, "fc", math.nan))])
         out.append(str(p))
     return out

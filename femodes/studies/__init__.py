@@ -12,5 +12,6 @@ from femodes.studies.seek import SeekResult, seek
 from femodes.studies.sensitivity import Sensitivity, sensitivity
 from femodes.studies.sweeps import SweepResult, sweep
 from femodes.studies.tolerance import Tolerance, tolerance
+from femodes.studies.verify import SelfCheck, selfcheck
 
-__all__ = ["sweep", "SweepResult", "seek", "SeekResult", "sensitivity", "Sensitivity", "tolerance", "Tolerance"]
+__all__ = ["sweep", "SweepResult", "seek", "SeekResult", "sensitivity", "Sensitivity", "tolerance", "Tolerance", "selfcheck", "SelfCheck"]

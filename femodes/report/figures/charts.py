@@ -518,12 +518,56 @@ def band_chart(modeset, path=None, *, band=None, frequency=None, f_max=None, dpi
     return fig
 
 
-def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labels=None, empty=None, dpi=200):
+def _cutoff_start(f, b2, k, cutoffs, used):
+    """(fc, True) for curve ``k``: the cutoff (Hz) between its last evanescent sample and its first
+    propagating one, taken from ``cutoffs`` (the guide's cutoff frequencies, matched to curves by
+    that bracket; ``used`` the indices already taken), else estimated by a straight line of beta^2
+    in f^2 through the two samples (beta^2 is nearly linear in k0^2 near a cutoff); None where the
+    curve propagates from the first sample on or never."""
+    ok = b2[:, k] > 0
+    if not np.any(ok) or ok[0]:
+        return None
+    i = int(np.flatnonzero(ok)[0])
+    lo, hi = f[i - 1], f[i]
+    for j, fc in enumerate(cutoffs):
+        if j not in used and lo <= fc <= hi:
+            used.add(j)
+            return float(fc)
+    b_lo, b_hi = b2[i - 1, k], b2[i, k]
+    return float(math.sqrt(lo ** 2 + (hi ** 2 - lo ** 2) * (-b_lo) / (b_hi - b_lo)))
+
+
+def _spread(ys, gap, lo, hi):
+    """Label heights ``ys`` (sorted ascending) pushed apart to at least ``gap`` and kept in
+    [lo, hi] where there is room."""
+    out = list(ys)
+    for i in range(1, len(out)):
+        out[i] = max(out[i], out[i - 1] + gap)
+    if out and out[-1] > hi:
+        out[-1] = hi
+        for i in range(len(out) - 2, -1, -1):
+            out[i] = min(out[i], out[i + 1] - gap)
+    if out and out[0] < lo:
+        out[0] = lo
+        for i in range(1, len(out)):
+            out[i] = max(out[i], out[i - 1] + gap)
+    return out
+
+
+def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labels=None, empty=None, cutoffs=None,
+                     dpi=200):
     """beta against frequency for the tracked curves of a loaded guide (``femodes.dispersion``).
 
-    Each curve is drawn where it propagates (beta^2 > 0) and labelled at its right end with its
-    column number and its label (``labels``, else ``disp.labels``: e.g. 'hybrid from TE10'), or
-    its family there when it has none; ``empty``, pairs (label, kc in rad/m) of modes of the
+    Each curve is drawn where it propagates (beta^2 > 0), from beta = 0 at its cutoff when the
+    cutoff lies inside the band: ``cutoffs`` are the guide's cutoff frequencies in Hz (e.g. the
+    ``fc`` of the study's LoadedCutoffs), each matched to the curve whose last evanescent and first
+    propagating samples bracket it; a curve without one gets its cutoff estimated by a straight line
+    of beta^2 in f^2 through those two samples.  Between the cutoff and the first sample the curve
+    follows beta^2 linear in f^2 (beta rises like a square root from the cutoff).  Every curve is
+    labelled in the margin right of the band with its column number and its label (``labels``, else
+    ``disp.labels``: e.g. 'hybrid from TE10'), or its family there when it has none, joined to its
+    end by a short leader; the labels are spread apart vertically so that none overlaps another and
+    none sits on a curve.  ``empty``, pairs (label, kc in rad/m) of modes of the
     empty guide (the section without its regions, filled with eps_r, mu_r), draws their
     beta = sqrt(k0^2 eps_r mu_r - kc^2) dotted for comparison (the phase a load adds); the light lines beta = k0 sqrt(eps_r mu_r) of the background
     fill and of every material region are drawn dashed (a guided mode lies below the highest
@@ -544,25 +588,34 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labe
     media = {(float(eps_r), float(mu_r))}
     if section is not None:
         media |= {(m.eps_r, m.mu_r) for m in section.materials}
+    ends = []  # (x end, y end, text, colour, gid, font size) of every right-hand label
     for eps, mu in sorted(media):
-        ax.plot(fg, k0 * np.sqrt(eps * mu), ls="--", lw=0.9, color="#8a8f94", zorder=1)
-        ax.annotate(f"light line, eps_r = {eps:g}" + (f", mu_r = {mu:g}" if mu != 1 else ""),
-                    (fg[-1], k0[-1] * np.sqrt(eps * mu)), xytext=(-4, 4), textcoords="offset points",
-                    ha="right", va="bottom", fontsize=7.5, color="#5f6468")
+        ax.plot(fg, k0 * np.sqrt(eps * mu), ls="--", lw=0.9, color="#8a8f94", zorder=1, gid="light-line")
+        ends.append((fg[-1], k0[-1] * np.sqrt(eps * mu), f"light line, eps_r = {eps:g}" + (f", mu_r = {mu:g}" if mu != 1 else ""),
+                     "#5f6468", "light-line-label", 7.5))
     colours = [st["family"][k][1] for k in ("TE", "TM", "TEM")] + ["#6b4c9a", "#b5651d", "#2e7d32"]
     names = list(labels) if labels is not None else list(getattr(disp, "labels", ()) or ())
+    given = [float(c) for c in (cutoffs or ()) if c is not None and math.isfinite(float(c))]
+    used = set()
     for k in range(b2.shape[1]):
         ok = b2[:, k] > 0
         if not np.any(ok):
             continue
         beta = np.sqrt(np.where(ok, b2[:, k], np.nan))
+        x, y = fg, beta
+        fc = _cutoff_start(f, b2, k, given, used)
+        if fc is not None:
+            i = int(np.flatnonzero(ok)[0])
+            ff = np.linspace(fc, f[i], 13)[:-1]  # beta^2 linear in f^2 from 0 at fc to the sample
+            bb = np.sqrt(np.maximum(b2[i, k] * (ff ** 2 - fc ** 2) / (f[i] ** 2 - fc ** 2), 0.0))
+            x = np.concatenate([ff / 1e9, fg[i:]])  # before i the curve is evanescent (not drawn)
+            y = np.concatenate([bb, beta[i:]])
         c = colours[k % len(colours)]
-        ax.plot(fg, beta, lw=1.8, color=c, zorder=3)
+        ax.plot(x, y, lw=1.8, color=c, zorder=3, gid=f"curve-{k + 1}")
         last = np.flatnonzero(ok)[-1]
         fam = disp.family[last, k] if np.ndim(disp.family) == 2 else ""
         name = names[k] if k < len(names) and names[k] else fam
-        ax.annotate(f"{k + 1} ({name})", (fg[last], beta[last]), xytext=(4, 0), textcoords="offset points",
-                    va="center", fontsize=8, color=c)
+        ends.append((fg[last], beta[last], f"{k + 1} ({name})", c, f"curve-label-{k + 1}", 8))
     drawn, top_c = [], 0.0
     for k in range(b2.shape[1]):
         if not np.any(cplx[:, k]):
@@ -584,19 +637,24 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labe
                     textcoords="offset points", ha="center", fontsize=7.5, color=c)
         top_c = max(top_c, float(np.nanmax(re)), float(np.nanmax(im)))
     for lab, kc in (empty or ()):
-        eb2 = k0 ** 2 * float(eps_r) * float(mu_r) - float(kc) ** 2
-        ok = eb2 > 0
-        if np.any(ok):
+        # closed form: drawn on a fine grid from beta = 0 at its cutoff (when inside the band)
+        fc_e = float(kc) * 299792458.0 / (2 * np.pi * math.sqrt(float(eps_r) * float(mu_r)))
+        fe = np.linspace(f[0], f[-1], 241)
+        fe = np.unique(np.append(fe, fc_e)) if f[0] <= fc_e <= f[-1] else fe
+        ke = 2 * np.pi * fe / 299792458.0
+        eb2 = ke ** 2 * float(eps_r) * float(mu_r) - float(kc) ** 2
+        eb2[np.isclose(fe, fc_e, rtol=1e-14, atol=0.0)] = 0.0
+        ok = eb2 >= 0
+        if np.any(ok) and np.any(eb2 > 0):
             eb = np.sqrt(np.where(ok, eb2, np.nan))
-            ax.plot(fg, eb, ls=":", lw=1.2, color="#6c7378", zorder=2, gid="empty-guide")
+            ax.plot(fe / 1e9, eb, ls=":", lw=1.2, color="#6c7378", zorder=2, gid="empty-guide")
             last = np.flatnonzero(ok)[-1]
-            ax.annotate(f"empty guide {lab}", (fg[last], eb[last]), xytext=(4, -9), textcoords="offset points",
-                        va="center", fontsize=7.5, color="#5f6468")
+            ends.append((fe[last] / 1e9, eb[last], f"empty guide {lab}", "#5f6468", "empty-guide-label", 7.5))
     ax.set_xlabel("frequency (GHz)")
     ax.set_ylabel("beta (rad/m)")
-    ax.set_xlim(fg[0], fg[-1] + 0.12 * (fg[-1] - fg[0]))
     top = max(np.sqrt(max(e * m for e, m in media)) * k0[-1], np.sqrt(max(float(np.max(b2)), 0.0)), top_c)
     ax.set_ylim(0, 1.08 * top)
+    _right_labels(fig, ax, fg, ends)
     ax.grid(color="#d9dcdf", lw=0.6)
     title = "Dispersion of the tracked modes"
     if section is not None:
@@ -606,3 +664,36 @@ def dispersion_chart(disp, path=None, *, section=None, eps_r=1.0, mu_r=1.0, labe
     if path is not None:
         _save(fig, path, dpi=dpi)
     return fig
+
+
+def _right_labels(fig, ax, fg, ends):
+    """Labels of the curve ends in a margin right of the last frequency, as wide as the widest
+    label, spread apart vertically and joined to their curve's end by a short leader: no label sits
+    on a curve (the curves end at the last frequency) or on another label."""
+    span = fg[-1] - fg[0]
+    if not ends:
+        ax.set_xlim(fg[0], fg[-1] + 0.05 * span)
+        return
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    box = ax.get_window_extent(renderer)
+    probes = [ax.text(0, 0, text, fontsize=size) for _, _, text, _, _, size in ends]
+    sizes = [p.get_window_extent(renderer) for p in probes]
+    for p in probes:
+        p.remove()
+    lead_px, pad_px = 14.0, 6.0
+    margin = min(0.55 * box.width, max(b.width for b in sizes) + lead_px + pad_px)
+    right = fg[-1] + span * margin / max(box.width - margin, 1.0)
+    ax.set_xlim(fg[0], right)
+    y0, y1 = ax.get_ylim()
+    per_px_y = (y1 - y0) / max(box.height, 1.0)
+    per_px_x = (right - fg[0]) / max(box.width, 1.0)
+    gap = (max(b.height for b in sizes) + 2.0) * per_px_y
+    order = sorted(range(len(ends)), key=lambda i: ends[i][1])
+    ys = _spread([ends[i][1] for i in order], gap, y0 + 0.5 * gap, y1 - 0.5 * gap)
+    x_text = fg[-1] + lead_px * per_px_x
+    for i, y in zip(order, ys):
+        xe, ye, text, colour, gid, size = ends[i]
+        ax.annotate(text, (xe, ye), xytext=(x_text, y), textcoords="data", ha="left", va="center",
+                    fontsize=size, color=colour, gid=gid, annotation_clip=False,
+                    arrowprops=dict(arrowstyle="-", lw=0.6, color=colour, shrinkA=0, shrinkB=1))
