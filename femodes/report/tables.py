@@ -40,6 +40,8 @@ def modes_table(result, title=None, family=None) -> str:
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else "")]
     sec = _section_info(study)
     lines.append(f"section: {sec['description']}")
+    if "symmetry" in sec:
+        lines.append(f"symmetry: {sec['symmetry']}")
     if "frame" in sec:
         fr = sec["frame"]
         lines.append(f"placed: own origin at ({fr['x0'] * 1e3:.6g}, {fr['y0'] * 1e3:.6g}) mm, "
@@ -61,7 +63,7 @@ def modes_table(result, title=None, family=None) -> str:
         right = {0, 3, 4, 5}
     else:
         head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
-                "degenerate with", "symmetry", "nodal regions"]
+                "degenerate with", "symmetry", "nodal regions", "class"]
         right = {0, 3, 4, 5, 6, 9}
     rows = []
     for m in modes:
@@ -71,7 +73,7 @@ def modes_table(result, title=None, family=None) -> str:
                _significant(wl * 1e3, sig) if math.isfinite(wl) else "-"]
         if not study.loaded:
             row += [_significant(m.kc, sig) if m.kc > 0 else "0", _degenerate_text(m), _symmetry_text(m.symmetry),
-                    "-" if m.nodal_domains is None else str(m.nodal_domains)]
+                    "-" if m.nodal_domains is None else str(m.nodal_domains), m.symmetry_class or "-"]
         rows.append(row)
     lines += _grid(head, rows, right)
     if study.loaded:

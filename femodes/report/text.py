@@ -9,6 +9,9 @@ import textwrap
 
 import numpy as np
 
+from femodes.errors import FemodesError
+from femodes.geometry.symmetry import symmetry_group
+
 
 def _decimals(err, floor=0, cap=12):
     """Decimals that keep the first significant digit of ``err`` (same unit as the value)."""
@@ -54,16 +57,27 @@ def _symmetry_text(sym):
     return ", ".join(f"{ax} {par}" for ax, par in sorted(sym.items())) if sym else "-"
 
 
+def _group_info(obj):
+    """The section's symmetry group (femodes.geometry.symmetry): its name and one line of words."""
+    try:
+        g = symmetry_group(obj)
+    except FemodesError:
+        return {}
+    return {"symmetry_group": g.name, "symmetry": g.describe(),
+            "symmetry_centre": [float(g.centre[0]), float(g.centre[1])]}
+
+
 def _section_info(result):
     """kind, params (SI), description and placement of the section of a ModeSet or a Study."""
     sec = result.section
     if sec is None or not hasattr(sec, "describe"):
         mesh = sec if sec is not None else result.mesh
         return {"kind": "mesh", "params": {},
-                "description": f"triangle mesh ({mesh.n_triangles} triangles, {mesh.n_vertices} vertices)"}
+                "description": f"triangle mesh ({mesh.n_triangles} triangles, {mesh.n_vertices} vertices)",
+                **_group_info(mesh)}
     info = {"kind": sec.kind, "params": {k: float(v) for k, v in sec.params.items()
                                          if isinstance(v, (int, float)) and not isinstance(v, bool)},
-            "description": sec.describe()}
+            "description": sec.describe(), **_group_info(sec)}
     x0, y0, ang = getattr(sec, "frame", (0.0, 0.0, 0.0))  # a mesh file is where it was drawn
     if x0 or y0 or ang:
         info["frame"] = {"x0": float(x0), "y0": float(y0), "angle": float(ang)}
