@@ -35,13 +35,14 @@ from femodes.geometry.shapes import (
     single_ridge,
     standard,
 )
+from femodes.geometry.symmetry import SymmetryGroup, symmetry_group
 from femodes.modes import LoadedCutoff, LoadedMode, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
 from femodes.studies import Sensitivity, Tolerance, seek, sensitivity, sweep, tolerance
 
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet", "LoadedMode",
-    "LoadedCutoff", "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
+    "LoadedCutoff", "Section", "SymmetryGroup", "symmetry_group", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
     "rectangular_coax", "ridged", "sector", "single_ridge", "standard", "solve", "dispersion", "study", "attenuation",
     "impedance", "power_handling", "sweep", "seek", "sensitivity", "Sensitivity", "tolerance", "Tolerance", "C0", "EPS0", "ETA0", "MU0",
     "__version__",

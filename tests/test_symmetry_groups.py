@@ -218,3 +218,26 @@ def test_ridge_guide_mesh_file_has_d2_and_the_sections_labels(tmp_path):
             assert m.label == twin[0].label
     assert got[0].label == "TE1 (x odd, y even)" == ref[0].label
     assert got[0].symmetry_class == "even about the x axis; odd about the y axis"
+
+
+def test_pinwheel_has_turns_only_and_a_rotating_pair():
+    """A square with one tab on each side, off the side's middle, turned by 90 degrees from side
+    to side: C4 (90-degree turns, no mirror line; elementary geometry).  C4's two complex classes
+    k = 1 and 3 are conjugate, so a real field of either comes in a degenerate pair (group theory,
+    from memory): the lowest pair is named so; the single modes are unchanged by, or change sign
+    under, a quarter turn."""
+    base = [(1, -1), (1, 0.2), (1.3, 0.2), (1.3, 0.6), (1, 0.6)]
+    pts = []
+    for k in range(4):
+        c, s = math.cos(k * math.pi / 2), math.sin(k * math.pi / 2)
+        pts += [(5e-3 * (c * x - s * y), 5e-3 * (s * x + c * y)) for x, y in base]
+    sec = femodes.polygon(pts)
+    assert symmetry_group(sec).name == "C4" and symmetry_group(sec).mirrors == ()
+    assert symmetry_group(femodes.mesh_section(sec, 1e-3, graded=False)).name == "C4"
+    ms = femodes.solve(sec, modes=4, accuracy=1e-3)
+    assert ms[0].multiplicity == 2
+    for m in ms:
+        if m.multiplicity == 2:
+            assert m.symmetry_class == "degenerate pair of C4 (rotating)"
+        else:
+            assert m.symmetry_class in ("unchanged by a 90-degree turn", "changes sign under a 90-degree turn")
