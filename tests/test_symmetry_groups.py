@@ -88,6 +88,15 @@ def test_groups_of_plane_figures_sections_and_their_meshes():
     assert symmetry_group(femodes.coaxial(0.01, 0.003)).name == "circular"
 
 
+def test_a_nearly_square_guide_is_not_a_square():
+    """The tolerance is 1e-6 of the size for a Section: 20 x 20.01 mm (5e-4 apart) is D2, whose
+    TE10 and TE01 are not one pair; 20 mm x 20 (1 + 1e-8) mm is a square (D4)."""
+    assert symmetry_group(femodes.rectangle(A, A * 1.0005)).name == "D2"
+    assert symmetry_group(femodes.rectangle(A, A * (1 + 1e-8))).name == "D4"
+    assert symmetry_group(femodes.circle(0.01).with_material(femodes.circle(0.002).translated(1e-4, 0),
+                                                             eps_r=2.0)).name == "D1"
+
+
 def test_materials_and_inner_conductors_enter_the_group():
     """A slab off the centre line leaves one mirror; an inner conductor off centre breaks D2."""
     box = femodes.rectangle(A, A)

@@ -20,7 +20,8 @@ through the section's corners and joints, bisecting pairs of corners at equal di
 centre, along the principal axes of the area and along the section's own axes; with n-fold turns
 the mirrors come n at a time.  For a mesh file the walls are the edges on one triangle only and
 the outlines the edges between triangles of different materials; the tolerance is 5 % of the
-median wall edge (a curved wall meshed by chords is symmetric only to within the chords' sag).
+median wall edge (a curved wall meshed by chords is symmetric only to within the chords' sag);
+for a Section 1e-6 of its size (arcs are cut into chords of 0.0015 rad, sag 3e-7 of the radius).
 
 The group's classes (:meth:`SymmetryGroup.classes`) carry their characters (the trace of the
 operation on the class) for each operation of :meth:`SymmetryGroup.operations`, and are named in
@@ -36,7 +37,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes.errors import FemodesError
-from femodes.geometry.loops import Arc, Line
+from femodes.geometry.loops import Line
 
 __all__ = ["SymmetryGroup", "SymmetryOperation", "SymmetryClass", "symmetry_group", "line_name"]
 
@@ -202,7 +203,7 @@ def symmetry_group(obj, tolerance=None):
     for a Section, 5 % of the median wall edge for a mesh."""
     if hasattr(obj, "outer") and hasattr(obj, "loops"):
         sets, joints, centre, inertia, size, ref = _section_sets(obj)
-        tol = 1e-4 * size
+        tol = 1e-6 * size
     elif hasattr(obj, "points") and hasattr(obj, "triangles"):
         keys = _mesh_keys(obj)
         sets, joints, centre, inertia, size, med = _mesh_sets(obj.points, obj.triangles, keys)
@@ -252,10 +253,6 @@ def _polygon_moments(poly):
     return ixx, ixy, iyy
 
 
-def _chords(poly):
-    return poly.T, np.roll(poly, -1, axis=1).T
-
-
 def _section_sets(sec):
     """[(key, test points (2, k), chord starts (m, 2), chord ends (m, 2))], joints (2, j) with keys,
     centroid, area inertia about it, size, reference angle."""
@@ -277,29 +274,68 @@ def _section_sets(sec):
     for key, loops in groups:
         for l in loops:
             test = l.polyline(64, line_pieces=8)
-            n_arc = max(8, int(math.ceil(max((abs(s.t1 - s.t0) for s in l.segments if isinstance(s, Arc)),
-                                             default=0.0) / 0.005)))
-            a, b = _chords(l.polyline(n_arc))
-            sets.append((key, test, a, b))
-            for s in l.segments:
-                joints.append(np.asarray(s.start, float))
+            la, lb, aa, ab = [], [], [], []
+            for sg in l.segments:
+                if isinstance(sg, Line):
+                    la.append(sg.start)
+                    lb.append(sg.end)
+                else:  # an arc: chords of 0.0015 rad (sag 3e-7 of the radius)
+                    q = sg.samples(max(8, int(math.ceil(abs(sg.t1 - sg.t0) / 0.0015))))
+                    aa.append(q[:, :-1].T)
+                    ab.append(q[:, 1:].T)
+            sets.append((key, test, np.array(la, float).reshape(-1, 2), np.array(lb, float).reshape(-1, 2),
+                         np.vstack(aa) if aa else np.zeros((0, 2)), np.vstack(ab) if ab else np.zeros((0, 2))))
+            for sg in l.segments:
+                joints.append(np.asarray(sg.start, float))
                 jkeys.append(key)
-                if isinstance(s, Line):
-                    joints.append(0.5 * (np.asarray(s.start, float) + np.asarray(s.end, float)))
+                if isinstance(sg, Line):
+                    joints.append(0.5 * (np.asarray(sg.start, float) + np.asarray(sg.end, float)))
                     jkeys.append(key)
-    sets = _merge_sets(sets)
+    merged = {}
+    for key, test, la, lb, aa, ab in sets:
+        if key in merged:
+            t0, la0, lb0, aa0, ab0 = merged[key]
+            merged[key] = (np.hstack([t0, test]), np.vstack([la0, la]), np.vstack([lb0, lb]),
+                           np.vstack([aa0, aa]), np.vstack([ab0, ab]))
+        else:
+            merged[key] = (test, la, lb, aa, ab)
+    sets = [(k, v[0], _Walls(v[1], v[2], v[3], v[4])) for k, v in merged.items()]
     return sets, (np.array(joints).T, jkeys), c, (ixx, ixy, iyy), sec.size, float(sec.frame[2])
 
 
-def _merge_sets(sets):
-    out = {}
-    for key, test, a, b in sets:
-        if key in out:
-            t0, a0, b0 = out[key]
-            out[key] = (np.hstack([t0, test]), np.vstack([a0, a]), np.vstack([b0, b]))
-        else:
-            out[key] = (test, a, b)
-    return [(k,) + v for k, v in out.items()]
+class _Walls:
+    """Chords to measure distances to: a few long ones (straight walls, mesh edges) searched
+    whole, and many short ones (arcs cut finely) searched near the nearest chord start (a
+    k-d tree): a point within the tolerance of an arc lies next to a chord beside its nearest
+    chord start."""
+
+    def __init__(self, a, b, arc_a=None, arc_b=None):
+        self.a, self.b = np.asarray(a, float), np.asarray(b, float)
+        self.arc_a = np.zeros((0, 2)) if arc_a is None else np.asarray(arc_a, float)
+        self.arc_b = np.zeros((0, 2)) if arc_b is None else np.asarray(arc_b, float)
+        self.tree = None
+        if len(self.arc_a):
+            from scipy.spatial import cKDTree
+
+            self.tree = cKDTree(self.arc_a)
+
+    def distance(self, pts):
+        """Distance of each point (k, 2) to the nearest chord."""
+        out = np.full(len(pts), np.inf)
+        if len(self.a):
+            out = _distances(pts, self.a, self.b)
+        if self.tree is not None:
+            _, j = self.tree.query(pts)
+            n = len(self.arc_a)
+            for dj in (-1, 0, 1):
+                jj = np.clip(j + dj, 0, n - 1)
+                a, b = self.arc_a[jj], self.arc_b[jj]
+                d = b - a
+                L2 = np.maximum(np.sum(d * d, axis=1), 1e-300)
+                t = np.clip(np.sum((pts - a) * d, axis=1) / L2, 0, 1)
+                r = pts - a - t[:, None] * d
+                out = np.minimum(out, np.sqrt(np.sum(r * r, axis=1)))
+        return out
 
 
 def _mesh_sets(p, t, keys):
@@ -346,7 +382,7 @@ def _mesh_sets(p, t, keys):
         if key == "wall":
             wall_len = np.hypot(*(b - a).T)
         test = np.hstack([p[:, np.unique(es)], 0.5 * (a + b).T])
-        out.append((key, test, a, b))
+        out.append((key, test, _Walls(a, b)))
         corners = _turning_nodes(p, es)
         joints.append(p[:, corners])
         jkeys += [key] * len(corners)
@@ -393,10 +429,10 @@ def _distances(pts, a, b):
 def _keeps(group, op, sets, tol):
     """True if ``op`` maps every sample point onto the chords of its own key (within tol)."""
     for quick in (True, False):
-        for key, test, a, b in sets:
+        for key, test, walls in sets:
             pts = test if not quick else test[:, :: max(1, test.shape[1] // 24)]
             moved = group.apply(op, pts).T
-            if np.max(_distances(moved, a, b)) > tol:
+            if np.max(walls.distance(moved)) > tol:
                 return False
     return True
 
