@@ -13,6 +13,7 @@ from femodes.quantities import NP_TO_DB, modal_impedances, pair_impedances
 from femodes.report.analysis import PERTURBATION_LIMIT, as_study, sweep_name
 from femodes.report.text import (
     _band,
+    _class_column_needed,
     _degenerate_text,
     _err_text,
     _f_ghz,
@@ -57,13 +58,14 @@ def modes_table(result, title=None, family=None) -> str:
     lines.append("")
 
     modes = study.modes
+    with_class = _class_column_needed(sec)  # D1 / D2 about the own axes: the parity column says it
     if study.loaded:
         lines.append("cutoffs (beta = 0) of the loaded guide:")
         head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"]
         right = {0, 3, 4, 5}
     else:
         head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
-                "degenerate with", "symmetry", "nodal regions", "class"]
+                "degenerate with", "symmetry", "nodal regions"] + (["class"] if with_class else [])
         right = {0, 3, 4, 5, 6, 9}
     rows = []
     for m in modes:
@@ -73,7 +75,8 @@ def modes_table(result, title=None, family=None) -> str:
                _significant(wl * 1e3, sig) if math.isfinite(wl) else "-"]
         if not study.loaded:
             row += [_significant(m.kc, sig) if m.kc > 0 else "0", _degenerate_text(m), _symmetry_text(m.symmetry),
-                    "-" if m.nodal_domains is None else str(m.nodal_domains), m.symmetry_class or "-"]
+                    "-" if m.nodal_domains is None else str(m.nodal_domains)]
+            row += [m.symmetry_class or "-"] if with_class else []
         rows.append(row)
     lines += _grid(head, rows, right)
     if study.loaded:

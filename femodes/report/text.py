@@ -64,7 +64,18 @@ def _group_info(obj):
     except FemodesError:
         return {}
     return {"symmetry_group": g.name, "symmetry": g.describe(),
-            "symmetry_centre": [float(g.centre[0]), float(g.centre[1])]}
+            "symmetry_centre": [float(g.centre[0]), float(g.centre[1])],
+            "symmetry_mirrors_deg": [round(math.degrees(a), 9) for a in g.mirrors]}
+
+
+def _class_column_needed(sec):
+    """True when the mode classes say more than the x / y parity column: a group with a mirror
+    line other than the own x and y axes, or turns without mirrors (C2, C3, ...), or D3 and up."""
+    name = sec.get("symmetry_group")
+    if name in (None, "C1", "circular"):
+        return False
+    return not (name in ("D1", "D2") and all(min(d % 180, 180 - d % 180) < 1e-6 or abs(d % 180 - 90) < 1e-6
+                                             for d in sec.get("symmetry_mirrors_deg", ())))
 
 
 def _section_info(result):
