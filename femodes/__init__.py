@@ -35,6 +35,7 @@ from femodes.geometry.shapes import (
     single_ridge,
     standard,
 )
+from femodes.geometry.symmetry import SymmetryGroup, symmetry_group
 from femodes.modes import LoadedCutoff, LoadedMode, LoadedModes, Mode, ModeSet
 from femodes.quantities import attenuation, impedance, power_handling
 from femodes.report.figures import field_pattern
@@ -42,7 +43,8 @@ from femodes.studies import SelfCheck, Sensitivity, Tolerance, seek, selfcheck, 
 
 __all__ = [
     "FemodesError", "Mesh", "mesh_section", "read_mesh", "write_mesh", "Mode", "ModeSet", "LoadedMode",
-    "LoadedCutoff", "LoadedModes", "Section", "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
+    "LoadedCutoff", "LoadedModes", "Section", "SymmetryGroup", "symmetry_group",
+    "circle", "coaxial", "double_ridge", "ellipse", "l_shape", "polygon", "rectangle",
     "rectangular_coax", "ridged", "sector", "single_ridge", "standard", "solve", "dispersion", "study", "attenuation",
     "impedance", "power_handling", "field_pattern", "selfcheck", "SelfCheck",
     "sweep", "seek", "sensitivity", "Sensitivity", "tolerance", "Tolerance", "C0", "EPS0", "ETA0", "MU0",

@@ -154,8 +154,9 @@ def test_side_slab_modes_within_their_estimates_on_a_fixed_mesh(slab_file):
                 min(modes[0].beta() ** 2 * 1.01, EPS * k0 * k0 * 0.999999))
     assert abs(modes[0].beta() - math.sqrt(b2)) <= modes[0].beta_error
     # LSE10 has no E_z (TE) and grows from the empty guide's first mode, TE10 (Collin ch. 6); on a
-    # mesh file the empty-guide modes are named by family and ordinal
-    assert modes[0].family == "TE" and modes[0].parent == "TE1" and modes[0].parent_share > 0.8
+    # mesh file the empty-guide modes are named by family and ordinal, with their parity about the
+    # mesh's mirror lines through its centroid (TE10: odd in x, even in y)
+    assert modes[0].family == "TE" and modes[0].parent == "TE1 (x odd, y even)" and modes[0].parent_share > 0.8
 
 
 def test_side_slab_cutoffs_within_their_estimates_on_a_fixed_mesh(slab_file):
@@ -196,7 +197,7 @@ def test_dispersion_on_a_mesh_file_follows_the_reference_curves(slab_file):
         for i, f in enumerate(fs):
             want = {r.label: r.beta2 for r in _slab_refs(f, 4)}[label]
             assert abs(disp.beta2[i, k] - want) / ((2 * math.pi * f / C0) ** 2 * EPS) < 1e-4, (label, f)
-    assert disp.labels[0] == "TE from TE1"
+    assert disp.labels[0] == "TE from TE1 (x odd, y even)"
 
 
 # ----------------------------------------------------------------------------- (b) filled guides
@@ -345,8 +346,8 @@ def test_cli_solves_the_bundled_mesh_example(tmp_path):
     # the dominant mode's beta lies between the empty guide's and that of the guide filled with
     # the card's eps_r everywhere (Rayleigh quotient monotone in eps: common practice; kc of the
     # 22 mm guide's TE10, Pozar sec. 3.3, moved by its 1 mm corner radii far less than these margins)
-    row = next(l for l in text.splitlines() if l.startswith("1  hybrid from TE1"))
-    beta = float(row.split()[5])
+    row = next(l for l in text.splitlines() if l.startswith("1  hybrid from TE1 (x odd, y even)"))
+    beta = float(row.split(")", 1)[1].split()[1])  # after the label: family, beta
     k0, kc = 2 * math.pi * 12e9 / C0, math.pi / 22e-3
     assert math.sqrt(k0 ** 2 - kc ** 2) < beta < math.sqrt(2.1 * k0 ** 2 - kc ** 2)
     cells = meshio.read(str(tmp_path / "m.vtu")).cell_data["region"][0]

@@ -133,17 +133,18 @@ def band_text(modes, family=None):
 # -- the columns of the tables -----------------------------------------------------------------
 
 
-def cutoff_columns(modes, loaded):
+def cutoff_columns(modes, loaded, with_class=False):
     """(head, rows, right-aligned column indices) of the cutoff table: one row per mode, the
     cutoff in GHz with its error, the cutoff wavelength in mm; for a homogeneous guide also kc
-    (rad/m), the degenerate partners, the symmetry and the nodal regions.  ``loaded``: the modes
-    are cutoffs of a guide with material regions (:class:`~femodes.modes.LoadedCutoff`)."""
+    (rad/m), the degenerate partners, the symmetry and the nodal regions, and with ``with_class``
+    the mode's class in the section's point group.  ``loaded``: the modes are cutoffs of a guide
+    with material regions (:class:`~femodes.modes.LoadedCutoff`)."""
     if loaded:
         head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]"]
         right = {0, 3, 4, 5}
     else:
         head = ["#", "label", "family", "fc [GHz]", "± [GHz]", "cutoff wl [mm]", "kc [rad/m]",
-                "degenerate with", "symmetry", "nodal regions"]
+                "degenerate with", "symmetry", "nodal regions"] + (["class"] if with_class else [])
         right = {0, 3, 4, 5, 6, 9}
     rows = []
     for m in modes:
@@ -154,6 +155,7 @@ def cutoff_columns(modes, loaded):
         if not loaded:
             row += [_significant(m.kc, sig) if m.kc > 0 else "0", _degenerate_text(m), _symmetry_text(m.symmetry),
                     "-" if m.nodal_domains is None else str(m.nodal_domains)]
+            row += [m.symmetry_class or "-"] if with_class else []
         rows.append(row)
     return head, rows, right
 

@@ -11,7 +11,18 @@
 * Circles and centred coax: TE_nm / TM_nm with n the dominant azimuthal harmonic of psi and m the
   ordinal among modes of the same family and n (a degenerate pair counts once).
 * Other shapes: the ordinal within the family, with the parity of psi (E_z for TM, H_z for TE)
-  under the section's mirror symmetries, e.g. 'TE1 (x odd, y even)'.
+  under the section's mirror symmetries, e.g. 'TE1 (x odd, y even)'.  A mesh file's section is
+  mirrored about its centroid when its symmetry group holds the mirror lines x = x_c / y = y_c.
+* Symmetry class (``Mode.symmetry_class``, ``Mode.symmetry_group``): the section's point group
+  (:func:`femodes.geometry.symmetry.symmetry_group`, from the walls and material outlines, mesh
+  files included) and the class of psi in it.  The share of psi in the class rho is
+  (d_rho / |G|) sum_g chi_rho(g) <psi, psi o g> / <psi, psi> (the isotypic projector; the shares
+  of all classes add up to one), <.,.> sampled at element centroids and psi o g read at the moved
+  points; a mode is named by the class holding at least 0.8 of it, else as a mix of the two
+  largest (a degeneracy of the shape beyond its group, e.g. a square's TE13/TE31).  Degenerate
+  groups of shapes not named by indices are first split along the classes (the projectors'
+  ranges), so that a triangle's pairs are the two-dimensional classes of D3.  Circular sections
+  are named by the dominant azimuthal order of psi.
 """
 
 from __future__ import annotations
@@ -21,11 +32,13 @@ from dataclasses import replace
 
 import numpy as np
 
+from femodes.geometry.symmetry import mesh_symmetry, symmetry_group
 from femodes.modes.model import Mode
 from femodes.solvers.electrostatic import line_parameters
 from femodes.solvers.fields import ModeField, interpolation_matrices, reference_points_matrix
 
 _CENTROID = np.array([[1 / 3], [1 / 3]])
+_INDEX_KINDS = ("rectangle", "rounded_rectangle", "circle", "coaxial")
 _MAX_SAMPLES = 3000
 
 
@@ -46,12 +59,26 @@ class _Analyser:
         canon = section.translated(-x0, -y0).rotated(-th) if section is not None else None
         self.canon = canon
         self.sym = {}
-        if canon is not None:
+        mesh = self.basis.mesh
+        if section is not None:
+            self.group = symmetry_group(section)
             for ax in ("x", "y"):
                 if canon.is_symmetric(ax):
                     self.sym[ax] = True
+        else:  # a mesh file: mirrored about its centroid where its group allows
+            self.group = mesh_symmetry(mesh.p, mesh.t)
+            g = self.group
+            self.frame = (g.centre[0], g.centre[1], 0.0)
+            lines = [round(math.degrees(a) % 180.0, 6) for a in g.mirrors]
+            if g.continuous or any(abs(d - 90) < 1e-6 for d in lines):
+                self.sym["x"] = True  # the line x = x_c: x -> -x
+            if g.continuous or any(min(d, 180 - d) < 1e-6 for d in lines):
+                self.sym["y"] = True
+        self._ops = None if self.group.continuous else self.group.operations()
+        self._classes = None if self.group.continuous else self.group.classes()
         self._P = None
         self._mirror = {}
+        self._moved = {}
         self._energy = None
 
     def _points(self):
@@ -112,6 +139,72 @@ class _Analyser:
             self._energy = exx.assemble(self.basis).tocsr()
         return X.T @ (self._energy @ X)
 
+    def op_form(self, k, X):
+        """Matrix  int psi_i(x) psi_j(g_k x) dA  for the columns of X and the k-th operation
+        of the section's group (approximate quadrature), and the Gram matrix int psi_i psi_j dA."""
+        P = self._points()
+        if k not in self._moved:
+            op = self._ops[k]
+            if op.kind == "turn" and op.angle == 0.0:
+                self._moved[k] = (P, np.ones(P.shape[0], dtype=bool))
+            else:
+                Pm, _, _, ok = interpolation_matrices(self.basis, self.group.apply(op, self._xy))
+                self._moved[k] = (Pm, ok)
+        Pm, ok = self._moved[k]
+        PX = P @ X
+        return (PX * (self._w * ok)[:, None]).T @ (Pm @ X), (PX * self._w[:, None]).T @ PX
+
+    def class_shares(self, X):
+        """(n_columns, n_classes) share of each column's psi in each class of the group."""
+        ops, classes = self._ops, self._classes
+        diag = np.zeros((len(ops), X.shape[1]))
+        for k in range(len(ops)):
+            S, G = self.op_form(k, X)
+            diag[k] = np.diag(S) / np.maximum(np.diag(G), 1e-300)
+        chars = np.array([c.characters for c in classes])  # (classes, ops)
+        dims = np.array([c.dimension for c in classes])[:, None]
+        return ((dims / len(ops)) * chars @ diag).T
+
+    def class_split(self, X):
+        """The columns of X recombined into blocks, one per class of the group found in their
+        span (the ranges of the isotypic projectors, orthonormal in the sampled inner product)."""
+        ops, classes = self._ops, self._classes
+        Ss = [self.op_form(k, X) for k in range(len(ops))]
+        G = Ss[0][1]
+        try:
+            L = np.linalg.cholesky(0.5 * (G + G.T))
+        except np.linalg.LinAlgError:
+            return [X]
+        Linv = np.linalg.inv(L)
+        blocks = []
+        for c in classes:
+            Pr = sum(ch * (Linv @ S @ Linv.T) for ch, (S, _) in zip(c.characters, Ss)) * (c.dimension / len(ops))
+            w, V = np.linalg.eigh(0.5 * (Pr + Pr.T))
+            sel = w > 0.5
+            if np.any(sel):
+                blocks.append(X @ (Linv.T @ V[:, sel]))
+        if sum(b.shape[1] for b in blocks) != X.shape[1]:
+            return [X]  # the split is not clean (an unresolved field): keep the basis as it was
+        return blocks
+
+    def class_words(self, x, kind=None, n_az=None):
+        """The words for the class of psi = x (see the module docstring)."""
+        g = self.group
+        if g.continuous:
+            if n_az is None:
+                R = float(np.max(np.hypot(self.basis.mesh.p[0] - g.centre[0], self.basis.mesh.p[1] - g.centre[1])))
+                n_az = self.azimuthal_order(x, g.centre, 0.1 * R, 0.9 * R)
+            return "unchanged by every turn" if n_az == 0 else f"degenerate pair, azimuthal order {n_az}"
+        if g.name == "C1":
+            return ""
+        shares = self.class_shares(x[:, None])[0]
+        order = np.argsort(shares)[::-1]
+        best = self._classes[order[0]]
+        if shares[order[0]] >= 0.8:
+            return best.words
+        second = self._classes[order[1]]
+        return f"mixes ({best.words}) and ({second.words})"
+
     def parity(self, x):
         out = {}
         for ax in ("x", "y"):
@@ -151,9 +244,13 @@ class _Analyser:
         return int(np.sum(counts >= 3))
 
 
-def _symmetry_adapt(an, X):
-    """Rotate the columns of X (one degenerate group of one family) to a symmetry-adapted basis."""
+def _symmetry_adapt(an, X, split_classes=True):
+    """Rotate the columns of X (one degenerate group of one family) to a symmetry-adapted basis:
+    split along the group's classes (not for shapes named by indices: a square's TE13/TE31 would
+    mix), then by the x and y mirrors, then by the x-gradient energy."""
     blocks = [X]
+    if split_classes and an._ops is not None and len(an._ops) > 1:
+        blocks = an.class_split(X)
     for ax in ("x", "y"):
         if not an.sym.get(ax):
             continue
@@ -189,6 +286,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
     'TEM2', ...).  The fields of different TEM modes are orthogonal (int e_k . e_l dA = 0)."""
     disc = fine["disc"]
     an = _Analyser(section, disc)
+    kind = section.kind if section is not None else "mesh"
     M = disc.M
     rows = list(merged)
     lam = np.array([r[0] for r in rows])
@@ -206,7 +304,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
             idx = [i for i in g if rows[i][2] == fam]
             if len(idx) > 1:
                 X = np.column_stack([vectors[i] for i in idx])
-                Y = _symmetry_adapt(an, X)
+                Y = _symmetry_adapt(an, X, split_classes=kind not in _INDEX_KINDS)
                 for k, i in enumerate(idx):
                     vectors[i] = Y[:, k]
     modes = []
@@ -237,7 +335,6 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
     for gi, g in enumerate(groups):
         for i in g:
             group_of[i + offset] = gi
-    kind = section.kind if section is not None else "mesh"
     params = section.params if section is not None else {}
     out = []
     azim_counts = {}
@@ -246,7 +343,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
         fam = m["family"]
         ordinals[fam] = ordinals.get(fam, 0) + 1
         kc = math.sqrt(m["lam"])
-        info = dict(indices=None, symmetry={}, nodal_domains=None)
+        info = dict(indices=None, symmetry={}, nodal_domains=None, cls="")
         if fam == "TEM":
             label = tem_labels[k]
         else:
@@ -275,6 +372,8 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
                 mr = azim_counts[key]
                 info["indices"] = (n_az, mr)
                 label = _index_label(fam, n_az, mr)
+            n_az = info["indices"][0] if kind in ("circle", "coaxial") and info["indices"] else None
+            info["cls"] = an.class_words(x, kind, n_az)
             if label is None:
                 label = f"{fam}{ordinals[fam]}"
                 sym = info["symmetry"]
@@ -283,6 +382,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
         out.append(Mode(family=fam, kc=kc, kc_error=safety * m["err"] / (2 * kc) if kc > 0 else 0.0,
                         eps_r=eps_r, mu_r=mu_r, label=label, index=k, ordinal=ordinals[fam],
                         indices=info["indices"], symmetry=info["symmetry"],
+                        symmetry_class=info["cls"], symmetry_group=an.group.name,
                         nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"],
                         section=section))
     # degeneracy links (TEM modes form one group at kc = 0); multiplicity also counts group

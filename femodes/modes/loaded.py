@@ -105,6 +105,8 @@ class LoadedMode:
     fc = math.nan
     fc_error = math.nan
     symmetry = {}
+    symmetry_class = ""
+    symmetry_group = ""
     nodal_domains = None
     indices = None
     degenerate_with = ()
@@ -201,6 +203,8 @@ class LoadedCutoff:
     kc = math.nan  # the empty guide's kc has no meaning here: the cutoff is a frequency
     kc_error = math.nan
     symmetry = {}
+    symmetry_class = ""
+    symmetry_group = ""
     nodal_domains = None
     indices = None
     degenerate_with = ()

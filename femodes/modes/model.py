@@ -49,6 +49,10 @@ class Mode:
     indices   : (m, n) for rectangles, (n, m) azimuthal/radial for circles and coax, else None
     symmetry  : parity of psi under x -> -x and y -> -y about the section's own axes,
                 e.g. {'x': 'odd', 'y': 'even'}; empty if the section has no such symmetry
+    symmetry_class : the class of psi in the section's symmetry group, in words ('even about all 3
+                mirror lines', 'degenerate pair: 2-D class of D4', ...; '' without symmetry or
+                for TEM modes); see femodes.modes.labels
+    symmetry_group : the group's name ('D4', 'C2', 'circular', ...; femodes.geometry.symmetry)
     degenerate_with : indices of the other modes with the same cutoff (within the error estimate)
     multiplicity : how many modes share this cutoff, counting partners beyond the ``modes`` asked
     potential : the finite-element potential psi (:class:`ModeField`)
@@ -67,6 +71,8 @@ class Mode:
     ordinal: int = 0
     indices: tuple | None = None
     symmetry: dict = _dcfield(default_factory=dict)
+    symmetry_class: str = ""
+    symmetry_group: str = ""
     nodal_domains: int | None = None
     degenerate_with: tuple = ()
     multiplicity: int = 1

@@ -71,6 +71,8 @@ def report_document(result, analysis=None, title=None) -> dict:
             "degenerate_with": [int(i) for i in m.degenerate_with],
             "multiplicity": int(m.multiplicity),
             "symmetry": dict(m.symmetry),
+            "symmetry_class": m.symmetry_class or None,
+            "symmetry_group": m.symmetry_group or None,
             "nodal_domains": None if m.nodal_domains is None else int(m.nodal_domains),
             "indices": None if m.indices is None else [int(i) for i in m.indices],
         } for m in modes],

@@ -21,7 +21,8 @@ from femodes.report.figures import safe_name
 from femodes.solvers.fields import _transverse
 
 CSV_COLUMNS = ("index", "label", "family", "cutoff_type", "parent", "fc_Hz", "fc_error_Hz", "kc_rad_per_m",
-               "kc_error_rad_per_m", "cutoff_wavelength_m", "degenerate_with", "symmetry", "nodal_domains")
+               "kc_error_rad_per_m", "cutoff_wavelength_m", "degenerate_with", "symmetry", "nodal_domains",
+               "symmetry_class")
 
 #: columns of the quantities at the analysis frequency (``<name>.at_frequency.csv``)
 AT_FREQUENCY_COLUMNS = ("index", "label", "family", "parent", "frequency_Hz", "propagates", "beta_rad_per_m",
@@ -54,7 +55,8 @@ def write_csv(result, path, analysis=None):
     """The report as CSV tables, SI units named in each header, the same for every guide:
     ``path`` has one row per mode of the lowest cutoffs (:data:`CSV_COLUMNS`; ``index`` and
     ``degenerate_with`` are 0-based positions, space-separated; ``symmetry`` like
-    ``x=odd;y=even``; empty where a value does not exist for the kind of guide); with an
+    ``x=odd;y=even``; ``symmetry_class`` the mode's class in the section's symmetry group, in
+    words (femodes.modes.labels); empty where a value does not exist for the kind of guide); with an
     :class:`Analysis`, ``<name>.at_frequency.csv`` has the quantities at its frequency
     (:data:`AT_FREQUENCY_COLUMNS`); with a band, ``<name>.dispersion.csv`` has beta of each
     followed mode at each frequency (:data:`DISPERSION_COLUMNS`: beta empty where evanescent, alpha
@@ -66,7 +68,7 @@ def write_csv(result, path, analysis=None):
                      _num(m.kc), _num(m.kc_error), _num(m.cutoff_wavelength),
                      " ".join(str(i) for i in m.degenerate_with),
                      ";".join(f"{k}={v}" for k, v in sorted(m.symmetry.items())),
-                     "" if m.nodal_domains is None else m.nodal_domains))
+                     "" if m.nodal_domains is None else m.nodal_domains, m.symmetry_class))
     written = [_write_rows(path, rows)]
     if analysis is not None:
         f = analysis.frequency

@@ -13,6 +13,7 @@ from femodes.modes.display import band_text, cutoff_columns
 from femodes.quantities import NP_TO_DB, modal_impedances, pair_impedances
 from femodes.report.analysis import PERTURBATION_LIMIT, as_study, sweep_name
 from femodes.report.text import (
+    _class_column_needed,
     _f_ghz,
     _g,
     _grid,
@@ -36,6 +37,8 @@ def modes_table(result, title=None, family=None) -> str:
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else "")]
     sec = _section_info(study)
     lines.append(f"section: {sec['description']}")
+    if "symmetry" in sec:
+        lines.append(f"symmetry: {sec['symmetry']}")
     if "frame" in sec:
         fr = sec["frame"]
         lines.append(f"placed: own origin at ({fr['x0'] * 1e3:.6g}, {fr['y0'] * 1e3:.6g}) mm, "
@@ -51,9 +54,10 @@ def modes_table(result, title=None, family=None) -> str:
     lines.append("")
 
     modes = study.modes
+    with_class = _class_column_needed(sec)  # D1 / D2 about the own axes: the parity column says it
     if study.loaded:
         lines.append("cutoffs (beta = 0) of the loaded guide:")
-    lines += _grid(*cutoff_columns(modes, study.loaded))  # the same columns as the notebook's HTML
+    lines += _grid(*cutoff_columns(modes, study.loaded, with_class))  # the same columns as the notebook's HTML
     if study.loaded:
         lines += _wrap("(label: TE-type has only transverse E at cutoff, TM-type only E_z; 'from': the "
                        "empty-guide mode whose field at cutoff it mostly has; cutoff wl: the free-space "

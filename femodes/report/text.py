@@ -10,6 +10,8 @@ import textwrap
 
 import numpy as np
 
+from femodes.errors import FemodesError
+from femodes.geometry.symmetry import symmetry_group
 from femodes.modes.display import (  # noqa: F401  (moved below the mode model; the report's names kept)
     _band,
     _decimals,
@@ -25,16 +27,38 @@ from femodes.modes.display import (  # noqa: F401  (moved below the mode model; 
 )
 
 
+def _group_info(obj):
+    """The section's symmetry group (femodes.geometry.symmetry): its name and one line of words."""
+    try:
+        g = symmetry_group(obj)
+    except FemodesError:
+        return {}
+    return {"symmetry_group": g.name, "symmetry": g.describe(),
+            "symmetry_centre": [float(g.centre[0]), float(g.centre[1])],
+            "symmetry_mirrors_deg": [round(math.degrees(a), 9) for a in g.mirrors]}
+
+
+def _class_column_needed(sec):
+    """True when the mode classes say more than the x / y parity column: a group with a mirror
+    line other than the own x and y axes, or turns without mirrors (C2, C3, ...), or D3 and up."""
+    name = sec.get("symmetry_group")
+    if name in (None, "C1", "circular"):
+        return False
+    return not (name in ("D1", "D2") and all(min(d % 180, 180 - d % 180) < 1e-6 or abs(d % 180 - 90) < 1e-6
+                                             for d in sec.get("symmetry_mirrors_deg", ())))
+
+
 def _section_info(result):
     """kind, params (SI), description and placement of the section of a ModeSet or a Study."""
     sec = result.section
     if sec is None or not hasattr(sec, "describe"):
         mesh = sec if sec is not None else result.mesh
         return {"kind": "mesh", "params": {},
-                "description": f"triangle mesh ({mesh.n_triangles} triangles, {mesh.n_vertices} vertices)"}
+                "description": f"triangle mesh ({mesh.n_triangles} triangles, {mesh.n_vertices} vertices)",
+                **_group_info(mesh)}
     info = {"kind": sec.kind, "params": {k: float(v) for k, v in sec.params.items()
                                          if isinstance(v, (int, float)) and not isinstance(v, bool)},
-            "description": sec.describe()}
+            "description": sec.describe(), **_group_info(sec)}
     x0, y0, ang = getattr(sec, "frame", (0.0, 0.0, 0.0))  # a mesh file is where it was drawn
     if x0 or y0 or ang:
         info["frame"] = {"x0": float(x0), "y0": float(y0), "angle": float(ang)}
