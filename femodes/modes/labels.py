@@ -20,6 +20,7 @@ import math
 from dataclasses import replace
 
 import numpy as np
+from scipy import ndimage
 
 from femodes.modes.model import Mode
 from femodes.solvers.electrostatic import line_parameters
@@ -27,6 +28,11 @@ from femodes.solvers.fields import ModeField, interpolation_matrices, reference_
 
 _CENTROID = np.array([[1 / 3], [1 / 3]])
 _MAX_SAMPLES = 3000
+# nodal regions: grid pixels along the longer side, the |psi| / max below which a pixel lies on a
+# nodal line, and the smallest region counted (share of the section's pixels)
+_NODAL_GRID = 160
+_NODAL_ZERO = 0.02
+_NODAL_MIN = 0.004
 
 
 def _index_label(family, a, b):
@@ -53,6 +59,7 @@ class _Analyser:
         self._P = None
         self._mirror = {}
         self._energy = None
+        self._grid = None
 
     def _points(self):
         """Element centroids (at most _MAX_SAMPLES, evenly picked) with area weights."""
@@ -134,21 +141,37 @@ class _Analyser:
         return int(np.argmax(spec))
 
     def nodal_domains(self, x):
-        """Number of connected regions where psi keeps one sign (vertex values, mesh edges)."""
-        from scipy.sparse import coo_matrix
-        from scipy.sparse.csgraph import connected_components
-
-        mesh = self.basis.mesh
-        nv = mesh.t.max() + 1
-        v = x[:nv]  # Lagrange vertex dofs come first
-        tol = 1e-3 * np.max(np.abs(v))
-        sgn = np.where(v > tol, 1, np.where(v < -tol, -1, 0))
-        e = mesh.facets
-        same = (sgn[e[0]] == sgn[e[1]]) & (sgn[e[0]] != 0)
-        g = coo_matrix((np.ones(same.sum()), (e[0, same], e[1, same])), shape=(nv, nv))
-        _, lab = connected_components(g, directed=False)
-        labs, counts = np.unique(lab[sgn != 0], return_counts=True)
-        return int(np.sum(counts >= 3))
+        """Number of connected regions where psi keeps one sign, counted on a fixed grid that does
+        not depend on the mesh: _NODAL_GRID pixels along the longer side of the bounding box,
+        psi interpolated at the pixel centres inside the section, pixels with |psi| below
+        _NODAL_ZERO of its largest value taken as on a nodal line, regions of one sign found
+        with scipy.ndimage.label (edge neighbours only) and regions under _NODAL_MIN of the
+        section's pixels dropped (slivers along a nodal line, not domains).  A rectangle's
+        TE_mn / TM_mn has (m + 1)(n + 1) / m n regions (sin / cos products, common practice)."""
+        if self._grid is None:
+            mesh = self.basis.mesh
+            lo, hi = mesh.p.min(axis=1), mesh.p.max(axis=1)
+            span = hi - lo
+            step = float(max(span)) / _NODAL_GRID
+            nx, ny = (max(4, int(math.ceil(s / step))) for s in span)
+            gx = lo[0] + (np.arange(nx) + 0.5) * span[0] / nx
+            gy = lo[1] + (np.arange(ny) + 0.5) * span[1] / ny
+            X, Y = np.meshgrid(gx, gy, indexing="ij")
+            P, _, _, ok = interpolation_matrices(self.basis, np.array([X.ravel(), Y.ravel()]))
+            self._grid = (P, ok.reshape(nx, ny))
+        P, inside = self._grid
+        v = (P @ x).reshape(inside.shape)
+        big = np.max(np.abs(v[inside])) if np.any(inside) else 0.0
+        if not big > 0:
+            return None
+        n_min = _NODAL_MIN * np.count_nonzero(inside)
+        count = 0
+        for sign in (1, -1):
+            lab, n = ndimage.label(inside & (sign * v > _NODAL_ZERO * big))
+            if n:
+                sizes = np.bincount(lab.ravel())[1:]
+                count += int(np.count_nonzero(sizes >= n_min))
+        return count
 
 
 def _symmetry_adapt(an, X):
