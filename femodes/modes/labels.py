@@ -200,6 +200,39 @@ def _symmetry_adapt(an, X):
     return np.hstack(out)
 
 
+#: degeneracy kinds (Mode.degeneracy): forced by the section's mirror / rotation symmetry, by the
+#: identity of the TE and TM eigenvalue problems (rectangle TE_mn / TM_mn, circle and coax TE_0m /
+#: TM_1m: J_0' = -J_1), several TEM modes (kc = 0), or accidental: closer than the error bars
+SYMMETRY, IDENTITY, TEM_KIND, WITHIN_ERROR = "symmetry", "TE/TM identity", "TEM", "within error bar"
+
+
+def _degeneracy_kind(section, a, b):
+    """Why modes a and b share a cutoff: one of the kinds above.  Forced kinds are recognised on
+    the shapes whose closed forms show them (rectangle, square, circle, centred coax); anything
+    else grouped by the error bars is called accidental."""
+    if a.family == "TEM" and b.family == "TEM":
+        return TEM_KIND
+    kind = section.kind if section is not None else "mesh"
+    params = section.params if section is not None else {}
+    ia, ib = a.indices, b.indices
+    if ia is None or ib is None:
+        return WITHIN_ERROR
+    if kind in ("rectangle", "rounded_rectangle"):
+        square = math.isclose(params["width"], params["height"], rel_tol=1e-12)
+        swapped = square and tuple(ia) == tuple(ib)[::-1]
+        if a.family == b.family:
+            return SYMMETRY if swapped and tuple(ia) != tuple(ib) else WITHIN_ERROR
+        if kind == "rectangle" and (tuple(ia) == tuple(ib) or swapped) and min(ia) > 0:
+            return IDENTITY
+        return WITHIN_ERROR
+    if kind in ("circle", "coaxial") and "offset_x" not in params and "offset_y" not in params:
+        if a.family == b.family:
+            return SYMMETRY if ia == ib and ia[0] > 0 else WITHIN_ERROR
+        te, tm = (ia, ib) if a.family == "TE" else (ib, ia)
+        return IDENTITY if te[0] == 0 and tm[0] == 1 and te[1] == tm[1] else WITHIN_ERROR
+    return WITHIN_ERROR
+
+
 def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=None):
     """Turn merged eigen rows and TEM potentials into labelled Mode objects (ascending cutoff).
 
@@ -252,8 +285,8 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
         x = x if x[j] > 0 else -x
         modes.append(dict(family=r[2], lam=r[0], err=r[1], res=r[4], vec=x,
                           field=ModeField(disc.basis, x, r[2], math.sqrt(r[0]), 1.0 / math.sqrt(r[0]))))
-    modes = modes[:n_modes]
-    # identities
+    # identities (every computed row is labelled: the rows beyond ``n_modes`` are members of a
+    # degenerate group the count cut, kept below if the degeneracy is forced)
     ordinals = {}
     group_of = {}
     offset = len([m for m in modes if m["family"] == "TEM"])
@@ -308,19 +341,29 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
                         indices=info["indices"], symmetry=info["symmetry"],
                         nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"],
                         section=section))
-    # degeneracy links (TEM modes form one group at kc = 0); multiplicity also counts group
-    # members computed beyond the number of modes asked for
+    # degeneracy links (TEM modes form one group at kc = 0) and their kinds; a group the count
+    # cuts is completed when its degeneracy is forced (symmetry, TE/TM identity, TEM); the
+    # multiplicity also counts members computed beyond the modes returned
     tem_idx = tuple(i for i, m in enumerate(out) if m.family == "TEM")
-    final = []
+    members = []
     for k, m in enumerate(out):
         if m.family == "TEM":
-            others = tuple(i for i in tem_idx if i != k)
-            mult = len(tem_idx)
+            members.append(tuple(i for i in tem_idx if i != k))
         else:
             g = group_of[k]
-            others = tuple(i for i in range(len(out)) if i != k and group_of.get(i) == g)
-            mult = len(groups[g])
-        final.append(replace(m, degenerate_with=others, multiplicity=mult))
+            members.append(tuple(i for i in range(len(out)) if i != k and group_of.get(i) == g))
+    kinds = [", ".join(sorted({_degeneracy_kind(section, out[k], out[i]) for i in members[k]}))
+             for k in range(len(out))]
+    n_keep = min(n_modes, len(out))
+    while 0 < n_keep < len(out) and n_keep - 1 in members[n_keep] and kinds[n_keep] \
+            and kinds[n_keep] != WITHIN_ERROR:
+        n_keep += 1
+    final = []
+    for k in range(n_keep):
+        m = out[k]
+        mult = len(tem_idx) if m.family == "TEM" else len(groups[group_of[k]])
+        others = tuple(i for i in members[k] if i < n_keep)
+        final.append(replace(m, degenerate_with=others, multiplicity=mult, degeneracy=kinds[k]))
     for k, m in enumerate(final):
         same = [i for i in m.degenerate_with if final[i].family == m.family]
         if len(same) == 1:

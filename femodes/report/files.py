@@ -21,7 +21,8 @@ from femodes.report.figures import safe_name
 from femodes.solvers.fields import _transverse
 
 CSV_COLUMNS = ("index", "label", "family", "cutoff_type", "parent", "fc_Hz", "fc_error_Hz", "kc_rad_per_m",
-               "kc_error_rad_per_m", "cutoff_wavelength_m", "degenerate_with", "symmetry", "nodal_domains")
+               "kc_error_rad_per_m", "cutoff_wavelength_m", "degenerate_with", "symmetry", "nodal_domains",
+               "degeneracy")
 
 #: columns of the quantities at the analysis frequency (``<name>.at_frequency.csv``)
 AT_FREQUENCY_COLUMNS = ("index", "label", "family", "parent", "frequency_Hz", "propagates", "beta_rad_per_m",
@@ -66,7 +67,7 @@ def write_csv(result, path, analysis=None):
                      _num(m.kc), _num(m.kc_error), _num(m.cutoff_wavelength),
                      " ".join(str(i) for i in m.degenerate_with),
                      ";".join(f"{k}={v}" for k, v in sorted(m.symmetry.items())),
-                     "" if m.nodal_domains is None else m.nodal_domains))
+                     "" if m.nodal_domains is None else m.nodal_domains, getattr(m, "degeneracy", "")))
     written = [_write_rows(path, rows)]
     if analysis is not None:
         f = analysis.frequency
