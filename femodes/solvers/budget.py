@@ -22,11 +22,13 @@ except ImportError:  # pragma: no cover
 __all__ = ["available_memory", "predicted_memory", "predicted_time", "Progress", "BYTES_PER_UNKNOWN"]
 
 # peak resident bytes per unknown of one step of the accuracy loop (measured, rounded up)
-BYTES_PER_UNKNOWN = 5000.0
+BYTES_PER_UNKNOWN = 5500.0
 # seconds of one step of the accuracy loop at REFERENCE_UNKNOWNS, and its growth exponent (measured)
-SECONDS_PER_UNKNOWN = 1.0e-4
+SECONDS_PER_UNKNOWN = 2.0e-4
 REFERENCE_UNKNOWNS = 1.0e5
 TIME_EXPONENT = 1.2
+# measured (2026-12-05, WR-90, p = 4, fixed mesh size, peak RSS above the interpreter's): 55k
+# unknowns 10 modes 4.6 kB / unknown, 8.1 s; 123k 10 modes 4.4 kB, 23 s; 123k 40 modes 5.0 kB, 53 s
 
 
 def available_memory():
