@@ -342,7 +342,9 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
                         nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"],
                         section=section))
     # degeneracy links (TEM modes form one group at kc = 0) and their kinds; a group the count
-    # cuts is completed when its degeneracy is forced (symmetry, TE/TM identity, TEM); the
+    # cuts is completed when its degeneracy is forced (symmetry, TE/TM identity: any member alone
+    # is an arbitrary pick of the group's span); not the TEM modes, which the line's modal set
+    # (ascending modal impedance) already tells apart; the
     # multiplicity also counts members computed beyond the modes returned
     tem_idx = tuple(i for i, m in enumerate(out) if m.family == "TEM")
     members = []
@@ -356,7 +358,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
              for k in range(len(out))]
     n_keep = min(n_modes, len(out))
     while 0 < n_keep < len(out) and n_keep - 1 in members[n_keep] and kinds[n_keep] \
-            and kinds[n_keep] != WITHIN_ERROR:
+            and kinds[n_keep] not in (WITHIN_ERROR, TEM_KIND):
         n_keep += 1
     final = []
     for k in range(n_keep):
