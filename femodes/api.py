@@ -135,7 +135,7 @@ def _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family):
     line = line_parameters(sol.tem, eps_r, mu_r)
     modes = build_modes(section, sol.fine, sol.merged, sol.tem, eps_r, mu_r, sol.safety, n_modes, line)
     return ModeSet(modes, section=section, mesh=sol.mesh, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy,
-                   n_dofs=sol.n_dofs, order=sol.order, mesh_size=sol.mesh_size, family=family, line=line)
+                   modes_asked=n_modes, n_dofs=sol.n_dofs, order=sol.order, mesh_size=sol.mesh_size, family=family, line=line)
 
 
 def _check_count(modes):

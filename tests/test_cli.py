@@ -64,7 +64,11 @@ def test_solve_prints_the_table(capsys, wr90):
     assert "WR-90 X-band guide" in out
     assert "rectangle(width=22.86 mm, height=10.16 mm)" in out
     rows = [line.split() for line in out.splitlines() if line[:1].isdigit()]
-    assert [r[1] for r in rows] == ["TE10", "TE20", "TE01", "TE11"]
+    # 4 modes asked: the 4th, TE11, shares its cutoff with TM11 (TE/TM identity of the rectangle,
+    # Pozar sec. 3.3), so the group is completed and TM11 comes too (issue 11 item 4)
+    assert [r[1] for r in rows[:3]] == ["TE10", "TE20", "TE01"]
+    assert sorted(r[1] for r in rows[3:]) == ["TE11", "TM11"]
+    assert "(TE/TM identity)" in out
     # TE10 at 6.557 GHz (Pozar sec. 3.3), printed with the digits its error estimate allows
     assert rows[0][3].startswith("6.557140")
     # cutoff wavelength of TE10 is 2a = 45.72 mm
@@ -88,12 +92,18 @@ def test_json_document(capsys, wr90):
     assert doc["accuracy"] == 1e-5
     assert doc["discretisation"]["unknowns"] > 0 and doc["discretisation"]["element_order"] in (1, 2, 3, 4)
     modes = doc["modes"]
-    assert len(modes) == 4
+    # 4 asked; the 4th (TE11) shares its cutoff with TM11 (the rectangle's TE/TM identity, Pozar
+    # sec. 3.3): the group is completed, 5 returned (issue 11 item 4)
+    assert len(modes) == 5 and doc["modes_asked"] == 4 and doc["modes_returned"] == 5
     for m in modes:
         for key in ("index", "label", "family", "kc", "kc_error", "fc", "fc_error", "cutoff_wavelength",
-                    "degenerate_with", "symmetry", "nodal_domains"):
+                    "degenerate_with", "symmetry", "nodal_domains", "degeneracy"):
             assert key in m
-        assert m["family"] == "TE"
+    assert [m["family"] for m in modes[:3]] == ["TE", "TE", "TE"]
+    assert sorted(m["label"] for m in modes[3:]) == ["TE11", "TM11"]
+    assert all(m["degeneracy"] == "TE/TM identity" for m in modes[3:])
+    assert modes[0]["degeneracy"] is None
+    for m in modes:
         # fc = c kc / (2 pi) in air
         assert m["fc"] == pytest.approx(C0 * m["kc"] / (2 * 3.141592653589793), rel=1e-12)
     te10 = modes[0]
@@ -367,7 +377,8 @@ def test_json_analysis_against_closed_forms(capsys, tmp_path):
     te20 = an["modes"][1]
     assert te20["propagates"] is False and te20["alpha"] > 0 and te20["power_handling"] is None
     # the "modes" list keeps its keys (the analysis is an extra object)
-    assert [m["label"] for m in doc["modes"]] == ["TE10", "TE20", "TE01", "TE11"]
+    # (TM11 completes the TE11 / TM11 group cut by the count of 4, issue 11 item 4)
+    assert sorted(m["label"] for m in doc["modes"]) == sorted(["TE10", "TE20", "TE01", "TE11", "TM11"])
     assert "attenuation_db_per_m" not in doc["modes"][0]
 
 

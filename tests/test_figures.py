@@ -228,6 +228,7 @@ def test_circle_te11_pair_both_members(circ, tmp_path):
         other = pair[1] if m is pair[0] else pair[0]
         assert "TE11" in title and "GHz" in title
         assert f"degenerate with mode {other.index + 1}, TE11" in title
+        assert "symmetry" in title  # the pair is forced by the circle's rotation (issue 11 item 4)
         assert f"{m.fc / 1e9:.4f}" in title
         # outline: the exact circle of 5 mm
         x, y = outline_xy(fig.axes[0])

@@ -326,4 +326,6 @@ def test_pair_cut_by_the_mode_count_still_knows_it_is_a_pair():
 ])
 def test_estimates_stay_honest_on_awkward_shapes(make, refs, n):
     modes = fm.solve(make(), modes=n)
-    check_against(modes, refs(n), 1e-6, labels=False)
+    # a symmetry pair cut by the count is completed (the thin coax's TE21 pair: 4 asked, 5 returned)
+    assert len(modes) >= n and modes.modes_asked == n
+    check_against(modes, refs(len(modes)), 1e-6, labels=False)

@@ -87,6 +87,9 @@ def _degenerate_text(m):
     extra = m.multiplicity - 1 - len(m.degenerate_with)
     if extra > 0:
         text = (text + " " if text else "") + f"+{extra} not listed"
+    kind = getattr(m, "degeneracy", "")
+    if text and kind:
+        text += f" ({kind})"
     return text or "-"
 
 

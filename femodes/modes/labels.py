@@ -31,6 +31,7 @@ import math
 from dataclasses import replace
 
 import numpy as np
+from scipy import ndimage
 
 from femodes.geometry.symmetry import mesh_symmetry, symmetry_group
 from femodes.modes.model import Mode
@@ -40,6 +41,11 @@ from femodes.solvers.fields import ModeField, interpolation_matrices, reference_
 _CENTROID = np.array([[1 / 3], [1 / 3]])
 _INDEX_KINDS = ("rectangle", "rounded_rectangle", "circle", "coaxial")
 _MAX_SAMPLES = 3000
+# nodal regions: grid pixels along the longer side, the |psi| / max below which a pixel lies on a
+# nodal line, and the smallest region counted (share of the section's pixels)
+_NODAL_GRID = 160
+_NODAL_ZERO = 0.02
+_NODAL_MIN = 0.004
 
 
 def _index_label(family, a, b):
@@ -80,6 +86,7 @@ class _Analyser:
         self._mirror = {}
         self._moved = {}
         self._energy = None
+        self._grid = None
 
     def _points(self):
         """Element centroids (at most _MAX_SAMPLES, evenly picked) with area weights."""
@@ -227,21 +234,37 @@ class _Analyser:
         return int(np.argmax(spec))
 
     def nodal_domains(self, x):
-        """Number of connected regions where psi keeps one sign (vertex values, mesh edges)."""
-        from scipy.sparse import coo_matrix
-        from scipy.sparse.csgraph import connected_components
-
-        mesh = self.basis.mesh
-        nv = mesh.t.max() + 1
-        v = x[:nv]  # Lagrange vertex dofs come first
-        tol = 1e-3 * np.max(np.abs(v))
-        sgn = np.where(v > tol, 1, np.where(v < -tol, -1, 0))
-        e = mesh.facets
-        same = (sgn[e[0]] == sgn[e[1]]) & (sgn[e[0]] != 0)
-        g = coo_matrix((np.ones(same.sum()), (e[0, same], e[1, same])), shape=(nv, nv))
-        _, lab = connected_components(g, directed=False)
-        labs, counts = np.unique(lab[sgn != 0], return_counts=True)
-        return int(np.sum(counts >= 3))
+        """Number of connected regions where psi keeps one sign, counted on a fixed grid that does
+        not depend on the mesh: _NODAL_GRID pixels along the longer side of the bounding box,
+        psi interpolated at the pixel centres inside the section, pixels with |psi| below
+        _NODAL_ZERO of its largest value taken as on a nodal line, regions of one sign found
+        with scipy.ndimage.label (edge neighbours only) and regions under _NODAL_MIN of the
+        section's pixels dropped (slivers along a nodal line, not domains).  A rectangle's
+        TE_mn / TM_mn has (m + 1)(n + 1) / m n regions (sin / cos products, common practice)."""
+        if self._grid is None:
+            mesh = self.basis.mesh
+            lo, hi = mesh.p.min(axis=1), mesh.p.max(axis=1)
+            span = hi - lo
+            step = float(max(span)) / _NODAL_GRID
+            nx, ny = (max(4, int(math.ceil(s / step))) for s in span)
+            gx = lo[0] + (np.arange(nx) + 0.5) * span[0] / nx
+            gy = lo[1] + (np.arange(ny) + 0.5) * span[1] / ny
+            X, Y = np.meshgrid(gx, gy, indexing="ij")
+            P, _, _, ok = interpolation_matrices(self.basis, np.array([X.ravel(), Y.ravel()]))
+            self._grid = (P, ok.reshape(nx, ny))
+        P, inside = self._grid
+        v = (P @ x).reshape(inside.shape)
+        big = np.max(np.abs(v[inside])) if np.any(inside) else 0.0
+        if not big > 0:
+            return None
+        n_min = _NODAL_MIN * np.count_nonzero(inside)
+        count = 0
+        for sign in (1, -1):
+            lab, n = ndimage.label(inside & (sign * v > _NODAL_ZERO * big))
+            if n:
+                sizes = np.bincount(lab.ravel())[1:]
+                count += int(np.count_nonzero(sizes >= n_min))
+        return count
 
 
 def _symmetry_adapt(an, X, split_classes=True):
@@ -272,6 +295,39 @@ def _symmetry_adapt(an, X, split_classes=True):
             B = B @ V[:, ::-1]  # strongest x-variation first
         out.append(B)
     return np.hstack(out)
+
+
+#: degeneracy kinds (Mode.degeneracy): forced by the section's mirror / rotation symmetry, by the
+#: identity of the TE and TM eigenvalue problems (rectangle TE_mn / TM_mn, circle and coax TE_0m /
+#: TM_1m: J_0' = -J_1), several TEM modes (kc = 0), or accidental: closer than the error bars
+SYMMETRY, IDENTITY, TEM_KIND, WITHIN_ERROR = "symmetry", "TE/TM identity", "TEM", "within error bar"
+
+
+def _degeneracy_kind(section, a, b):
+    """Why modes a and b share a cutoff: one of the kinds above.  Forced kinds are recognised on
+    the shapes whose closed forms show them (rectangle, square, circle, centred coax); anything
+    else grouped by the error bars is called accidental."""
+    if a.family == "TEM" and b.family == "TEM":
+        return TEM_KIND
+    kind = section.kind if section is not None else "mesh"
+    params = section.params if section is not None else {}
+    ia, ib = a.indices, b.indices
+    if ia is None or ib is None:
+        return WITHIN_ERROR
+    if kind in ("rectangle", "rounded_rectangle"):
+        square = math.isclose(params["width"], params["height"], rel_tol=1e-12)
+        swapped = square and tuple(ia) == tuple(ib)[::-1]
+        if a.family == b.family:
+            return SYMMETRY if swapped and tuple(ia) != tuple(ib) else WITHIN_ERROR
+        if kind == "rectangle" and (tuple(ia) == tuple(ib) or swapped) and min(ia) > 0:
+            return IDENTITY
+        return WITHIN_ERROR
+    if kind in ("circle", "coaxial") and "offset_x" not in params and "offset_y" not in params:
+        if a.family == b.family:
+            return SYMMETRY if ia == ib and ia[0] > 0 else WITHIN_ERROR
+        te, tm = (ia, ib) if a.family == "TE" else (ib, ia)
+        return IDENTITY if te[0] == 0 and tm[0] == 1 and te[1] == tm[1] else WITHIN_ERROR
+    return WITHIN_ERROR
 
 
 def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=None):
@@ -327,8 +383,8 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
         x = x if x[j] > 0 else -x
         modes.append(dict(family=r[2], lam=r[0], err=r[1], res=r[4], vec=x,
                           field=ModeField(disc.basis, x, r[2], math.sqrt(r[0]), 1.0 / math.sqrt(r[0]))))
-    modes = modes[:n_modes]
-    # identities
+    # identities (every computed row is labelled: the rows beyond ``n_modes`` are members of a
+    # degenerate group the count cut, kept below if the degeneracy is forced)
     ordinals = {}
     group_of = {}
     offset = len([m for m in modes if m["family"] == "TEM"])
@@ -385,19 +441,31 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
                         symmetry_class=info["cls"], symmetry_group=an.group.name,
                         nodal_domains=info["nodal_domains"], residual=m["res"], potential=m["field"],
                         section=section))
-    # degeneracy links (TEM modes form one group at kc = 0); multiplicity also counts group
-    # members computed beyond the number of modes asked for
+    # degeneracy links (TEM modes form one group at kc = 0) and their kinds; a group the count
+    # cuts is completed when its degeneracy is forced (symmetry, TE/TM identity: any member alone
+    # is an arbitrary pick of the group's span); not the TEM modes, which the line's modal set
+    # (ascending modal impedance) already tells apart; the
+    # multiplicity also counts members computed beyond the modes returned
     tem_idx = tuple(i for i, m in enumerate(out) if m.family == "TEM")
-    final = []
+    members = []
     for k, m in enumerate(out):
         if m.family == "TEM":
-            others = tuple(i for i in tem_idx if i != k)
-            mult = len(tem_idx)
+            members.append(tuple(i for i in tem_idx if i != k))
         else:
             g = group_of[k]
-            others = tuple(i for i in range(len(out)) if i != k and group_of.get(i) == g)
-            mult = len(groups[g])
-        final.append(replace(m, degenerate_with=others, multiplicity=mult))
+            members.append(tuple(i for i in range(len(out)) if i != k and group_of.get(i) == g))
+    kinds = [", ".join(sorted({_degeneracy_kind(section, out[k], out[i]) for i in members[k]}))
+             for k in range(len(out))]
+    n_keep = min(n_modes, len(out))
+    while 0 < n_keep < len(out) and n_keep - 1 in members[n_keep] and kinds[n_keep] \
+            and kinds[n_keep] not in (WITHIN_ERROR, TEM_KIND):
+        n_keep += 1
+    final = []
+    for k in range(n_keep):
+        m = out[k]
+        mult = len(tem_idx) if m.family == "TEM" else len(groups[group_of[k]])
+        others = tuple(i for i in members[k] if i < n_keep)
+        final.append(replace(m, degenerate_with=others, multiplicity=mult, degeneracy=kinds[k]))
     for k, m in enumerate(final):
         same = [i for i in m.degenerate_with if final[i].family == m.family]
         if len(same) == 1:

@@ -55,6 +55,10 @@ class Mode:
     symmetry_group : the group's name ('D4', 'C2', 'circular', ...; femodes.geometry.symmetry)
     degenerate_with : indices of the other modes with the same cutoff (within the error estimate)
     multiplicity : how many modes share this cutoff, counting partners beyond the ``modes`` asked
+    degeneracy : why it shares its cutoff ('' if it does not): 'symmetry' (forced by the section's
+                symmetry: a square's TE10/TE01, a circle's pairs), 'TE/TM identity' (a rectangle's
+                TE_mn/TM_mn, a circle's TE_0m/TM_1m), 'TEM' (several TEM modes), 'within error bar'
+                (accidental: closer than the error bars, not forced); several joined by ', '
     potential : the finite-element potential psi (:class:`ModeField`)
     section   : the Section it was solved on (None for a mesh file)
     partner   : for a two-fold degenerate pair of the same family (a circle's TE11, a square's
@@ -76,6 +80,7 @@ class Mode:
     nodal_domains: int | None = None
     degenerate_with: tuple = ()
     multiplicity: int = 1
+    degeneracy: str = ""
     residual: float = 0.0
     potential: ModeField | None = _dcfield(default=None, repr=False)
     partner: "Mode | None" = _dcfield(default=None, repr=False)
@@ -228,6 +233,8 @@ class ModeSet(tuple):
     """The modes of one solve, ascending in cutoff: a tuple of :class:`Mode` with extras.
 
     Attributes: section, mesh (the mesh used), eps_r, mu_r, accuracy (asked), n_dofs, order,
+    modes_asked (the count asked; the set holds more when a degenerate group with a forced
+    degeneracy would be cut by it: the coax's TE01 comes with the TM11 pair sharing its cutoff),
     mesh_size, family (None, or 'TE'/'TM' for a one-family solve), line (for a guide with inner
     conductors: :class:`femodes.solvers.electrostatic.LineParameters`, the capacitance and
     inductance matrices with their errors and the TEM modal set; None without).

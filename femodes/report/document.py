@@ -50,6 +50,8 @@ def report_document(result, analysis=None, title=None) -> dict:
         "fill": {"eps_r": float(study.eps_r), "mu_r": float(study.mu_r), "tan_delta": float(study.tan_delta)},
         "regions": regions,
         "accuracy": float(study.accuracy),
+        "modes_asked": getattr(study.modes, "modes_asked", None),
+        "modes_returned": len(study.modes),
         "discretisation": {"unknowns": int(study.n_dofs), "element_order": int(study.order),
                            "triangles": None if mesh_triangles is None else int(mesh_triangles),
                            "elements": ("Nedelec (transverse E) and Lagrange (E_z)" if study.loaded else
@@ -70,6 +72,7 @@ def report_document(result, analysis=None, title=None) -> dict:
             "cutoff_wavelength": _finite(m.cutoff_wavelength),
             "degenerate_with": [int(i) for i in m.degenerate_with],
             "multiplicity": int(m.multiplicity),
+            "degeneracy": getattr(m, "degeneracy", "") or None,
             "symmetry": dict(m.symmetry),
             "symmetry_class": m.symmetry_class or None,
             "symmetry_group": m.symmetry_group or None,

@@ -22,7 +22,7 @@ from femodes.solvers.fields import _transverse
 
 CSV_COLUMNS = ("index", "label", "family", "cutoff_type", "parent", "fc_Hz", "fc_error_Hz", "kc_rad_per_m",
                "kc_error_rad_per_m", "cutoff_wavelength_m", "degenerate_with", "symmetry", "nodal_domains",
-               "symmetry_class")
+               "symmetry_class", "degeneracy")
 
 #: columns of the quantities at the analysis frequency (``<name>.at_frequency.csv``)
 AT_FREQUENCY_COLUMNS = ("index", "label", "family", "parent", "frequency_Hz", "propagates", "beta_rad_per_m",
@@ -68,7 +68,8 @@ def write_csv(result, path, analysis=None):
                      _num(m.kc), _num(m.kc_error), _num(m.cutoff_wavelength),
                      " ".join(str(i) for i in m.degenerate_with),
                      ";".join(f"{k}={v}" for k, v in sorted(m.symmetry.items())),
-                     "" if m.nodal_domains is None else m.nodal_domains, m.symmetry_class))
+                     "" if m.nodal_domains is None else m.nodal_domains, m.symmetry_class,
+                     getattr(m, "degeneracy", "")))
     written = [_write_rows(path, rows)]
     if analysis is not None:
         f = analysis.frequency

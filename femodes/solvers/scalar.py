@@ -38,6 +38,7 @@ import numpy as np
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import mesh_section
 from femodes.geometry.section import Section
+from femodes.solvers.budget import Progress, available_memory, predicted_memory, predicted_time
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
 from femodes.solvers.electrostatic import Electrostatics, conductor_groups, conductor_potentials, gram_error, relative_error
@@ -61,6 +62,12 @@ _MIN_DOF_RATIO = 1.3
 GRADING_REACH = 3.0
 _J01 = 2.404825557695773
 MAX_DOFS = 3_000_000
+# a trusted step whose estimate is above this fraction of the best so far is a round-off plateau
+_PLATEAU = 0.9
+# ... when the estimate is within this factor of the round-off floor (else it is something else)
+_NEAR_ROUNDOFF = 1000.0
+# unknowns per (area / h^2) of the order-p meshes: measured on WR-90 (p = 4: 21.6, about 1.35 p^2)
+_DOFS_PER_CELL = 1.35
 
 
 @dataclass(frozen=True, eq=False)
@@ -121,6 +128,10 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
     grading = 1.0 + 1.5 * min(1.0, max(0.0, (math.log10(accuracy) + 8.0) / 4.0))
     radius = (radius, grading)
 
+    if mesh_size is None:
+        _check_budget(section, accuracy, p, h, n_modes, kc_max)
+    progress = Progress()
+
     with single_thread():
         if mesh_size is None and start_size is not None:
             # a neighbour's final size: the pair (1.35 h, h) there, the coarsest mesh below it
@@ -153,6 +164,8 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
             except FemodesError:  # too coarse for the modes asked: two meshes only
                 pass
         fine = _discrete_solve(section, h, p, fams, counts, shifts, radius)
+        best = None  # (worst, fine, coarse, merged, tem, h) of the best trusted step so far
+        stop = None  # why the loop stopped short of the asked accuracy, for the one warning
         for it in range(max_iterations):
             short = _short_families(fine, want)
             if short:
@@ -168,8 +181,17 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
                        and math.sqrt(merged[-1][0]) * coarse["h"] <= _KH_MAX[p]) if merged else True
             _debug(f"iteration {it}: h={h:.4g} N={fine['n_dofs']} (coarse {coarse['n_dofs']}) "
                    f"worst estimate {worst:.2e} trusted={trusted}")
+            progress.step(it + 1, fine["n_dofs"], worst, accuracy)
             if mesh_size is not None or (worst <= accuracy and trusted) or not (merged or n_tem):
                 break
+            if trusted and best is not None and worst > _PLATEAU * best[0] \
+                    and worst <= _NEAR_ROUNDOFF * _roundoff(fine["n_dofs"], _safety(fine)):
+                # round-off plateau: a finer mesh did not lower the estimate (it rose with the
+                # floor 2 N eps lam of every eigenvalue): the best step so far is the answer
+                stop = "plateau"
+                break
+            if trusted and (best is None or worst < best[0]):
+                best = (worst, fine, coarse, merged, tem, h)
             # plan with the observed rate, but not below half the model's (on coarse meshes the
             # observed rate is partly noise: planning with it alone overshoots by far)
             model = _rate(fine, p)
@@ -182,8 +204,21 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
                     # bigger step, or the loop creeps on meshes too alike to compare
                     shrink = min(shrink, 0.7)
             shrink = max(shrink, 0.25)
-            if fine["n_dofs"] / shrink ** 2 > MAX_DOFS:
+            n_next = fine["n_dofs"] / shrink ** 2
+            if trusted and _roundoff(n_next, _safety(fine)) >= worst:
+                # the next mesh's round-off floor alone is above the present estimate: refining
+                # cannot help (measured: WR-90, 20 modes at 1e-11 went on to 427k unknowns, the
+                # estimate rising from 2.0e-11 at 30k, before this stop)
+                stop = "plateau"
+                break
+            if n_next > MAX_DOFS:
+                stop = "size"
                 break  # the next mesh would be too large: report what was reached
+            avail = available_memory()
+            if avail is not None and predicted_memory(n_next) > avail:
+                stop = "memory"
+                break
+            progress.next_mesh(int(n_next))
             h *= shrink
             history.append(_eigenvalues(coarse, section if n_tem else None))
             coarse, fine = fine, _discrete_solve(section, h, p, fams, counts, shifts, radius)
@@ -192,10 +227,52 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
             tem = _tem_statics(fine, coarse, p, section, history=history) if n_tem else None
             worst = max(worst, relative_error(tem))
+        if best is not None and worst > best[0]:
+            worst, fine, coarse, merged, tem, h = best
         if worst > accuracy and mesh_size is None:
-            warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached; estimated {worst:.1e} "
-                          f"with {fine['n_dofs']} unknowns", RuntimeWarning, stacklevel=2)
+            if stop == "plateau":
+                warnings.warn(f"femodes: asked accuracy {accuracy:.1e} is below the round-off floor here: finer "
+                              f"meshes stopped lowering the error estimate; returning the best reached, "
+                              f"estimated {worst:.1e} with {fine['n_dofs']} unknowns (ask for accuracy "
+                              f">= {worst:.0e}, or fewer modes)", RuntimeWarning, stacklevel=2)
+            else:
+                why = {"memory": " (the next mesh would not fit in the memory available)",
+                       "size": f" (the next mesh would exceed {MAX_DOFS} unknowns)"}.get(stop, "")
+                warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached{why}; estimated {worst:.1e} "
+                              f"with {fine['n_dofs']} unknowns", RuntimeWarning, stacklevel=2)
     return ScalarSolution(fine, merged, tem, _safety(fine), p, h)
+
+
+def _roundoff(n_dofs, safety):
+    """The reported relative error of kc that round-off alone gives with ``n_dofs`` unknowns: the
+    floor 2 N eps lam of kc^2 (see :func:`_merge`), halved for kc, times the safety factor."""
+    return safety * n_dofs * 2.2e-16
+
+
+def _predicted_dofs(area, h, p):
+    """Unknowns of an order-p mesh of element size h over ``area`` (graded zones add to it)."""
+    return _DOFS_PER_CELL * p * p * area / (h * h)
+
+
+def _check_budget(section, accuracy, p, h, n_modes, kc_max):
+    """Refuse, before any mesh is made, a solve whose final mesh by the error model (element size
+    ``h``) would not fit in the memory available, saying what would fit."""
+    avail = available_memory()
+    if avail is None:
+        return
+    n = _predicted_dofs(section.area, h, p)
+    need = predicted_memory(n)
+    if need <= avail:
+        return
+    # the finest mesh that fits, and the accuracy and mode count the model gives it
+    h_fit = math.sqrt(_DOFS_PER_CELL * p * p * section.area * predicted_memory(1) / avail)
+    acc_fit = _ERROR_CONSTANT[p] * (kc_max * h_fit) ** (2 * p) * SAFETY["curved"] / (2 * 0.7)
+    modes_fit = max(1, int(n_modes * (h / h_fit) ** 2))
+    raise FemodesError(
+        f"this solve would need about {n:.2g} unknowns, {need / 1e9:.1f} GB of memory and "
+        f"{predicted_time(n):.0f} s per refinement step (accuracy {accuracy:.0e}, {n_modes} modes), but only "
+        f"{avail / 1e9:.1f} GB is available: ask for a looser accuracy (about {min(acc_fit, 0.05):.0e} fits) "
+        f"or fewer modes (about {modes_fit} at this accuracy)")
 
 
 def _debug(msg):

@@ -150,7 +150,8 @@ def _title_lines(mode, modeset):
             elif mode.partner is not None and mode.partner.index == i:
                 lab = mode.partner.label
             parts.append(f"mode {i + 1}, {lab}" if lab else f"mode {i + 1}")
-        notes.append("(degenerate with " + "; ".join(parts) + ")")
+        kind = getattr(mode, "degeneracy", "")
+        notes.append("(degenerate with " + "; ".join(parts) + (f": {kind}" if kind else "") + ")")
     return head, notes
 
 
