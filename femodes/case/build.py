@@ -189,12 +189,24 @@ def _build_case(data, base_dir, path):
     if "analysis" in data:
         an = _table(data, "analysis")
         analysis = _build_analysis(an, tan_delta)
+        if "quantity_accuracy" in sv:
+            analysis = replace(analysis, quantity_accuracy=_quantity_accuracy(sv["quantity_accuracy"]))
     _check_figures_apply(out, analysis, "in the case file", loaded)
     sweep = build_sweep(_table(data, "sweep"), guide, base_dir) if "sweep" in data else None
     seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
     tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
                 tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol)
+
+
+def _quantity_accuracy(value):
+    """[solve] quantity_accuracy: a relative accuracy from 1e-9 up to 0.5, or 0 (no re-solves)."""
+    v = _number("quantity_accuracy in [solve]", value, "a relative error (number), e.g. 1e-3, or 0 for none")
+    if v != 0 and not (1e-9 <= v <= 0.5):
+        raise FemodesError("quantity_accuracy in [solve] is the relative error asked of the wall loss, impedances "
+                           "and peak field and must lie from 1e-9 up to 0.5 (e.g. 1e-3), or be 0 to skip their "
+                           f"error bars, got {_show(value)}")
+    return v
 
 
 def _build_analysis(an, tan_delta):
