@@ -173,13 +173,6 @@ def _walls_text(an):
     return f"walls: {s.conductor_text}, {rough}; fill: {fill}"
 
 
-def _pm_power(w, err):
-    """'32.45 kW' or '32.45 kW ± 0.2 %' where an error bar is known."""
-    if err is None or not math.isfinite(err) or not w:
-        return power_text(w)
-    return f"{power_text(w)} ± {100 * err / w:.1g} %"
-
-
 def analysis_table(an, study=None) -> str:
     """The quantities of an :class:`Analysis` as text (GHz, mm, dB/m, ohm, kW/MW), ending with
     the band lines and the power-handling cautions.  The same writer for every guide: a loaded
@@ -217,12 +210,13 @@ def analysis_table(an, study=None) -> str:
                 e = q.errors or {}
                 ce = float(ls.conductor_error)
                 vg_e = e.get("group_velocity")
+                te = e.get("total", ce)
                 rows.append([str(m.index + 1), m.label, _g(w.beta), _g(w.guide_wavelength * 1e3),
-                             f"{w.phase_velocity / C0:.4f}",
-                             f"{w.group_velocity / C0:.4f}" + (f" ± {vg_e / C0:.0e}" if vg_e else ""),
+                             f"{w.phase_velocity / C0:.4f}", f"{w.group_velocity / C0:.4f}",
                              _g(float(np.real(w.wave_impedance))),
-                             _g(ls.conductor_db, 4), f"{ce * NP_TO_DB:.0e}" if math.isfinite(ce) else "?",
-                             _g(ls.dielectric_db, 4), _g(ls.total_db, 4)])
+                             _g(ls.conductor_db, 4), _g(ls.dielectric_db, 4), _g(ls.total_db, 4),
+                             f"{te * NP_TO_DB:.0e}" if math.isfinite(te) else "?",
+                             ("0" if vg_e == 0 else f"{vg_e / C0:.0e}") if vg_e is not None and math.isfinite(vg_e) else "?"])
         if loaded:
             lines += _grid(["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
                             "v_g/c", "Ez share", "Hz share", "walls [dB/m]", "± [dB/m]", "fill [dB/m]", "loss [dB/m]"],
@@ -236,14 +230,15 @@ def analysis_table(an, study=None) -> str:
                              "ask for more modes ([solve] modes or --modes) to see them all")
         else:
             lines += _grid(["#", "label", "beta [rad/m]", "guide wl [mm]", "v_p/c", "v_g/c", "Z_wave [ohm]",
-                            "walls [dB/m]", "± [dB/m]", "fill [dB/m]", "loss [dB/m]"], rows,
-                           {0, 2, 3, 4, 5, 6, 7, 8, 9, 10})
+                            "walls [dB/m]", "fill [dB/m]", "loss [dB/m]", "± [dB/m]", "± v_g/c"], rows,
+                           {0, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11})
             if an.derived is not None:
                 d = an.derived
                 lines += _wrap(f"(±: error bars; walls, impedances and peak field from re-solves on {len(d.unknowns)} "
                                f"meshes ({d.unknowns[0]} .. {d.unknowns[-1]} unknowns) at quantity accuracy "
                                f"{d.accuracy:g}" + ("" if d.met else ": not met, see the warnings") + "; '?': not "
-                               "estimated; v_g and the other wave quantities from the cutoff's error)", "  ", "  ")
+                               "estimated; ± [dB/m] of the total loss; v_g and the other wave quantities from the "
+                               "cutoff's error; power ± twice the peak's relative error)", "  ", "  ")
         lines.append("")
         for q in prop:
             if q.impedances is None:
@@ -285,13 +280,14 @@ def analysis_table(an, study=None) -> str:
             where = "-" if p.peak_location is None else f"({_mm(p.peak_location[0])}, {_mm(p.peak_location[1])})"
             gas = math.isfinite(p.peak_field_per_sqrt_watt)
             err = getattr(p, "peak_error", None)
+            pe = getattr(p, "breakdown_power_error", None)
             rows.append([str(q.mode.index + 1), q.mode.label,
                          (_g(p.peak_field_per_sqrt_watt, 4) + (f" ± {err:.1g}" if err is not None else "")) if gas else "-",
-                         where, _pm_power(p.breakdown_power, getattr(p, "breakdown_power_error", None)) if gas else "-",
-                         _pm_power(p.rated_power, getattr(p, "rated_power_error", None)) if gas else "-"])
-        lines += _grid(["#", "label", "peak |E| at 1 W [V/m]", "peak at (x, y) [mm]", "power at breakdown",
-                        "rated power"],
-                       rows, {0, 2, 4, 5})
+                         where, f"{100 * pe / p.breakdown_power:.1g}" if gas and pe is not None else "?",
+                         power_text(p.breakdown_power) if gas else "-", power_text(p.rated_power) if gas else "-"])
+        lines += _grid(["#", "label", "peak |E| at 1 W [V/m]", "peak at (x, y) [mm]", "power ± [%]",
+                        "power at breakdown", "rated power"],
+                       rows, {0, 2, 4, 5, 6})
         for q in powered:
             for r in getattr(q.power, "regions", ()):
                 if not r.gas:
