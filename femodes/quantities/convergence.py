@@ -44,7 +44,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -102,10 +102,12 @@ class QuantityError:
     rate: float
     observed: float
     values: tuple
+    scale: float = math.nan  # what the error is relative to, if not |value| (see _table)
 
     @property
     def relative(self):
-        return self.error / abs(self.value) if self.value else math.inf
+        s = self.scale if math.isfinite(self.scale) else abs(self.value)
+        return self.error / s if s else math.inf
 
 
 @dataclass(frozen=True)
@@ -277,6 +279,10 @@ def _table(sets, vals, sizes, cap):
             if any(x is None for x in seq) or not same:
                 continue  # the mode is not the same on every mesh (order or label changed)
             q = _estimate(seq, sizes[-3:], cap)
+            if name.startswith("Z_"):
+                # a voltage that cancels by symmetry makes Z_PV, Z_VI ~ 0: their error is judged
+                # against the mode's largest impedance
+                q = replace(q, scale=max(abs(x) for k, x in v.items() if k.startswith("Z_")))
             row[name] = q
             worst = max(worst, q.relative)
         table[i] = row
