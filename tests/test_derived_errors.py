@@ -159,3 +159,18 @@ def test_refuses_what_it_cannot_re_mesh():
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         assert np.isfinite(derived_quantities(ms, 10e9).error(0, "conductor"))
+
+
+def test_case_key_quantity_accuracy(tmp_path):
+    from femodes.case import load_case
+
+    path = tmp_path / "g.toml"
+    guide = '[guide]\nshape = "rectangle"\nwidth = 22.86\nheight = 10.16\n'
+    path.write_text(guide + "[solve]\nquantity_accuracy = 1e-4\n[analysis]\nfrequency = 10\n", encoding="utf-8")
+    assert load_case(str(path)).analysis.quantity_accuracy == 1e-4
+    # kept when the command line turns the analysis on
+    path.write_text(guide + "[solve]\nquantity_accuracy = 0\n", encoding="utf-8")
+    assert load_case(str(path)).with_options(frequency="10").analysis.quantity_accuracy == 0
+    path.write_text(guide + "[solve]\nquantity_accuracy = 3\n", encoding="utf-8")
+    with pytest.raises(fm.FemodesError, match="quantity_accuracy in \\[solve\\]"):
+        load_case(str(path))

@@ -52,6 +52,7 @@ from femodes.case.values import (
 )
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import Mesh, read_mesh
+from femodes.quantities.convergence import DEFAULT_QUANTITY_ACCURACY
 
 try:  # Python >= 3.11
     import tomllib as _toml
@@ -185,18 +186,17 @@ def _build_case(data, base_dir, path):
     if loaded and isinstance(section, Mesh) and solve.get("order", 3) < 2:
         raise FemodesError("order in [solve] must be 2 or 3 for a mesh file with [[region]] tables (the error "
                            "estimate on a fixed mesh compares order p with p - 1), got 1")
+    qa = _quantity_accuracy(sv["quantity_accuracy"]) if "quantity_accuracy" in sv else DEFAULT_QUANTITY_ACCURACY
     analysis = None
     if "analysis" in data:
         an = _table(data, "analysis")
-        analysis = _build_analysis(an, tan_delta)
-        if "quantity_accuracy" in sv:
-            analysis = replace(analysis, quantity_accuracy=_quantity_accuracy(sv["quantity_accuracy"]))
+        analysis = replace(_build_analysis(an, tan_delta), quantity_accuracy=qa)
     _check_figures_apply(out, analysis, "in the case file", loaded)
     sweep = build_sweep(_table(data, "sweep"), guide, base_dir) if "sweep" in data else None
     seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
     tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
-                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol)
+                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol, quantity_accuracy=qa)
 
 
 def _quantity_accuracy(value):

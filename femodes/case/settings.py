@@ -99,6 +99,7 @@ class Case:
     sweep: object = None  # femodes.case.sweep.SweepSettings of a [sweep] table, or None
     seek: object = None  # femodes.case.studies.SeekSettings of a [seek] table, or None
     tolerance: object = None  # femodes.case.studies.ToleranceSettings of a [tolerance] table, or None
+    quantity_accuracy: float = DEFAULT_QUANTITY_ACCURACY  # [solve] quantity_accuracy
 
     @property
     def loaded(self):
@@ -123,7 +124,7 @@ class Case:
                 if frequency is None and band is None:
                     raise FemodesError("--conductor needs a frequency: give --frequency F or --band F1 F2 "
                                        "(GHz), or an [analysis] table in the case file")
-                an = AnalysisSettings(tan_delta=self.tan_delta)
+                an = AnalysisSettings(tan_delta=self.tan_delta, quantity_accuracy=self.quantity_accuracy)
             if band is not None:
                 if not isinstance(band, (list, tuple)) or len(band) != 2:
                     raise FemodesError(f"--band needs two frequencies F1 F2 in GHz, got {band!r}")
