@@ -192,11 +192,12 @@ def _estimate(values, sizes, cap):
 
 def derived_quantities(modeset, f, conductivity=5.8e7, roughness=0.0, tan_delta=0.0,
                        breakdown_field=DRY_AIR_BREAKDOWN, accuracy=DEFAULT_QUANTITY_ACCURACY,
-                       max_refinements=2, max_unknowns=200_000):
+                       max_refinements=2, max_unknowns=None):
     """Error bars of the wall loss, impedances and peak field of the modes of ``modeset`` (what
     :func:`femodes.solve` returned for a homogeneous Section) at ``f`` (Hz), refined until each
     meets ``accuracy`` (relative) or ``max_refinements`` finer meshes were solved or the next
-    would pass ``max_unknowns``; see the module docstring for the estimate.  Returns a
+    would pass ``max_unknowns`` (default 4 times the given solve's unknowns, at least 20k, at
+    most 200k: the re-solves cost a few times the solve, not more); see the module docstring for the estimate.  Returns a
     :class:`DerivedErrors`; a warning (UserWarning) names every quantity left above ``accuracy``.
     """
     if not isinstance(modeset, ModeSet) or not isinstance(modeset.section, Section):
@@ -214,6 +215,8 @@ def derived_quantities(modeset, f, conductivity=5.8e7, roughness=0.0, tan_delta=
     if not (1e-9 <= accuracy < 1):
         raise FemodesError(f"quantity accuracy must lie between 1e-9 and 1 (relative), got {accuracy!r}")
     f = float(f)
+    if max_unknowns is None:
+        max_unknowns = min(200_000, max(20_000, 4 * int(modeset.n_dofs)))
     section = modeset.section
     cap = rate_cap(section, modeset.order)
     n = len(modeset)
