@@ -52,6 +52,7 @@ from femodes.case.values import (
 )
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import Mesh, read_mesh
+from femodes.quantities.convergence import DEFAULT_QUANTITY_ACCURACY
 
 try:  # Python >= 3.11
     import tomllib as _toml
@@ -185,16 +186,27 @@ def _build_case(data, base_dir, path):
     if loaded and isinstance(section, Mesh) and solve.get("order", 3) < 2:
         raise FemodesError("order in [solve] must be 2 or 3 for a mesh file with [[region]] tables (the error "
                            "estimate on a fixed mesh compares order p with p - 1), got 1")
+    qa = _quantity_accuracy(sv["quantity_accuracy"]) if "quantity_accuracy" in sv else DEFAULT_QUANTITY_ACCURACY
     analysis = None
     if "analysis" in data:
         an = _table(data, "analysis")
-        analysis = _build_analysis(an, tan_delta)
+        analysis = replace(_build_analysis(an, tan_delta), quantity_accuracy=qa)
     _check_figures_apply(out, analysis, "in the case file", loaded)
     sweep = build_sweep(_table(data, "sweep"), guide, base_dir) if "sweep" in data else None
     seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
     tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
-                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol)
+                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol, quantity_accuracy=qa)
+
+
+def _quantity_accuracy(value):
+    """[solve] quantity_accuracy: a relative accuracy from 1e-9 up to 0.5, or 0 (no re-solves)."""
+    v = _number("quantity_accuracy in [solve]", value, "a relative error (number), e.g. 1e-3, or 0 for none")
+    if v != 0 and not (1e-9 <= v <= 0.5):
+        raise FemodesError("quantity_accuracy in [solve] is the relative error asked of the wall loss, impedances "
+                           "and peak field and must lie from 1e-9 up to 0.5 (e.g. 1e-3), or be 0 to skip their "
+                           f"error bars, got {_show(value)}")
+    return v
 
 
 def _build_analysis(an, tan_delta):

@@ -203,7 +203,7 @@ _ELSEWHERE = {"tan_delta": "[fill]", "eps_r": "[fill]", "mu_r": "[fill]", "modes
               "conductivity": "[analysis] as conductor = <S/m>"}
 
 
-_SOLVE_KEYS = ("modes", "accuracy", "family", "order")
+_SOLVE_KEYS = ("modes", "accuracy", "family", "order", "quantity_accuracy")
 
 
 _OUTPUT_KEYS = ("figures", "format", "directory", "field_count")

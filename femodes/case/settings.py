@@ -19,6 +19,7 @@ from femodes.case.schema import (
 )
 from femodes.case.values import _accuracy, _band_value, _choice, _conductor_value, _count, _frequency_value, _parse_conductor, _parse_number
 from femodes.errors import FemodesError
+from femodes.quantities.convergence import DEFAULT_QUANTITY_ACCURACY
 
 
 @dataclass(frozen=True)
@@ -44,6 +45,9 @@ class AnalysisSettings:
     tan_delta      loss tangent of the filling (from [fill])
     breakdown_field, safety_factor : for power handling (V/m; divisor of the power)
     impedance      'PV', 'PI' or 'VI': the impedance shown first
+    quantity_accuracy  relative accuracy asked of the field-derived quantities (wall loss,
+                   impedances, peak field) of a homogeneous guide, from [solve]; 0 turns the
+                   re-solves off (no error bars on them)
     """
 
     frequency: float | None = None
@@ -56,6 +60,7 @@ class AnalysisSettings:
     breakdown_field: float = DEFAULT_BREAKDOWN_FIELD
     safety_factor: float = DEFAULT_SAFETY_FACTOR
     impedance: str = "PV"
+    quantity_accuracy: float = DEFAULT_QUANTITY_ACCURACY
 
     @property
     def table_frequency(self):
@@ -94,6 +99,7 @@ class Case:
     sweep: object = None  # femodes.case.sweep.SweepSettings of a [sweep] table, or None
     seek: object = None  # femodes.case.studies.SeekSettings of a [seek] table, or None
     tolerance: object = None  # femodes.case.studies.ToleranceSettings of a [tolerance] table, or None
+    quantity_accuracy: float = DEFAULT_QUANTITY_ACCURACY  # [solve] quantity_accuracy
 
     @property
     def loaded(self):
@@ -118,7 +124,7 @@ class Case:
                 if frequency is None and band is None:
                     raise FemodesError("--conductor needs a frequency: give --frequency F or --band F1 F2 "
                                        "(GHz), or an [analysis] table in the case file")
-                an = AnalysisSettings(tan_delta=self.tan_delta)
+                an = AnalysisSettings(tan_delta=self.tan_delta, quantity_accuracy=self.quantity_accuracy)
             if band is not None:
                 if not isinstance(band, (list, tuple)) or len(band) != 2:
                     raise FemodesError(f"--band needs two frequencies F1 F2 in GHz, got {band!r}")

@@ -37,9 +37,20 @@ frequency) take the same front doors at their own frequency: :func:`conductor_at
 :class:`LoadedPowerHandling`: the peak in the gas and in each dielectric region, corners apart),
 which work from the full-vector fields and give every number an error from the same mode at one
 element order lower on the same mesh (:func:`lower_order_partner`).
+
+A homogeneous guide's field-derived quantities (wall loss, impedances, peak field) get their
+error bars from re-solves on a ladder of meshes (:func:`derived_quantities`, :mod:`.convergence`),
+its wave quantities from the cutoff's error (:func:`wave_errors`).
 """
 
 from femodes.constants import ETA0, NP_TO_DB
+from femodes.quantities.convergence import (
+                                       DEFAULT_QUANTITY_ACCURACY,
+                                       DerivedErrors,
+                                       QuantityError,
+                                       derived_quantities,
+                                       wave_errors,
+)
 from femodes.quantities.impedance import (
                                        LoadedImpedances,
                                        impedance,
@@ -102,5 +113,6 @@ __all__ = [
     "voltage_path", "path_voltage", "wall_current", "impedance", "power_handling",
     "GAS_MAX_EPS_R", "LoadedImpedances", "LoadedPowerHandling", "RegionPeak", "CornerField",
     "loaded_impedances", "loaded_power_handling", "lower_order_partner",
+    "DEFAULT_QUANTITY_ACCURACY", "DerivedErrors", "QuantityError", "derived_quantities", "wave_errors",
     "LineParameters", "ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances",
 ]

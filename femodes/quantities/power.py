@@ -52,6 +52,8 @@ class PowerHandling:
                                discs of radius ``corner_exclusion`` (m) around them
     warnings                 : what limits the figures (e.g. singular corners)
     cautions                 : :data:`CAUTIONS`; any code printing these results must show them
+    peak_error, breakdown_power_error, rated_power_error : their error bars (V/m per sqrt(W),
+                               W, W) where estimated (:mod:`femodes.quantities.convergence`), else None
     """
 
     frequency: float
@@ -65,11 +67,15 @@ class PowerHandling:
     corner_exclusion: float
     warnings: tuple
     cautions: tuple = CAUTIONS
+    peak_error: float | None = None
+    breakdown_power_error: float | None = None
+    rated_power_error: float | None = None
 
     def lines(self):
         """Text lines of a report, cautions included."""
         x, y = self.peak_location
-        out = [f"peak |E| at 1 W: {self.peak_field_per_sqrt_watt:.6g} V/m at ({x * 1e3:.4g}, {y * 1e3:.4g}) mm",
+        pm = "" if self.peak_error is None else f" ± {self.peak_error:.2g}"
+        out = [f"peak |E| at 1 W: {self.peak_field_per_sqrt_watt:.6g}{pm} V/m at ({x * 1e3:.4g}, {y * 1e3:.4g}) mm",
                f"power at {self.breakdown_field / 1e6:.4g} MV/m peak field: {self.breakdown_power:.4g} W; "
                f"divided by the safety factor {self.safety_factor:g}: {self.rated_power:.4g} W"]
         out += [f"warning: {w}" for w in self.warnings]

@@ -6,7 +6,7 @@ of :data:`femodes.quantities.CAUTIONS`.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -15,6 +15,7 @@ from femodes.api import Study
 from femodes.errors import FemodesError
 from femodes.geometry.section import Section
 from femodes.modes import ModeSet
+from femodes.quantities.convergence import derived_quantities, wave_errors
 
 #: units of the numbers in the "analysis" object of :func:`analysis_document`
 ANALYSIS_UNITS = {
@@ -57,9 +58,13 @@ class ModeQuantities:
     waves      :class:`~femodes.quantities.WaveQuantities` (every mode)
     losses     :class:`~femodes.quantities.Losses` (propagating modes only, else None)
     impedances {'PV': ohm, 'PI': ohm, 'VI': ohm} for the dominant mode and TEM modes, else None
-    impedance_errors  their estimated errors (ohm) where computed (loaded guides), else None
+    impedance_errors  their estimated errors (ohm) where computed, else None
     power      :class:`~femodes.quantities.PowerHandling` (propagating modes only, else None)
     notes      what limits the numbers of this mode
+    errors     error bars (SI) of the other quantities where estimated (homogeneous guides):
+               'beta', 'guide_wavelength', 'phase_velocity', 'group_velocity', 'wave_impedance'
+               (from the cutoff's error), 'conductor', 'total' (Np/m), 'peak', 'breakdown_power',
+               'rated_power' (from the re-solves of :func:`femodes.quantities.derived_quantities`)
     """
 
     mode: object
@@ -70,6 +75,7 @@ class ModeQuantities:
     power: object = None
     notes: tuple = ()
     impedance_errors: dict | None = None
+    errors: dict | None = None
 
     @property
     def propagates(self):
@@ -102,6 +108,7 @@ class Analysis:
     top_cutoff: float
     cautions: tuple
     loaded: bool = False
+    derived: object = None  # femodes.quantities.DerivedErrors of a homogeneous guide, or None
 
     @property
     def propagating(self):
@@ -183,6 +190,13 @@ def analyse(result, settings, family=None) -> Analysis:
     if settings.band is not None:
         _check_below_top("band", settings.band[1], modeset)
     sigma, rough, td = settings.conductivity, settings.roughness, settings.tan_delta
+    derived = None
+    qa = getattr(settings, "quantity_accuracy", 0.0)
+    if qa and isinstance(modeset.section, Section) and any(m.family == "TEM" or m.fc < f for m in modeset):
+        # error bars of the field-derived quantities: re-solves on a ladder of meshes, refined
+        # until they meet quantity_accuracy; the values reported are those of the finest mesh
+        derived = derived_quantities(modeset, f, sigma, rough, td, settings.breakdown_field, accuracy=qa)
+        modeset = derived.modes
     first = modeset[0]
     rows = []
     for m in modeset:
@@ -218,7 +232,10 @@ def analyse(result, settings, family=None) -> Analysis:
                     notes.append("one member of a degenerate pair: its impedances depend on the orientation the "
                                  "solver gave it")
         ph = Q.power_handling(m, f, settings.breakdown_field, settings.safety_factor)
-        rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes)))
+        z_err, errs = None, None
+        if derived is not None:
+            ls, z_err, ph, errs = _with_errors(derived, m, f, ls, z, ph)
+        rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes), z_err, errs))
     try:
         band = Q.band(modeset)
     except (FemodesError, StopIteration):
@@ -241,7 +258,38 @@ def analyse(result, settings, family=None) -> Analysis:
                 rated[m.index] = p
         sweep = Sweep(fs, att, rated)
     return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=sweep, family=family,
-                    top_cutoff=top, cautions=tuple(Q.CAUTIONS))
+                    top_cutoff=top, cautions=tuple(Q.CAUTIONS), derived=derived)
+
+
+def _with_errors(derived, m, f, ls, z, ph):
+    """(losses, impedance errors, power handling, errors) of mode ``m`` with the error bars of
+    ``derived`` (:func:`derived_quantities`) and those of the wave quantities from the cutoff's
+    error.  The dielectric loss k^2 tan_delta / (2 beta) carries beta's relative error; the
+    breakdown and rated power (E_bd / peak)^2 twice the peak's."""
+    qs = derived.quantities.get(m.index, {})
+    errs = wave_errors(m, f)
+
+    def err(name):
+        q = qs.get(name)
+        return None if q is None or not math.isfinite(q.error) else float(q.error)
+
+    ce = err("conductor")
+    beta = float(Q.wave_quantities(m, f).beta)
+    de = float(ls.dielectric) * (errs["beta"] / beta if beta > 0 else 0.0)
+    if ce is not None:
+        ls = replace(ls, conductor_error=ce)
+        errs["conductor"] = ce
+        errs["total"] = ce + de
+    z_err = None
+    if z is not None:
+        z_err = {k: (err("Z_" + k) if z.get(k) is not None else None) for k in ("PV", "PI", "VI")}
+    pe = err("peak")
+    if pe is not None and ph is not None:
+        rel = 2 * pe / ph.peak_field_per_sqrt_watt
+        ph = replace(ph, peak_error=pe, breakdown_power_error=rel * ph.breakdown_power,
+                     rated_power_error=rel * ph.rated_power)
+        errs.update(peak=pe, breakdown_power=ph.breakdown_power_error, rated_power=ph.rated_power_error)
+    return ls, z_err, ph, errs
 
 
 def _analyse_loaded(study, settings):

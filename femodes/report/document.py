@@ -169,6 +169,7 @@ def analysis_document(an) -> dict:
                                                              for k, v in q.impedances.items()},
              "impedance_errors": None if q.impedance_errors is None else {
                  k: _finite(v) for k, v in q.impedance_errors.items()},
+             "errors": None if q.errors is None else {k: _finite(v) for k, v in q.errors.items()},
              "voltage_path": None if q.voltage_path is None else [list(p) for p in q.voltage_path],
              "attenuation_np_per_m": None, "attenuation_db_per_m": None, "power_handling": None,
              "notes": list(q.notes)}
@@ -177,8 +178,9 @@ def analysis_document(an) -> dict:
             d["attenuation_np_per_m"] = {"conductor": _finite(ls.conductor),
                                          "conductor_error": _finite(ls.conductor_error),
                                          "dielectric": _finite(ls.dielectric), "total": _finite(ls.total)}
-            d["attenuation_db_per_m"] = {"conductor": _finite(ls.conductor_db), "dielectric": _finite(ls.dielectric_db),
-                                         "total": _finite(ls.total_db)}
+            d["attenuation_db_per_m"] = {"conductor": _finite(ls.conductor_db),
+                                         "conductor_error": _finite(ls.conductor_error * Q.NP_TO_DB),
+                                         "dielectric": _finite(ls.dielectric_db), "total": _finite(ls.total_db)}
         if q.power is not None:
             p = q.power
             d["power_handling"] = {
@@ -189,6 +191,7 @@ def analysis_document(an) -> dict:
                 "breakdown_field": _finite(p.breakdown_field), "breakdown_power": _finite(p.breakdown_power),
                 "breakdown_power_error": _finite(getattr(p, "breakdown_power_error", None)),
                 "safety_factor": _finite(p.safety_factor), "rated_power": _finite(p.rated_power),
+                "rated_power_error": _finite(getattr(p, "rated_power_error", None)),
                 "regions": [{"name": r.name, "eps_r": _finite(r.eps_r), "gas": bool(r.gas),
                              "peak_field_per_sqrt_watt": _finite(r.peak_field_per_sqrt_watt),
                              "peak_error": _finite(r.peak_error),
@@ -247,7 +250,26 @@ def analysis_document(an) -> dict:
         "methods": {"losses": "power-loss (perturbation) method on the lossless mode; Hammerstad-Jensen roughness",
                     "power_handling": "at the table frequency only; peak instantaneous |E| over the cross-section "
                                       "for a matched travelling wave"},
+        "quantity_accuracy": _derived_document(an),
         "warnings": list(an.warnings),
         "cautions": list(an.cautions),
     }
     return _clean(doc)
+
+
+def _derived_document(an):
+    """How the field-derived quantities' error bars were found (homogeneous guides), or None."""
+    d = getattr(an, "derived", None)
+    if d is None:
+        return None
+    return {"asked": _finite(d.accuracy), "met": bool(d.met), "mesh_sizes": [_finite(h) for h in d.sizes],
+            "unknowns": list(d.unknowns), "rate_cap": _finite(d.cap),
+            "method": "re-solves at element sizes h r^k (r = 1.5) ending at the reported mesh; Richardson estimate "
+                      "of the last three with the observed rate, never above rate_cap (the field's order p, or "
+                      "2 pi / angle of the sharpest re-entrant corner), the older pair carried to the finest "
+                      "mesh too, times 3",
+            "modes": [{"index": i, "quantities": {k: {"value": _finite(q.value), "error": _finite(q.error),
+                                                      "rate": _finite(q.rate), "observed_rate": _finite(q.observed)}
+                                                  for k, q in qs.items()}}
+                      for i, qs in d.quantities.items()],
+            "warnings": list(d.warnings)}

@@ -30,7 +30,10 @@ AT_FREQUENCY_COLUMNS = ("index", "label", "family", "parent", "frequency_Hz", "p
                         "group_velocity_m_per_s", "wave_impedance_ohm", "effective_permittivity", "e_share",
                         "h_share", "alpha_conductor_Np_per_m", "alpha_conductor_error_Np_per_m",
                         "alpha_dielectric_Np_per_m", "alpha_total_Np_per_m", "Z_PV_ohm", "Z_PI_ohm", "Z_VI_ohm",
-                        "peak_E_per_sqrt_W_V_per_m", "breakdown_power_W", "rated_power_W")
+                        "peak_E_per_sqrt_W_V_per_m", "breakdown_power_W", "rated_power_W",
+                        "guide_wavelength_error_m", "phase_velocity_error_m_per_s", "group_velocity_error_m_per_s",
+                        "wave_impedance_error_ohm", "alpha_total_error_Np_per_m", "Z_PV_error_ohm", "Z_PI_error_ohm",
+                        "Z_VI_error_ohm", "peak_E_error_V_per_m", "breakdown_power_error_W", "rated_power_error_W")
 
 #: columns of the dispersion over the band (``<name>.dispersion.csv``): one row per frequency and mode
 DISPERSION_COLUMNS = ("frequency_Hz", "mode", "label", "family", "beta_rad_per_m", "alpha_Np_per_m",
@@ -43,6 +46,17 @@ def _num(x):
     except (TypeError, ValueError):
         return ""
     return "" if not math.isfinite(x) else repr(x)
+
+
+def _error_cells(q):
+    """The error columns of one row of the at-frequency table (empty where not estimated)."""
+    e = q.errors or {}
+    ze = q.impedance_errors or {}
+    ph = q.power
+    return (*(_num(e.get(k)) for k in ("guide_wavelength", "phase_velocity", "group_velocity", "wave_impedance",
+                                       "total")),
+            *(_num(ze.get(k)) for k in ("PV", "PI", "VI")),
+            *(_num(getattr(ph, k, None)) for k in ("peak_error", "breakdown_power_error", "rated_power_error")))
 
 
 def _sibling(path, part):
@@ -86,7 +100,8 @@ def write_csv(result, path, analysis=None):
                            if ls is not None else ("",) * 4),
                          *(_num(z.get(k)) for k in ("PV", "PI", "VI")),
                          *((_num(ph.peak_field_per_sqrt_watt), _num(ph.breakdown_power), _num(ph.rated_power))
-                           if ph is not None else ("",) * 3)))
+                           if ph is not None else ("",) * 3),
+                         *_error_cells(q)))
         written.append(_write_rows(_sibling(path, "at_frequency"), rows))
     disp = study.dispersion
     if disp is not None:

@@ -179,10 +179,16 @@ def analysis_table(an, study=None) -> str:
                              _g(ls.conductor_db, 4), f"{ce * NP_TO_DB:.0e}" if math.isfinite(ce) else "?",
                              _g(ls.dielectric_db, 4) if ls.dielectric > 0 else "0", _g(ls.total_db, 4)])
             else:
+                e = q.errors or {}
+                ce = float(ls.conductor_error)
+                vg_e = e.get("group_velocity")
+                te = e.get("total", ce)
                 rows.append([str(m.index + 1), m.label, _g(w.beta), _g(w.guide_wavelength * 1e3),
                              f"{w.phase_velocity / C0:.4f}", f"{w.group_velocity / C0:.4f}",
                              _g(float(np.real(w.wave_impedance))),
-                             _g(ls.conductor_db, 4), _g(ls.dielectric_db, 4), _g(ls.total_db, 4)])
+                             _g(ls.conductor_db, 4), _g(ls.dielectric_db, 4), _g(ls.total_db, 4),
+                             f"{te * NP_TO_DB:.0e}" if math.isfinite(te) else "?",
+                             ("0" if vg_e == 0 else f"{vg_e / C0:.0e}") if vg_e is not None and math.isfinite(vg_e) else "?"])
         if loaded:
             lines += _grid(["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
                             "v_g/c", "Ez share", "Hz share", "walls [dB/m]", "± [dB/m]", "fill [dB/m]", "loss [dB/m]"],
@@ -196,7 +202,15 @@ def analysis_table(an, study=None) -> str:
                              "ask for more modes ([solve] modes or --modes) to see them all")
         else:
             lines += _grid(["#", "label", "beta [rad/m]", "guide wl [mm]", "v_p/c", "v_g/c", "Z_wave [ohm]",
-                            "walls [dB/m]", "fill [dB/m]", "loss [dB/m]"], rows, {0, 2, 3, 4, 5, 6, 7, 8, 9})
+                            "walls [dB/m]", "fill [dB/m]", "loss [dB/m]", "± [dB/m]", "± v_g/c"], rows,
+                           {0, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11})
+            if an.derived is not None:
+                d = an.derived
+                lines += _wrap(f"(±: error bars; walls, impedances and peak field from re-solves on {len(d.unknowns)} "
+                               f"meshes ({d.unknowns[0]} .. {d.unknowns[-1]} unknowns) at quantity accuracy "
+                               f"{d.accuracy:g}" + ("" if d.met else ": not met, see the warnings") + "; '?': not "
+                               "estimated; ± [dB/m] of the total loss; v_g and the other wave quantities from the "
+                               "cutoff's error; power ± twice the peak's relative error)", "  ", "  ")
         lines.append("")
         for q in prop:
             if q.impedances is None:
@@ -204,7 +218,9 @@ def analysis_table(an, study=None) -> str:
             z = q.impedances
             if q.mode.family == "TEM":
                 val = z.get("PV")
-                lines.append(f"line impedance of {q.mode.label} (#{q.mode.index + 1}): Z0 = {_g(val, 5)} ohm "
+                ze = (q.impedance_errors or {}).get("PV")
+                lines.append(f"line impedance of {q.mode.label} (#{q.mode.index + 1}): Z0 = {_g(val, 5)}"
+                             + (f" ± {ze:.1g}" if ze is not None else "") + " ohm "
                              "(from the electrostatic capacitance; the same for PV, PI and VI)")
                 continue
             order = [s.impedance] + [k for k in ("PV", "PI", "VI") if k != s.impedance]
@@ -218,7 +234,7 @@ def analysis_table(an, study=None) -> str:
 
             parts = [ztext(k) for k in order]
             lines.append(f"impedance of {q.mode.label} (#{q.mode.index + 1}): {parts[0]}  (also {parts[1]}, {parts[2]})")
-            if q.voltage_path is not None and q.impedance_errors is None:
+            if q.voltage_path is not None and not loaded:
                 (x0, y0), (x1, y1) = q.voltage_path
                 lines += _wrap(f"V along ({_mm(x0)}, {_mm(y0)}) -> ({_mm(x1)}, {_mm(y1)}) mm "
                                "(through the centre, wall to wall); I: the longitudinal wall current on the half "
@@ -236,12 +252,14 @@ def analysis_table(an, study=None) -> str:
             where = "-" if p.peak_location is None else f"({_mm(p.peak_location[0])}, {_mm(p.peak_location[1])})"
             gas = math.isfinite(p.peak_field_per_sqrt_watt)
             err = getattr(p, "peak_error", None)
+            pe = getattr(p, "breakdown_power_error", None)
             rows.append([str(q.mode.index + 1), q.mode.label,
                          (_g(p.peak_field_per_sqrt_watt, 4) + (f" ± {err:.1g}" if err is not None else "")) if gas else "-",
-                         where, power_text(p.breakdown_power) if gas else "-", power_text(p.rated_power) if gas else "-"])
-        lines += _grid(["#", "label", "peak |E| at 1 W [V/m]", "peak at (x, y) [mm]", "power at breakdown",
-                        "rated power"],
-                       rows, {0, 2, 4, 5})
+                         where, f"{100 * pe / p.breakdown_power:.1g}" if gas and pe is not None else "?",
+                         power_text(p.breakdown_power) if gas else "-", power_text(p.rated_power) if gas else "-"])
+        lines += _grid(["#", "label", "peak |E| at 1 W [V/m]", "peak at (x, y) [mm]", "power ± [%]",
+                        "power at breakdown", "rated power"],
+                       rows, {0, 2, 4, 5, 6})
         for q in powered:
             for r in getattr(q.power, "regions", ()):
                 if not r.gas:
