@@ -41,6 +41,7 @@ from femodes.api import _check_count, solve
 from femodes.atomic import replacing
 from femodes.errors import FemodesError
 from femodes.studies.store import SweepStore
+from femodes.studies.tracking import class_signature, follow
 
 __all__ = ["sweep", "SweepResult", "SWEEP_OPTIONS"]
 
@@ -75,7 +76,11 @@ class SweepResult:
     def to_xarray(self):
         """An xarray Dataset on the dimensions (the varied names in the order given, then
         ``mode``, numbered 1.. in cutoff order at each point): ``fc`` and ``fc_error`` (Hz),
-        ``label`` and ``family`` of each mode; per point ``f_low``, ``f_high`` (the single-mode
+        ``label`` and ``family`` of each mode, ``curve`` (the followed mode identity, 1..; 0 where
+        a point has no such mode; followed along the first varied parameter, see
+        :mod:`femodes.studies.tracking`) and ``ambiguous`` (the assignment not decided within the
+        error bars); ``fc_followed`` (Hz) on (the varied names, ``followed``): the cutoff of each
+        followed curve at each point, NaN where absent; per point ``f_low``, ``f_high`` (the single-mode
         band, Hz), ``single_mode_ratio``, ``status`` ('ok' or 'invalid') and ``message``.
         Attributes: shape, parameters (JSON), accuracy, reused, computed."""
         import xarray as xr
@@ -98,11 +103,13 @@ class SweepResult:
             label[idx][:k], family[idx][:k] = r["label"], r["family"]
             if r["band"] is not None:
                 lo[idx], hi[idx] = r["band"]
+        curve, amb, fc_curve = self._follow(fc)
         dims = self.names + ("mode",)
         with np.errstate(divide="ignore", invalid="ignore"):
             ratio = np.where(lo > 0, hi / np.where(lo > 0, lo, 1.0), np.nan)
         coords = {name: np.asarray(v, dtype=float) for name, v in zip(self.names, self.values)}
         coords["mode"] = np.arange(1, n + 1)
+        coords["followed"] = np.arange(1, fc_curve.shape[-1] + 1)
         ds = xr.Dataset(
             {"fc": (dims, fc, {"units": "Hz", "long_name": "cutoff frequency"}),
              "fc_error": (dims, err, {"units": "Hz", "long_name": "estimated error of the cutoff frequency"}),
@@ -110,7 +117,11 @@ class SweepResult:
              "f_low": (self.names, lo, {"units": "Hz", "long_name": "single-mode band, lower edge"}),
              "f_high": (self.names, hi, {"units": "Hz", "long_name": "single-mode band, upper edge"}),
              "single_mode_ratio": (self.names, ratio),
-             "status": (self.names, status), "message": (self.names, message)},
+             "status": (self.names, status), "message": (self.names, message),
+             "curve": (dims, curve, {"long_name": "followed mode identity (curve number, 0: no mode)"}),
+             "ambiguous": (dims, amb, {"long_name": "curve assignment not decided within the error bars"}),
+             "fc_followed": (self.names + ("followed",), fc_curve,
+                             {"units": "Hz", "long_name": "cutoff frequency of each followed curve (NaN: absent)"})},
             coords=coords,
             attrs={"shape": self.shape, "parameters": json.dumps(self.parameters), "accuracy": self.accuracy,
                    "reused": self.reused, "computed": self.computed})
@@ -118,10 +129,45 @@ class SweepResult:
             ds[name].attrs["units"] = "rad" if name == "angle" else "m"
         return ds
 
+    def tracks(self, index=()):
+        """The followed curves (:func:`femodes.studies.tracking.follow`) along the first varied
+        parameter, the others held at ``index`` (their positions in the grid)."""
+        x = self.values[0]
+        pts = []
+        for v in x:
+            key = (float(v),) + tuple(float(self.values[d + 1][i]) for d, i in enumerate(index))
+            pts.append(self.points[key])
+        return follow(pts, x)
+
+    def _follow(self, fc):
+        """(curve, ambiguous, fc per curve) arrays: modes followed along the first varied
+        parameter, separately on every line of the grid's other parameters."""
+        shape = fc.shape
+        curve = np.zeros(shape, dtype=int)
+        amb = np.zeros(shape, dtype=bool)
+        per_line = {}
+        for rest in itertools.product(*(range(s) for s in shape[1:-1])):
+            t = self.tracks(rest)
+            per_line[rest] = t
+            for i in range(shape[0]):
+                k = len(t.curve[i])
+                curve[(i,) + rest][:k] = t.curve[i]
+                amb[(i,) + rest][:k] = t.ambiguous[i]
+        n_curves = max([t.n_curves for t in per_line.values()] + [1])
+        fc_curve = np.full(shape[:-1] + (n_curves,), np.nan)
+        for rest, t in per_line.items():
+            by = t.fc_by_curve(fc[(slice(None),) + rest])
+            fc_curve[(slice(None),) + rest][:, :by.shape[1]] = by
+        return curve, amb, fc_curve
+
     def rows(self):
-        """One dict per point and mode, in grid order (SI units; the columns of :meth:`to_csv`)."""
+        """One dict per point and mode, in grid order (SI units; the columns of :meth:`to_csv`),
+        with the followed ``curve`` of each mode and whether its assignment is ``ambiguous``."""
         out = []
-        for p in itertools.product(*self.values):
+        ds = self.to_xarray()
+        curve = ds.curve.values.reshape(-1, self.modes)
+        amb = ds.ambiguous.values.reshape(-1, self.modes)
+        for j, p in enumerate(itertools.product(*self.values)):
             r = self.points[tuple(float(v) for v in p)]
             band = r["band"] or [math.nan, math.nan]
             base = dict(zip(self.names, (float(v) for v in p)))
@@ -130,15 +176,15 @@ class SweepResult:
                 row = dict(base, mode=k + 1)
                 if k < len(r["fc"]):
                     row.update(label=r["label"][k], family=r["family"][k], fc_Hz=r["fc"][k],
-                               fc_error_Hz=r["fc_error"][k])
+                               fc_error_Hz=r["fc_error"][k], curve=int(curve[j, k]), ambiguous=bool(amb[j, k]))
                 out.append(row)
         return out
 
     def to_csv(self, path):
         """The points as CSV, one row per point and mode (SI units named in the header; empty where
         a point is invalid).  Written to a temporary name and moved into place.  Returns the path."""
-        cols = list(self.names) + ["mode", "label", "family", "fc_Hz", "fc_error_Hz", "f_low_Hz", "f_high_Hz",
-                                   "status", "message"]
+        cols = list(self.names) + ["mode", "label", "family", "fc_Hz", "fc_error_Hz", "curve", "ambiguous",
+                                   "f_low_Hz", "f_high_Hz", "status", "message"]
         buf = io.StringIO()
         w = csv.DictWriter(buf, cols, lineterminator="\n")
         w.writeheader()
@@ -242,6 +288,8 @@ def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
     out["fc_error"] = [float(m.fc_error) for m in ms]
     out["label"] = [str(m.label) for m in ms]
     out["family"] = [str(m.family) for m in ms]
+    out["degenerate"] = [bool(getattr(m, "degenerate_with", ())) for m in ms]
+    out["symmetry"] = [class_signature("", getattr(m, "symmetry", None) or {}).split("|", 1)[1] for m in ms]
     try:
         band = ms.single_mode_band() if hasattr(ms, "single_mode_band") else (ms[0].fc, ms[1].fc)
         out["band"] = [float(band[0]), float(band[1])]

@@ -1,0 +1,51 @@
+"""Design studies, the later parts: mode identity followed across a crossing, quantities at an
+analysis frequency per point, loaded-guide sweeps, seeking impedance and attenuation targets.
+
+Outside references: the rectangle's closed forms (Pozar, Microwave Engineering, 4th ed.,
+sec. 3.3: fc_mn = (c / 2) sqrt((m / a)^2 + (n / b)^2), beta = sqrt(k^2 - kc^2),
+Z_TE = k eta / beta, and the TE10 wall loss eq. 3.96:
+alpha_c = R_s / (a^3 b beta k eta) (2 b pi^2 + a^3 k^2)); the slab-loaded guide's LSE / LSM
+transcendental equations (femodes.reference.layered, Collin, Field Theory of Guided Waves,
+ch. 6), solved by root finding without the finite elements.
+"""
+
+import math
+
+import numpy as np
+
+import femodes as fm
+from femodes.studies.tracking import follow
+
+C0 = 299792458.0
+HEIGHT = 10e-3
+# widths across a = 2b = 20 mm, where TE20 (c / a) and TE01 (c / 2b = 14.99 GHz) cross; one point
+# 0.1 um from the crossing, where the two cutoffs agree within the error bars
+WIDTHS = [18.5e-3, 19.3e-3, 20.0001e-3, 20.8e-3, 21.6e-3, 23e-3]
+
+
+def _te(m, n, a, b=HEIGHT):
+    return C0 / 2 * math.hypot(m / a, n / b)
+
+
+def test_followed_curves_stay_on_te20_and_te01_across_their_crossing():
+    r = fm.sweep(fm.rectangle, {"height": HEIGHT}, {"width": WIDTHS}, modes=3, accuracy=1e-5, workers=1)
+    ds = r.to_xarray()
+    # in cutoff order, mode 2 is TE01 below the crossing and TE20 above it (Pozar sec. 3.3)
+    assert ds.fc.values[0, 1] < ds.fc.values[0, 2] and ds.fc.values[-1, 1] < ds.fc.values[-1, 2]
+    curves = ds.fc_followed.values
+    assert curves.shape == (len(WIDTHS), 3)
+    te01 = np.array([_te(0, 1, a) for a in WIDTHS])
+    te20 = np.array([_te(2, 0, a) for a in WIDTHS])
+    c01, c20 = ds.curve.values[0, 1], ds.curve.values[0, 2]   # the curves that start on TE01, TE20
+    err = ds.fc_error.values.max(axis=1)
+    away = np.abs(te01 - te20) > 10 * err          # the near-degenerate point apart
+    assert np.all(np.abs(curves[away, c01 - 1] - te01[away]) <= err[away])
+    assert np.all(np.abs(curves[away, c20 - 1] - te20[away]) <= err[away])
+    # at the crossing the two cutoffs cannot be told apart: flagged there and nowhere else
+    amb = ds.ambiguous.values
+    assert amb[2, 1] and amb[2, 2] and not amb[[0, 1, 3, 4, 5]].any()
+    # without the symmetry classes the extrapolated cutoffs alone follow the same curves
+    pts = [dict(r.points[(a,)], symmetry=None, degenerate=None) for a in WIDTHS]
+    t = follow(pts, WIDTHS)
+    assert [list(t.curve[i]) for i in (0, 1, 3, 4, 5)] == [list(ds.curve.values[i]) for i in (0, 1, 3, 4, 5)]
+    assert list(t.ambiguous[2][1:]) == [True, True] and not any(t.ambiguous[3])
