@@ -12,6 +12,7 @@ ch. 6), solved by root finding without the finite elements.
 import math
 
 import numpy as np
+import pytest
 
 import femodes as fm
 from femodes.studies.tracking import follow
@@ -49,3 +50,49 @@ def test_followed_curves_stay_on_te20_and_te01_across_their_crossing():
     t = follow(pts, WIDTHS)
     assert [list(t.curve[i]) for i in (0, 1, 3, 4, 5)] == [list(ds.curve.values[i]) for i in (0, 1, 3, 4, 5)]
     assert list(t.ambiguous[2][1:]) == [True, True] and not any(t.ambiguous[3])
+
+
+MU0 = 4e-7 * math.pi
+ETA0 = MU0 * C0
+
+
+def _te10(a, b, f, sigma):
+    """TE10 of an a x b rectangle at f (Pozar, Microwave Engineering, 4th ed., sec. 3.3):
+    beta, Z_TE = k eta / beta, alpha_c (eq. 3.96) and the breakdown power a b E_bd^2 / (4 Z_TE)
+    (the peak |E| at the centre, E_0^2 a b / (4 Z_TE) carried; Pozar sec. 3.3 power flow)."""
+    k = 2 * math.pi * f / C0
+    beta = math.sqrt(k * k - (math.pi / a) ** 2)
+    zte = k * ETA0 / beta
+    rs = math.sqrt(2 * math.pi * f * MU0 / (2 * sigma))
+    ac = rs / (a ** 3 * b * beta * k * ETA0) * (2 * b * math.pi ** 2 + a ** 3 * k ** 2)
+    return {"beta": beta, "guide_wavelength": 2 * math.pi / beta, "wave_impedance": zte, "alpha_c": ac,
+            "breakdown_power": a * b * 3e6 ** 2 / (4 * zte), "z_pv": 2 * b / a * zte}
+
+
+def test_quantities_at_a_frequency_against_the_te10_closed_forms():
+    b, sigma, f = 10.16e-3, 5.8e7, 10e9
+    widths = [20e-3, 22.86e-3]
+    r = fm.sweep(fm.rectangle, {"height": b}, {"width": widths}, modes=2, accuracy=1e-5, workers=1,
+                 frequency=f, conductivity=sigma, tan_delta=1e-4)
+    ds = r.to_xarray()
+    ratios = {}
+    for i, a in enumerate(widths):
+        want = _te10(a, b, f, sigma)
+        assert ds.at_label.values[i, 0] == "TE10"
+        for name, w in want.items():
+            got, err = float(ds[name].values[i, 0]), float(ds[name + "_error"].values[i, 0])
+            assert abs(got - w) <= err, (name, a, got, w, err)
+            ratios[name] = max(ratios.get(name, 0.0), abs(got - w) / err)
+        # the fill's loss: alpha_d = k^2 tan_delta / (2 beta) (Pozar sec. 3.1)
+        k = 2 * math.pi * f / C0
+        assert ds.alpha_d.values[i, 0] == pytest.approx(k * k * 1e-4 / (2 * want["beta"]), rel=1e-6)
+    # the next mode (TE20 at 20 mm: c / a = 15 GHz; TE01: 14.8 GHz) is below cutoff: no quantities
+    assert np.all(np.isnan(ds.beta.values[:, 1]))
+    print("true / reported error, worst of the two widths:", {k: f"{v:.2g}" for k, v in ratios.items()})
+    # the frequency itself swept: the same numbers at the same frequency, the cutoffs solved once
+    s = fm.sweep(fm.rectangle, {"height": b, "width": widths[1]}, {"frequency": [9e9, f]}, modes=2,
+                 accuracy=1e-5, workers=1, conductivity=sigma).to_xarray()
+    assert s.alpha_c.dims == ("frequency", "mode") and s.frequency.attrs["units"] == "Hz"
+    assert s.alpha_c.values[1, 0] == pytest.approx(ds.alpha_c.values[1, 0], rel=1e-9)
+    want9 = _te10(widths[1], b, 9e9, sigma)
+    assert abs(s.alpha_c.values[0, 0] - want9["alpha_c"]) <= s.alpha_c_error.values[0, 0]
