@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 
 import femodes as fm
+from femodes import reference as ref
 from femodes.studies.tracking import follow
 
 C0 = 299792458.0
@@ -96,3 +97,37 @@ def test_quantities_at_a_frequency_against_the_te10_closed_forms():
     assert s.alpha_c.values[1, 0] == pytest.approx(ds.alpha_c.values[1, 0], rel=1e-9)
     want9 = _te10(widths[1], b, 9e9, sigma)
     assert abs(s.alpha_c.values[0, 0] - want9["alpha_c"]) <= s.alpha_c_error.values[0, 0]
+
+
+# ----------------------------------------------------------------------------- loaded guides
+
+A90, B90 = 22.86e-3, 10.16e-3  # WR-90 inner size (EIA)
+SLAB = fm.rectangle(A90, B90 / 2).translated(0, -B90 / 4)  # a slab filling the lower half
+
+
+def test_slab_permittivity_sweep_against_the_lse_lsm_equations():
+    eps = [2.0, 2.5]
+    r = fm.sweep(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.eps_r": eps}, modes=3, accuracy=1e-5,
+                 workers=1, regions=[{"name": "slab", "shape": SLAB, "eps_r": 2.25}])
+    ds = r.to_xarray()
+    assert ds.fc.dims == ("region.slab.eps_r", "mode")
+    for i, e in enumerate(eps):
+        want = np.array([c.frequency for c in ref.layered_guide_cutoffs(A90, B90, [(B90 / 2, e, 1.0),
+                                                                                    (B90 / 2, 1.0, 1.0)], 3)])
+        got, err = ds.fc.values[i], ds.fc_error.values[i]
+        assert np.all(np.abs(got - want) <= err) and np.all(np.abs(got / want - 1) <= 1e-5)
+    assert list(ds.curve.values[1]) == [1, 2, 3]  # no crossing among the lowest three here
+
+
+def test_slab_loss_tangent_sweep_at_a_frequency():
+    # beta of the dominant (LSM10) mode from the transverse-resonance equations, and the
+    # dielectric attenuation linear in tan_delta (first order: Pozar sec. 3.1)
+    f = 13e9
+    r = fm.sweep(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.tan_delta": [1e-4, 2e-4]}, modes=1,
+                 accuracy=1e-5, workers=1, frequency=f, regions=[{"name": "slab", "shape": SLAB, "eps_r": 2.25}])
+    ds = r.to_xarray()
+    want = ref.slab_on_wall_modes(A90, B90, B90 / 2, 2.25, f, 1)[0].beta
+    assert np.all(np.abs(ds.beta.values[:, 0] - want) <= ds.beta_error.values[:, 0])
+    assert ds.alpha_d.values[1, 0] == pytest.approx(2 * ds.alpha_d.values[0, 0], rel=1e-9)
+    assert np.all(ds.alpha_d_error.values[:, 0] < 0.1 * ds.alpha_d.values[:, 0])
+    assert np.all(np.isfinite(ds.alpha_c_error.values[:, 0])) and np.isfinite(ds.z_pv.values[0, 0])

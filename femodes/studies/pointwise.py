@@ -19,8 +19,8 @@ than the finer one's on a converging sequence) plus the part carried by beta.  (
 order lower on the same mesh was tried first and is not safe: on a coarse mesh of the rectangle
 order 3 happened to give Z_PV closer to the truth than order 4, and the difference was below the
 order-4 error.)  Loaded guides: the modes solved at the frequency carry
-their own estimates (beta from the solve; Z_PV, alpha_c and the peak field from the same mode
-one element order lower on the same mesh, :mod:`femodes.quantities`).
+their own estimates (beta from the solve; Z_PV, alpha_c, alpha_d and the peak field from the
+same mode one element order lower on the same mesh, :mod:`femodes.quantities`).
 """
 
 from __future__ import annotations
@@ -124,7 +124,11 @@ def quantities_at(modes, f, *, partner=None, conductivity=5.8e7, roughness=0.0, 
         if loaded:
             ls = Q.losses(m, f, conductivity, roughness)
             out["alpha_c"][i], out["alpha_c_error"][i] = float(ls.conductor), float(ls.conductor_error)
-            out["alpha_d"][i], out["alpha_d_error"][i] = float(ls.dielectric), float(ls.dielectric) * rb
+            ad = float(ls.dielectric)
+            low = Q.lower_order_partner(m)
+            out["alpha_d"][i] = ad
+            if low is not None:  # the same convention as the other field-based errors of a loaded mode
+                out["alpha_d_error"][i] = abs(ad - float(low.dielectric_attenuation)) + ad * rb
             if impedance:
                 try:
                     li = Q.loaded_impedances(m, f, section=section)

@@ -11,8 +11,11 @@ neighbouring points into curves, each curve one physical mode:
    eigenvalue curves belong to different invariant subspaces).
 2. **Extrapolated cutoff.**  Within a class, each curve's cutoff at the new point is predicted
    linearly from its previous two points (from its last point where it has only one), and the
-   modes are assigned to the curves by the least total |fc - predicted fc|
-   (``scipy.optimize.linear_sum_assignment``, the Hungarian method).  Modes left over start new
+   modes are assigned to the curves by the least total (fc - predicted fc)^2
+   (``scipy.optimize.linear_sum_assignment``, the Hungarian method; squared, because with
+   absolute distances two curves shifted the same way by more than their spacing tie between
+   keeping and swapping their order, while a convex cost keeps the order unless the predictions
+   themselves cross).  Modes left over start new
    curves (a mode entering from above the highest cutoff computed); curves left over end.
 3. **Ambiguity.**  The assignment of a mode to a curve is flagged ``ambiguous`` when another mode
    of the same class is as close to the prediction within the error bars: the two distances differ
@@ -138,7 +141,7 @@ def follow(points, x=None):
             for r, c in enumerate(live):
                 for k in range(len(fc)):
                     if _compatible(hist[c][3], cls[k]):
-                        cost[r, k] = abs(fc[k] - preds[c][0]) / scale
+                        cost[r, k] = ((fc[k] - preds[c][0]) / scale) ** 2
             rows, cols = linear_sum_assignment(cost)
             for r, k in zip(rows, cols):
                 if cost[r, k] >= _FORBIDDEN:
