@@ -53,7 +53,7 @@ def test_followed_curves_stay_on_te20_and_te01_across_their_crossing():
     assert list(t.ambiguous[2][1:]) == [True, True] and not any(t.ambiguous[3])
 
 
-MU0 = 4e-7 * math.pi
+MU0 = 1.25663706212e-6  # CODATA 2018 (the value femodes uses)
 ETA0 = MU0 * C0
 
 
@@ -131,3 +131,31 @@ def test_slab_loss_tangent_sweep_at_a_frequency():
     assert ds.alpha_d.values[1, 0] == pytest.approx(2 * ds.alpha_d.values[0, 0], rel=1e-9)
     assert np.all(ds.alpha_d_error.values[:, 0] < 0.1 * ds.alpha_d.values[:, 0])
     assert np.all(np.isfinite(ds.alpha_c_error.values[:, 0])) and np.isfinite(ds.z_pv.values[0, 0])
+
+
+# ----------------------------------------------------------------------------- goal seeking at a frequency
+
+def test_seek_the_width_for_a_target_wall_loss():
+    # the width of a 10.16 mm high copper guide whose TE10 loses 0.014 Np/m at 10 GHz: Pozar
+    # eq. 3.96 solved for a by brentq, with mu0 of CODATA 2018 (the value femodes uses: at the
+    # 1e-10 level of these numbers the 2018 and 2022 values differ)
+    from scipy.optimize import brentq
+
+    b, f, sigma = 10.16e-3, 10e9, 5.8e7
+    mu0 = 1.25663706212e-6
+
+    def alpha_c(a):
+        k = 2 * math.pi * f / C0
+        beta = math.sqrt(k * k - (math.pi / a) ** 2)
+        eta = mu0 * C0
+        rs = math.sqrt(2 * math.pi * f * mu0 / (2 * sigma))
+        return rs / (a ** 3 * b * beta * k * eta) * (2 * b * math.pi ** 2 + a ** 3 * k ** 2)
+
+    want = 0.014
+    exact = brentq(lambda a: alpha_c(a) - want, 20e-3, 24e-3, xtol=1e-16)
+    r = fm.seek(fm.rectangle, {"height": b}, {"width": (20e-3, 24e-3)}, {"alpha": want}, accuracy=1e-5,
+                frequency=f, conductivity=sigma)
+    assert abs(r.values["width"] - exact) <= r.errors["width"]
+    assert abs(r.achieved["alpha"] - want) <= r.achieved_error["alpha"] + 1e-9 * want
+    print(f"width {r.values['width']:.12g} m, exact {exact:.12g}, true / reported "
+          f"{abs(r.values['width'] - exact) / r.errors['width']:.2g}, {r.solves} solves")

@@ -89,6 +89,9 @@ def _q_text(name, value, err=None):
     """A target quantity in GHz (the ratio as is), with its error where given."""
     if name == "ratio":
         return f"{value:.6g}" + (f" ± {err:.1g}" if err is not None else "")
+    if name in ("z_pv", "alpha"):
+        unit = "ohm" if name == "z_pv" else "Np/m"
+        return f"{value:.9g} {unit}" + (f" ± {err:.1g}" if err is not None else "")
     return f"{value / 1e9:.9g} GHz" + (f" ± {err / 1e9:.1g}" if err is not None else "")
 
 
@@ -102,7 +105,7 @@ def seek_table(result, labels=None, title=None) -> str:
     for name, v in result.achieved.items():
         lines.append(f"  reached {name} = {_q_text(name, v, result.achieved_error[name])}")
     lines.append(f"  ({result.solves} solves; the uncertainty of a value is the error bar of its target quantity "
-                 "divided by the quantity's slope)")
+                 "plus what it misses the target by, divided by the quantity's slope)")
     return "\n".join(lines) + "\n"
 
 
@@ -156,7 +159,8 @@ def study_document(kind, result, labels=None, title=None) -> dict:
     if kind == "seek":
         doc.update(values=result.values, errors=result.errors, achieved=result.achieved,
                    achieved_error=result.achieved_error, solves=result.solves,
-                   units={"values": "m (rad for an angle)", "achieved": "Hz (ratio: 1)"})
+                   units={"values": "m (rad for an angle)",
+                          "achieved": "Hz (ratio: 1, z_pv: ohm, alpha: Np/m)"})
     elif kind == "sensitivity":
         doc.update(labels=list(result.labels), fc=[_finite(v) for v in result.fc],
                    dfc={k: [_finite(x) for x in v] for k, v in result.dfc.items()},
