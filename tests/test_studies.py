@@ -9,6 +9,7 @@ transcendental equations (femodes.reference.layered, Collin, Field Theory of Gui
 ch. 6), solved by root finding without the finite elements.
 """
 
+import json
 import math
 
 import numpy as np
@@ -159,3 +160,51 @@ def test_seek_the_width_for_a_target_wall_loss():
     assert abs(r.achieved["alpha"] - want) <= r.achieved_error["alpha"] + 1e-9 * want
     print(f"width {r.values['width']:.12g} m, exact {exact:.12g}, true / reported "
           f"{abs(r.values['width'] - exact) / r.errors['width']:.2g}, {r.solves} solves")
+
+
+# ----------------------------------------------------------------------------- case file and JSON
+
+LOADED_CASE = """title = "slab permittivity sweep"
+[guide]
+shape = "rectangle"
+width = 22.86
+height = 10.16
+[[region]]
+name = "slab"
+shape = "rectangle"
+width = 22.86
+height = 5.08
+offset = [0, -2.54]
+eps_r = 2.25
+[solve]
+modes = 2
+accuracy = 1e-5
+[analysis]
+frequency = 13
+[sweep]
+region.slab.eps_r = [2.0, 2.25]
+workers = 1
+"""
+
+
+def test_sweep_of_a_loaded_case_in_the_json_report(tmp_path, capsys):
+    from femodes.cli import main
+
+    case = tmp_path / "slab.toml"
+    case.write_text(LOADED_CASE, encoding="utf-8")
+    assert main(["sweep", str(case), "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["varied"][0] == {"name": "region.slab.eps_r", "case_key": "region.slab.eps_r", "values": [2.0, 2.25]}
+    assert doc["frequency"] == 13e9 and doc["cautions"]
+    for p in doc["points"]:
+        e = p["parameters"]["region.slab.eps_r"]
+        # LSE / LSM cutoffs and beta at 13 GHz (femodes.reference.layered, Collin ch. 6)
+        cut = ref.layered_guide_cutoffs(A90, B90, [(B90 / 2, e, 1.0), (B90 / 2, 1.0, 1.0)], 2)
+        m = p["modes"][0]
+        assert abs(m["fc"] - cut[0].frequency) <= m["fc_error"] and m["curve"] == 1 and not m["ambiguous"]
+        beta = ref.slab_on_wall_modes(A90, B90, B90 / 2, e, 13e9, 1)[0].beta
+        at = m["at_frequency"]
+        assert abs(at["beta"] - beta) <= at["beta_error"] and at["alpha_c"] > 0 and at["breakdown_power"] > 0
+    assert main(["sweep", str(case)]) == 0
+    out = capsys.readouterr().out
+    assert "dominant mode at the analysis frequency" in out and "cautions" in out
