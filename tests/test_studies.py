@@ -208,3 +208,42 @@ def test_sweep_of_a_loaded_case_in_the_json_report(tmp_path, capsys):
     assert main(["sweep", str(case)]) == 0
     out = capsys.readouterr().out
     assert "dominant mode at the analysis frequency" in out and "cautions" in out
+
+
+SEEK_CASE = """[guide]
+shape = "rectangle"
+width = 22.86
+height = 10.16
+[solve]
+modes = 2
+accuracy = 1e-5
+[analysis]
+frequency = 10
+[seek]
+width = [20.0, 26.0]
+z_pv = 450
+"""
+
+
+def test_seek_a_power_voltage_impedance_from_a_case_file(tmp_path, capsys):
+    # TE10: V = E0 b on the centre line and P = E0^2 a b / (4 Z_TE) (Pozar sec. 3.3), so
+    # Z_PV = 2 (b / a) Z_TE; solved for a by brentq
+    from scipy.optimize import brentq
+
+    from femodes.cli import main
+
+    b, f = 10.16e-3, 10e9
+    eta = MU0 * C0
+
+    def z_pv(a):
+        k = 2 * math.pi * f / C0
+        return 2 * b / a * k * eta / math.sqrt(k * k - (math.pi / a) ** 2)
+
+    exact = brentq(lambda a: z_pv(a) - 450.0, 20e-3, 26e-3, xtol=1e-16)
+    case = tmp_path / "z.toml"
+    case.write_text(SEEK_CASE, encoding="utf-8")
+    assert main(["seek", str(case), "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert abs(doc["values"]["width"] - exact) <= doc["errors"]["width"]
+    assert abs(doc["achieved"]["z_pv"] - 450.0) <= doc["achieved_error"]["z_pv"]
+    print(f"z_pv seek: true / reported {abs(doc['values']['width'] - exact) / doc['errors']['width']:.2g}")
