@@ -2,7 +2,9 @@
 
     [seek]                         # the free parameters and their bounds, in the [guide] units,
     ridge_width = [4.0, 14.0]      # and the targets in GHz (fcN the N-th cutoff, f_high the top of
-    fc1 = 1.7                      # the single-mode band) or, for ratio, the single-mode ratio
+    fc1 = 1.7                      # the single-mode band) or, for ratio, the single-mode ratio;
+                                   # z_pv (ohm) and alpha (Np/m) of the dominant mode at the
+                                   # [analysis] frequency, with its conductor / roughness / tan_delta
 
     [tolerance]                    # +- tolerance of each dimension, in the [guide] units
     gap = 0.02
@@ -62,7 +64,7 @@ def _factor(key, scale):
 
 
 def _is_target(name):
-    return name in ("f_high", "ratio") or (name.startswith("fc") and name[2:].isdigit())
+    return name in ("f_high", "ratio", "z_pv", "alpha") or (name.startswith("fc") and name[2:].isdigit())
 
 
 def build_seek(table, guide):
@@ -73,7 +75,7 @@ def build_seek(table, guide):
         where = f"{name} in [seek]"
         if _is_target(name):
             v = _number(where, value)
-            targets[name] = v if name == "ratio" else v * 1e9
+            targets[name] = v if name in ("ratio", "z_pv", "alpha") else v * 1e9
         elif name in keys:
             if not isinstance(value, list) or len(value) != 2:
                 raise FemodesError(f"{where} must be its bounds [low, high] in the [guide] units, got {_show(value)}")
@@ -82,7 +84,7 @@ def build_seek(table, guide):
             bounds[key.target] = (lo, hi)
             labels[key.target] = name
         else:
-            _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio"), "[seek]")
+            _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio", "z_pv", "alpha"), "[seek]")
     if not bounds or not targets:
         raise FemodesError("[seek] needs the free parameters with their bounds (e.g. ridge_width = [4, 14]) and "
                            "the targets (e.g. fc1 = 1.7, GHz)")
@@ -137,6 +139,13 @@ def run_seek(case):
     kw = _options(case)
     if "modes" in case.solve:
         kw["modes"] = case.solve["modes"]
+    if any(k in ("z_pv", "alpha") for k in case.seek.targets):
+        an = case.analysis
+        if an is None:
+            raise FemodesError("targets z_pv and alpha in [seek] are values at a frequency: add an [analysis] table "
+                               "with frequency = F (and the conductor)")
+        kw.update(frequency=an.table_frequency, conductivity=an.conductivity, roughness=an.roughness,
+                  tan_delta=case.tan_delta or an.tan_delta)
     return seek(shape, fixed, case.seek.bounds, case.seek.targets, **kw)
 
 

@@ -8,6 +8,19 @@
     spec_band = [2, 18]                           # optional, GHz: drawn on the design curves
     target = 2.0                                  # optional, GHz: drawn on the curves / as the map's contour
 
+Besides the [guide] parameters a sweep may vary (same two forms):
+
+    frequency = { from = 8, to = 12, points = 5 }  # GHz: the analysis frequency
+    eps_r = [1.0, 2.0]                             # the fill's eps_r (also mu_r, tan_delta)
+    region.slab.eps_r = [2.0, 2.5, 3.0]            # a [[region]] by its name (unnamed: its number,
+                                                   # region.1.eps_r); also .mu_r, .tan_delta
+
+With an [analysis] table (or a varied frequency) every point also gets the quantities of
+:mod:`femodes.studies.pointwise` at the analysis frequency (the [analysis] frequency, conductor,
+roughness, breakdown_field and safety_factor; the fill's tan_delta).  A guide with [[region]]
+tables is swept with its regions where the case file puts them: they do not move or grow with
+a varied [guide] parameter (a region reaching outside the guide is cut at the wall).
+
 The fixed parameters are the [guide] table's own; the shape's placement does not change a cutoff
 and is left out.  :func:`run_sweep` runs it through :func:`femodes.sweep`.
 """
@@ -23,6 +36,7 @@ import numpy as np
 from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
 from femodes.case.values import _check_keys, _count, _number, _show, _suggest
 from femodes.errors import FemodesError
+from femodes.geometry.section import Section
 from femodes.studies import sweep
 
 __all__ = ["SweepSettings", "build_sweep", "run_sweep", "SWEEP_KEYS"]
@@ -51,14 +65,11 @@ def build_sweep(table, guide, base_dir):
     if shape == "mesh" or shape not in SHAPES or SHAPES[shape].build is None:
         raise FemodesError("[sweep] varies the parameters of a built-in shape; a mesh file has none")
     keys = {k.name: k for k in SHAPES[shape].keys if k.kind in (LENGTH, ANGLE)}
-    _check_keys(table, tuple(keys) + SWEEP_KEYS, "[sweep]",
-                shown=[f"{k} (a [guide] key of {shape})" for k in keys] + list(SWEEP_KEYS))
+    _check_keys(table, tuple(keys) + SWEEP_KEYS + OTHER_KEYS, "[sweep]",
+                shown=[f"{k} (a [guide] key of {shape})" for k in keys] + list(SWEEP_KEYS) + list(OTHER_KEYS))
     scale = UNITS[guide.get("units", "mm")]
     vary, labels = {}, {}
-    for name, value in table.items():
-        if name in SWEEP_KEYS:
-            continue
-        key = keys[name]
+    for name, value, factor, target in _entries(table, keys, scale):
         where = f"{name} in [sweep]"
         if isinstance(value, dict):
             extra = sorted(set(value) - {"from", "to", "points"})
@@ -75,9 +86,13 @@ def build_sweep(table, guide, base_dir):
         else:
             raise FemodesError(f"{where} must be a non-empty list of values or {{ from = A, to = B, points = N }}, got "
                                f"{_show(value)}")
-        factor = math.pi / 180.0 if key.kind == ANGLE else scale
-        vary[key.target] = tuple(float(v) * factor for v in vals)
-        labels[key.target] = name
+        if target == "frequency" or target.split(".")[-1] in ("eps_r", "mu_r"):
+            if np.any(vals <= 0):
+                raise FemodesError(f"{where} must be positive, got {_show(value)}")
+        elif target.endswith("tan_delta") and np.any(vals < 0):
+            raise FemodesError(f"{where} must be >= 0, got {_show(value)}")
+        vary[target] = tuple(float(v) * factor for v in vals)
+        labels[target] = name
     if not vary:
         raise FemodesError(f"[sweep] names no parameter to vary: give one of {', '.join(keys)} with its values"
                            + (_suggest(next(iter(table), ""), keys) if table else ""))
@@ -96,18 +111,74 @@ def build_sweep(table, guide, base_dir):
     return SweepSettings(vary, labels, store, workers, spec, target)
 
 
+#: what [sweep] may vary besides the [guide] parameters
+OTHER_KEYS = ("frequency", "eps_r", "mu_r", "tan_delta", "region")
+
+
+def _entries(table, keys, scale):
+    """(case key, value, factor to SI, femodes.sweep name) of each varied entry of [sweep]."""
+    for name, value in table.items():
+        if name in SWEEP_KEYS:
+            continue
+        if name == "region":
+            if not isinstance(value, dict) or not value:
+                raise FemodesError("region in [sweep] names a [[region]] and what to vary, e.g. "
+                                   "region.slab.eps_r = [2.0, 3.0]")
+            for reg, props in value.items():
+                if not isinstance(props, dict) or not props:
+                    raise FemodesError(f"region.{reg} in [sweep] must name what to vary: region.{reg}.eps_r (or "
+                                       ".mu_r, .tan_delta) = [...]")
+                for prop, v in props.items():
+                    if prop not in ("eps_r", "mu_r", "tan_delta"):
+                        raise FemodesError(f"region.{reg}.{prop} in [sweep]: a region's eps_r, mu_r or tan_delta "
+                                           f"can be varied{_suggest(prop, ('eps_r', 'mu_r', 'tan_delta'))}")
+                    yield f"region.{reg}.{prop}", v, 1.0, f"region.{reg}.{prop}"
+        elif name == "frequency":
+            yield name, value, 1e9, name
+        elif name in OTHER_KEYS:
+            yield name, value, 1.0, name
+        else:
+            key = keys[name]
+            yield name, value, (math.pi / 180.0 if key.kind == ANGLE else scale), key.target
+
+
+def _case_regions(case):
+    """The case's [[region]] tables as femodes.sweep regions, each named by its name or, when
+    unnamed, by its number (1, 2, ...)."""
+    from_section = getattr(case.section, "materials", ())
+    out = []
+    for i, m in enumerate(from_section, start=1):
+        shape = Section(m.region, tuple(m.holes), "region")
+        out.append({"name": m.name or str(i), "shape": shape, "eps_r": m.eps_r, "mu_r": m.mu_r,
+                    "tan_delta": m.tan_delta})
+    return out
+
+
 def run_sweep(case, store=None, workers=None, scheduler=None):
     """Run the case's [sweep] (:func:`femodes.sweep`) with its [solve] settings; ``store``,
     ``workers`` and ``scheduler`` override the table's.  Returns the SweepResult."""
     s = case.sweep
     if s is None:
         raise FemodesError("the case file has no [sweep] table: add one naming the [guide] parameters to vary")
-    if case.loaded:
-        raise FemodesError("[sweep] of a guide with [[region]] tables is not supported yet: sweep the empty guide, "
-                           "or solve each point as its own case")
     shape_function = SHAPES[case.section.kind].build
     fixed = {k: v for k, v in case.section.params.items() if k not in s.vary}
-    opts = {k: v for k, v in case.solve.items() if k in ("eps_r", "mu_r", "family", "order")}
+    opts = {k: v for k, v in case.solve.items() if k in ("eps_r", "mu_r", "family", "order") and k not in s.vary}
     kw = {k: case.solve[k] for k in ("modes", "accuracy") if k in case.solve}
+    regions = _case_regions(case) if case.loaded else None
+    names = {r["name"] for r in regions or ()}
+    for name in s.vary:
+        if name.startswith("region.") and name.split(".")[1] not in names:
+            raise FemodesError(f"{s.labels[name]} in [sweep] names no [[region]] of this case; its regions: "
+                               + (", ".join(sorted(names)) or "none") + " (an unnamed region by its number)")
+    an = case.analysis
+    extra = {}
+    if an is not None or "frequency" in s.vary:
+        if an is not None and "frequency" not in s.vary:
+            extra["frequency"] = an.table_frequency
+        if an is not None:
+            extra.update(conductivity=an.conductivity, roughness=an.roughness, breakdown_field=an.breakdown_field,
+                         safety_factor=an.safety_factor)
+        if "tan_delta" not in s.vary:
+            extra["tan_delta"] = case.tan_delta or (an.tan_delta if an is not None else 0.0)
     return sweep(shape_function, fixed, s.vary, store=store or s.store, workers=workers or s.workers,
-                 scheduler=scheduler, **kw, **opts)
+                 scheduler=scheduler, regions=regions, **kw, **opts, **extra)

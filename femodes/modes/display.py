@@ -293,8 +293,25 @@ def list_repr(name, modes, extra="", limit=6):
 # -- sweeps: the cutoffs over a grid of parameters (femodes.studies.SweepResult, duck-typed) ------------
 
 
+#: sweep parameters without a unit (a region's or the fill's material, 'region.NAME.eps_r')
+_UNITLESS = ("eps_r", "mu_r", "tan_delta")
+
+
+def _param_unit(name):
+    """The unit a sweep parameter is shown in: GHz for the frequency, degrees for an angle, none
+    ('1') for a material property, mm for every length."""
+    if name == "frequency":
+        return "GHz"
+    if name == "angle":
+        return "deg"
+    return "1" if name.split(".")[-1] in _UNITLESS else "mm"
+
+
 def _param_text(name, value):
-    return f"{math.degrees(value):.6g}" if name == "angle" else f"{value * 1e3:.6g}"
+    """A sweep parameter (SI) in the unit of :func:`_param_unit`, 6 significant digits."""
+    unit = _param_unit(name)
+    scale = {"GHz": 1e-9, "1": 1.0, "mm": 1e3}
+    return f"{math.degrees(value):.6g}" if unit == "deg" else f"{value * scale[unit]:.6g}"
 
 
 def sweep_columns(result, labels=None):
@@ -302,8 +319,7 @@ def sweep_columns(result, labels=None):
     row per point in grid order; ``notes`` says why each invalid point was refused.  ``labels``
     maps a parameter to the name shown (the case file's key)."""
     labels = labels or {}
-    unit = {n: "deg" if n == "angle" else "mm" for n in result.names}
-    head = [f"{labels.get(n, n)} [{unit[n]}]" for n in result.names]
+    head = [f"{labels.get(n, n)} [{_param_unit(n)}]" for n in result.names]
     head += [f"fc{k + 1} [GHz]" for k in range(result.modes)] + ["single-mode band [GHz]", "ratio"]
     rows, notes = [], []
     for key in sorted(result.points):
@@ -327,5 +343,8 @@ def sweep_columns(result, labels=None):
 
 def fixed_text(result):
     """'width = 34 mm, height = 16 mm' of the sweep's fixed numeric parameters, or '-'."""
-    return ", ".join(f"{k} = {_param_text(k, v)}" + ("" if k == "angle" else " mm")
+    def unit(k):
+        u = _param_unit(k)
+        return "" if u in ("deg", "1") else f" {u}"
+    return ", ".join(f"{k} = {_param_text(k, v)}{unit(k)}"
                      for k, v in result.parameters.items() if isinstance(v, float)) or "-"

@@ -92,7 +92,11 @@ def voltage_path(mode, section=None):
     idx = np.flatnonzero(ok)
     containing = [i for i in idx if hits[i] <= 0.0 <= hits[i + 1]]
     i = containing[0] if containing else idx[np.argmax(np.diff(hits)[idx])]
-    p0, p1 = c + d * hits[i], c + d * hits[i + 1]
+    # the ends pulled in by 1e-9 of the section's size: a wall found by interpolation along a
+    # curved boundary edge may lie a rounding error outside the mesh (seen: 1e-12 m on a
+    # rectangle), and the piece beyond it has no field; the part left out changes V by ~1e-9
+    inset = 1e-9 * size
+    p0, p1 = c + d * (hits[i] + inset), c + d * (hits[i + 1] - inset)
     return [(float(p0[0]), float(p0[1])), (float(p1[0]), float(p1[1]))]
 
 

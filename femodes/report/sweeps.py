@@ -7,7 +7,8 @@ from __future__ import annotations
 import math
 
 from femodes.constants import __version__
-from femodes.modes.display import fixed_text, sweep_columns
+from femodes.modes.display import _param_text, _param_unit, fixed_text, sweep_columns
+from femodes.quantities import CAUTIONS, NP_TO_DB
 from femodes.report.text import _finite, _grid
 
 __all__ = ["sweep_table", "sweep_document", "seek_table", "sensitivity_table", "tolerance_table", "study_document"]
@@ -27,35 +28,101 @@ def sweep_table(result, title=None, labels=None, seconds=None) -> str:
     lines += _grid(head, rows, right)
     if notes:
         lines += ["", "invalid points (the shape refused the parameters):"] + [f"  {n}" for n in notes]
+    lines += _quantity_lines(result)
     total = result.reused + result.computed
     lines += ["", f"{total} points: {result.reused} from the store, {result.computed} computed"
               + (f" in {seconds:.1f} s" if seconds is not None else "")]
     return "\n".join(lines) + "\n"
 
 
+def _quantity_lines(result):
+    """The dominant mode's quantities at the analysis frequency, one row per point, with the
+    power-handling cautions; nothing without an analysis frequency."""
+    keys = [k for k, r in sorted(result.points.items()) if r.get("at_frequency")]
+    if not keys:
+        return []
+    head = [f"{n} [{_param_unit(n)}]" for n in result.names]
+    head += ["f [GHz]", "mode", "beta [rad/m]", "Z_w [ohm]", "Z_PV [ohm]", "alpha_c [dB/m]", "alpha_d [dB/m]",
+             "breakdown [kW]"]
+    rows = []
+    for key in keys:
+        q = result.points[key]["at_frequency"]
+        row = [_param_text(n, v) for n, v in zip(result.names, key)]
+        label = (q.get("at_label") or result.points[key]["label"])[:1] or ["-"]
+
+        def num(name, scale=1.0, digits=6):
+            v, e = q[name][0] if q[name] else math.nan, q[name + "_error"][0] if q[name] else math.nan
+            if not math.isfinite(v):
+                return "-"
+            return f"{v * scale:.{digits}g}" + (f" ± {e * scale:.1g}" if math.isfinite(e) else "")
+
+        row += [f"{q['frequency'] / 1e9:.6g}", label[0], num("beta"), num("wave_impedance"), num("z_pv"),
+                num("alpha_c", NP_TO_DB), num("alpha_d", NP_TO_DB), num("breakdown_power", 1e-3, 4)]
+        rows.append(row)
+    lines = ["", "dominant mode at the analysis frequency:"]
+    lines += _grid(head, rows, set(range(len(head))) - {len(result.names) + 1})
+    lines += ["", "power handling, cautions:"] + [f"  - {c}" for c in CAUTIONS]
+    return lines
+
+
+#: the per-mode quantities at the analysis frequency in a sweep document (each also with _error)
+SWEEP_QUANTITY_UNITS = {"beta": "rad/m", "guide_wavelength": "m", "wave_impedance": "ohm", "z_pv": "ohm",
+                        "alpha_c": "Np/m", "alpha_d": "Np/m", "breakdown_power": "W"}
+
+
 def sweep_document(result, title=None, labels=None) -> dict:
-    """A JSON-ready dict of a sweep (SI units; null where a value does not exist): the varied
-    parameters and their values, the fixed ones, and per point the cutoffs with their errors,
-    labels and families, the single-mode band and the status."""
+    """A JSON-ready dict of a sweep (SI units; null where a value does not exist).
+
+    Top level: ``shape``, ``varied`` (name, case_key, values), ``fixed``, ``modes``,
+    ``accuracy``, ``frequency`` (the analysis frequency, Hz, or null), ``reused`` / ``computed``
+    (points from the store / solved), ``units``, ``cautions`` (with power-handling numbers), and
+    ``points``: per point its ``parameters`` (name -> value), ``status`` ('ok' / 'invalid'),
+    ``message``, ``single_mode_band`` {f_low, f_high, ratio} and ``modes``: per mode (cutoff
+    order) ``mode`` (1..), ``label``, ``family``, ``fc``, ``fc_error``, ``curve`` (the followed
+    mode identity along the first varied parameter, 1..) and ``ambiguous`` (that assignment not
+    decided within the error bars); with an analysis frequency also ``at_frequency``: the
+    quantities of the mode at it (``label`` of the mode they belong to -- a loaded guide's modes at
+    a frequency are ordered by beta --, beta, guide_wavelength, wave_impedance, z_pv, alpha_c,
+    alpha_d, breakdown_power, each with ``*_error``; null where not defined)."""
     labels = labels or {}
-    points = []
+    ds = result.to_xarray()
+    curve = ds.curve.values
+    amb = ds.ambiguous.values
+    index = {name: {float(v): i for i, v in enumerate(vals)} for name, vals in zip(result.names, result.values)}
+    points, analysed = [], False
     for key, r in sorted(result.points.items()):
+        idx = tuple(index[n][k] for n, k in zip(result.names, key))
         band = r["band"]
+        q = r.get("at_frequency")
+        modes = []
+        for k in range(len(r["fc"])):
+            d = {"mode": k + 1, "label": r["label"][k], "family": r["family"][k], "fc": _finite(r["fc"][k]),
+                 "fc_error": _finite(r["fc_error"][k]), "curve": int(curve[idx][k]), "ambiguous": bool(amb[idx][k])}
+            if q is not None and k < len(q["beta"]):
+                analysed = True
+                at = {"label": (q.get("at_label") or r["label"])[k]}
+                for name in SWEEP_QUANTITY_UNITS:
+                    at[name] = _finite(q[name][k])
+                    at[name + "_error"] = _finite(q[name + "_error"][k])
+                d["at_frequency"] = at
+            modes.append(d)
         points.append({"parameters": dict(zip(result.names, key)), "status": r["status"],
                        "message": r["message"] or None,
-                       "modes": [{"mode": k + 1, "label": r["label"][k], "family": r["family"][k],
-                                  "fc": _finite(r["fc"][k]), "fc_error": _finite(r["fc_error"][k])}
-                                 for k in range(len(r["fc"]))],
+                       "frequency": _finite(q["frequency"]) if q is not None else None,
+                       "modes": modes,
                        "single_mode_band": None if band is None else {
                            "f_low": _finite(band[0]), "f_high": _finite(band[1]),
                            "ratio": _finite(band[1] / band[0]) if band[0] > 0 else None}})
-    return {"femodes_version": __version__, "title": title, "shape": result.shape,
-            "units": {"parameters": "m (rad for an angle)", "fc": "Hz", "fc_error": "Hz", "f_low": "Hz",
-                      "f_high": "Hz"},
+    units = {"parameters": "m (rad for an angle, Hz for frequency, 1 for eps_r / mu_r / tan_delta)", "fc": "Hz",
+             "fc_error": "Hz", "f_low": "Hz", "f_high": "Hz", "frequency": "Hz"}
+    units.update(SWEEP_QUANTITY_UNITS)
+    return {"femodes_version": __version__, "title": title, "shape": result.shape, "units": units,
             "varied": [{"name": n, "case_key": labels.get(n, n), "values": [float(v) for v in vals]}
                        for n, vals in zip(result.names, result.values)],
             "fixed": {k: v for k, v in result.parameters.items()}, "modes": result.modes,
-            "accuracy": result.accuracy, "reused": result.reused, "computed": result.computed, "points": points}
+            "accuracy": result.accuracy, "frequency": _finite(result.frequency) if result.frequency else None,
+            "reused": result.reused, "computed": result.computed,
+            "cautions": list(CAUTIONS) if analysed else [], "points": points}
 
 
 def _unit(name):
@@ -66,6 +133,9 @@ def _q_text(name, value, err=None):
     """A target quantity in GHz (the ratio as is), with its error where given."""
     if name == "ratio":
         return f"{value:.6g}" + (f" ± {err:.1g}" if err is not None else "")
+    if name in ("z_pv", "alpha"):
+        unit = "ohm" if name == "z_pv" else "Np/m"
+        return f"{value:.9g} {unit}" + (f" ± {err:.1g}" if err is not None else "")
     return f"{value / 1e9:.9g} GHz" + (f" ± {err / 1e9:.1g}" if err is not None else "")
 
 
@@ -79,7 +149,7 @@ def seek_table(result, labels=None, title=None) -> str:
     for name, v in result.achieved.items():
         lines.append(f"  reached {name} = {_q_text(name, v, result.achieved_error[name])}")
     lines.append(f"  ({result.solves} solves; the uncertainty of a value is the error bar of its target quantity "
-                 "divided by the quantity's slope)")
+                 "plus what it misses the target by, divided by the quantity's slope)")
     return "\n".join(lines) + "\n"
 
 
@@ -133,7 +203,8 @@ def study_document(kind, result, labels=None, title=None) -> dict:
     if kind == "seek":
         doc.update(values=result.values, errors=result.errors, achieved=result.achieved,
                    achieved_error=result.achieved_error, solves=result.solves,
-                   units={"values": "m (rad for an angle)", "achieved": "Hz (ratio: 1)"})
+                   units={"values": "m (rad for an angle)",
+                          "achieved": "Hz (ratio: 1, z_pv: ohm, alpha: Np/m)"})
     elif kind == "sensitivity":
         doc.update(labels=list(result.labels), fc=[_finite(v) for v in result.fc],
                    dfc={k: [_finite(x) for x in v] for k, v in result.dfc.items()},

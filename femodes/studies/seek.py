@@ -3,7 +3,11 @@
 ``seek(femodes.double_ridge, {...}, {"ridge_width": (4e-3, 12e-3)}, {"fc1": 2.0e9})`` finds the
 ridge width, within the bounds given, at which the dominant cutoff is 2.0 GHz.  Targets:
 ``"fcN"`` the N-th cutoff (cutoff order), ``"f_high"`` the upper edge of the single-mode band,
-``"ratio"`` the single-mode ratio f_high / f_low; values in Hz (the ratio: a number).
+``"ratio"`` the single-mode ratio f_high / f_low; values in Hz (the ratio: a number).  At an
+analysis frequency (``frequency=``, Hz): ``"z_pv"`` the power-voltage impedance of the dominant
+mode (ohm) and ``"alpha"`` its attenuation, conductor plus dielectric (Np/m; ``conductivity``,
+``roughness``, ``tan_delta`` as for :func:`femodes.sweep`), computed as a sweep point computes
+them (:mod:`femodes.studies.pointwise`, with their errors).
 
 One free parameter: bracketed root finding (scipy.optimize.brentq) of quantity - target, which
 needs the target between the values at the two bounds (else one clear message saying how close
@@ -12,9 +16,11 @@ it: iterations stop when a step moves the quantity by less than its own error ba
 parameters for two targets: a bounded least-squares solve (scipy.optimize.least_squares) of the
 two residuals scaled by their targets.
 
-The answer's uncertainty: the error of the quantity at the solution divided by its slope (from
-the last bracket: a secant), i.e. how far the parameter may be off because the quantity itself is
-only known to within its error bar; for two parameters, the same through the inverse Jacobian.
+The answer's uncertainty: (the error of the quantity at the solution + its residual |reached -
+target|) divided by its slope (from the evaluation nearest the answer: a secant), i.e. how far the
+parameter may be off because the quantity itself is only known to within its error bar and the
+iteration stopped short of the exact root; for two parameters, the same through the inverse
+Jacobian.
 """
 
 from __future__ import annotations
@@ -25,8 +31,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize
 
+from femodes import quantities as Q
 from femodes.api import solve
 from femodes.errors import FemodesError
+from femodes.studies.pointwise import homogeneous_partner, quantities_at
 from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _shape_function
 
 __all__ = ["seek", "SeekResult"]
@@ -45,16 +53,21 @@ class SeekResult:
     solves: int
 
 
+#: targets computed at an analysis frequency (need ``frequency=``)
+FREQUENCY_TARGETS = ("z_pv", "alpha")
+
+
 def _target_names(targets):
     if not isinstance(targets, dict) or not targets:
         raise FemodesError("targets must be a dict such as {'fc1': 2.0e9} (fcN the N-th cutoff in Hz, 'f_high' "
                            "the top of the single-mode band, 'ratio' the single-mode ratio)")
     out = {}
     for name, value in targets.items():
-        ok = name in ("f_high", "ratio") or (isinstance(name, str) and name.startswith("fc") and name[2:].isdigit()
+        ok = name in ("f_high", "ratio") + FREQUENCY_TARGETS or (isinstance(name, str) and name.startswith("fc") and name[2:].isdigit()
                                              and int(name[2:]) >= 1)
         if not ok:
-            raise FemodesError(f"unknown target {name!r}: use fcN (the N-th cutoff, e.g. fc1), f_high or ratio")
+            raise FemodesError(f"unknown target {name!r}: use fcN (the N-th cutoff, e.g. fc1), f_high, ratio, or at a "
+                               "frequency z_pv (ohm) or alpha (Np/m)")
         v = _number(f"target {name}", value)
         if v <= 0:
             raise FemodesError(f"target {name} must be positive, got {value!r}")
@@ -62,9 +75,24 @@ def _target_names(targets):
     return out
 
 
-def _quantities(ms, names):
-    """{target name: (value, error)} of a solved mode set."""
+def _quantities(ms, names, at=None):
+    """{target name: (value, error)} of a solved mode set (``at``: a function giving the
+    quantities of :func:`femodes.studies.pointwise.quantities_at` of its dominant mode)."""
     out = {}
+    if any(n in FREQUENCY_TARGETS for n in names):
+        q = at(ms)
+        for name in names:
+            if name == "z_pv":
+                out[name] = (q["z_pv"][0], q["z_pv_error"][0])
+            elif name == "alpha":
+                out[name] = (q["alpha_c"][0] + q["alpha_d"][0], q["alpha_c_error"][0] + q["alpha_d_error"][0])
+            else:
+                continue
+            if not math.isfinite(out[name][0]):
+                raise FemodesError(f"target {name} is not defined for the dominant mode at the analysis frequency "
+                                   "(below its cutoff there, or its voltage cancels): change the frequency or the "
+                                   "bounds")
+        names = [n for n in names if n not in FREQUENCY_TARGETS]
     fcs = [(m.fc, m.fc_error) for m in ms]
     band = None
     for name in names:
@@ -90,7 +118,8 @@ def _quantities(ms, names):
     return out
 
 
-def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, **options):
+def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, frequency=None, conductivity=5.8e7,
+         roughness=0.0, tan_delta=0.0, **options):
     """The values of the parameters in ``vary`` (name -> (low, high) bounds, SI) at which the
     ``targets`` are met (see the module docstring); the other parameters fixed at
     ``parameters``.  As many free parameters as targets (one or two).  ``modes`` defaults to
@@ -119,6 +148,16 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, **optio
         if not lo < hi:
             raise FemodesError(f"the bounds of {name!r} must be (low, high) with low < high, got {b!r}")
         bounds[name] = (lo, hi)
+    at = None
+    if any(k in FREQUENCY_TARGETS for k in goals):
+        if frequency is None:
+            raise FemodesError("targets z_pv and alpha are values at a frequency: give frequency= (Hz)")
+        f = _number("frequency", frequency)
+        kw = dict(conductivity=Q.conductivity_of(conductivity), roughness=_number("roughness", roughness),
+                  tan_delta=_number("tan_delta", tan_delta))
+
+        def at(ms):
+            return quantities_at(ms[:1], f, partner=homogeneous_partner(ms, solve), **kw)
     need = max([int(k[2:]) for k in goals if k.startswith("fc")] + [2])
     n_modes = need + 2 if modes is None else modes
     count = [0]
@@ -135,7 +174,7 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, **optio
         ms = solve(section, modes=n_modes, accuracy=accuracy, start_size=last.get("h"), **options)
         if getattr(ms, "mesh_size", None):
             last["h"] = ms.mesh_size
-        return _quantities(ms, goals)
+        return _quantities(ms, goals, at)
 
     names = list(bounds)
     if len(names) == 1:
@@ -148,8 +187,7 @@ def _seek_one(name, bound, goals, evaluate, count):
     lo, hi = bound
     q_lo, q_hi = evaluate({name: lo})[goal][0], evaluate({name: hi})[goal][0]
     if not min(q_lo, q_hi) <= want <= max(q_lo, q_hi):
-        unit = "" if goal == "ratio" else " GHz"
-        scale = 1.0 if goal == "ratio" else 1e-9
+        unit, scale = {"ratio": ("", 1.0), "z_pv": (" ohm", 1.0), "alpha": (" Np/m", 1.0)}.get(goal, (" GHz", 1e-9))
         raise FemodesError(f"target {goal} = {want * scale:.6g}{unit} cannot be met for {name} in [{lo:.6g}, {hi:.6g}]: "
                            f"{goal} runs from {q_lo * scale:.6g} to {q_hi * scale:.6g}{unit} there; widen the bounds")
     cache = {}
@@ -170,7 +208,8 @@ def _seek_one(name, bound, goals, evaluate, count):
     if near:
         x2 = near[0][1]
         slope = abs(cache[x2][0] - value) / abs(x2 - x) if x2 != x else slope
-    return SeekResult({name: float(x)}, {name: float(error / slope) if slope > 0 else math.inf},
+    spread = error + abs(value - want)
+    return SeekResult({name: float(x)}, {name: float(spread / slope) if slope > 0 else math.inf},
                       {goal: float(value)}, {goal: float(error)}, count[0])
 
 
@@ -200,7 +239,7 @@ def _seek_two(names, bounds, goals, evaluate, count):
                            + ", ".join(f"{k} = {v:.6g}" for k, v in zip(keys, values)))
     J = sol.jac * want[:, None] / span[None, :]   # d quantity / d parameter
     try:
-        dx = np.abs(np.linalg.solve(J, np.diag(errors)))
+        dx = np.abs(np.linalg.solve(J, np.diag(errors + np.abs(values - want))))
         perr = np.sqrt(np.sum(dx ** 2, axis=1))
     except np.linalg.LinAlgError:
         perr = np.full(2, np.inf)

@@ -37,11 +37,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from femodes.api import _check_count, solve
+from femodes import quantities as Q
+from femodes.api import _check_count, solve, study
 from femodes.atomic import replacing
 from femodes.errors import FemodesError
-from femodes.modes.display import _param_text, fixed_text, html_block, html_table, sweep_columns
+from femodes.modes.display import _param_text, _param_unit, fixed_text, html_block, html_table, sweep_columns
+from femodes.quantities import DRY_AIR_BREAKDOWN
+from femodes.studies.pointwise import POINT_QUANTITIES, UNITS, homogeneous_partner, quantities_at
 from femodes.studies.store import SweepStore
+from femodes.studies.tracking import class_signature, follow
 
 __all__ = ["sweep", "SweepResult", "SWEEP_OPTIONS"]
 
@@ -61,6 +65,9 @@ class SweepResult:
                  ``family``, ``band`` ([f_low, f_high] of the single-mode band, or None),
                  ``n_dofs``, ``seconds``
     reused     : points taken from the store;  computed : points solved in this run
+    frequency  : the analysis frequency (Hz) when one was given (a varied frequency is a name);
+                 with either, every point's dict has ``at_frequency``: the quantities of
+                 :mod:`femodes.studies.pointwise` per mode (cutoff order), with ``frequency``
     """
 
     shape: str
@@ -72,12 +79,14 @@ class SweepResult:
     points: dict
     reused: int
     computed: int
+    frequency: float | None = None
 
     # -- display -----------------------------------------------------------------------------------
     def __repr__(self):
         bad = sum(1 for r in self.points.values() if r["status"] != "ok")
         over = ", ".join(f"{name} {_param_text(name, float(min(v)))} .. {_param_text(name, float(max(v)))}"
-                         + (" deg" if name == "angle" else " mm") for name, v in zip(self.names, self.values))
+                         + ("" if _param_unit(name) == "1" else f" {_param_unit(name)}")
+                         for name, v in zip(self.names, self.values))
         return (f"<SweepResult of {self.shape}: {len(self.points)} points over {over}, {self.modes} modes each"
                 + (f", {bad} invalid" if bad else "") + ">")
 
@@ -97,7 +106,11 @@ class SweepResult:
     def to_xarray(self):
         """An xarray Dataset on the dimensions (the varied names in the order given, then
         ``mode``, numbered 1.. in cutoff order at each point): ``fc`` and ``fc_error`` (Hz),
-        ``label`` and ``family`` of each mode; per point ``f_low``, ``f_high`` (the single-mode
+        ``label`` and ``family`` of each mode, ``curve`` (the followed mode identity, 1..; 0 where
+        a point has no such mode; followed along the first varied parameter, see
+        :mod:`femodes.studies.tracking`) and ``ambiguous`` (the assignment not decided within the
+        error bars); ``fc_followed`` (Hz) on (the varied names, ``followed``): the cutoff of each
+        followed curve at each point, NaN where absent; per point ``f_low``, ``f_high`` (the single-mode
         band, Hz), ``single_mode_ratio``, ``status`` ('ok' or 'invalid') and ``message``.
         Attributes: shape, parameters (JSON), accuracy, reused, computed."""
         import xarray as xr
@@ -120,11 +133,13 @@ class SweepResult:
             label[idx][:k], family[idx][:k] = r["label"], r["family"]
             if r["band"] is not None:
                 lo[idx], hi[idx] = r["band"]
+        curve, amb, fc_curve = self._follow(fc)
         dims = self.names + ("mode",)
         with np.errstate(divide="ignore", invalid="ignore"):
             ratio = np.where(lo > 0, hi / np.where(lo > 0, lo, 1.0), np.nan)
         coords = {name: np.asarray(v, dtype=float) for name, v in zip(self.names, self.values)}
         coords["mode"] = np.arange(1, n + 1)
+        coords["followed"] = np.arange(1, fc_curve.shape[-1] + 1)
         ds = xr.Dataset(
             {"fc": (dims, fc, {"units": "Hz", "long_name": "cutoff frequency"}),
              "fc_error": (dims, err, {"units": "Hz", "long_name": "estimated error of the cutoff frequency"}),
@@ -132,18 +147,89 @@ class SweepResult:
              "f_low": (self.names, lo, {"units": "Hz", "long_name": "single-mode band, lower edge"}),
              "f_high": (self.names, hi, {"units": "Hz", "long_name": "single-mode band, upper edge"}),
              "single_mode_ratio": (self.names, ratio),
-             "status": (self.names, status), "message": (self.names, message)},
+             "status": (self.names, status), "message": (self.names, message),
+             "curve": (dims, curve, {"long_name": "followed mode identity (curve number, 0: no mode)"}),
+             "ambiguous": (dims, amb, {"long_name": "curve assignment not decided within the error bars"}),
+             "fc_followed": (self.names + ("followed",), fc_curve,
+                             {"units": "Hz", "long_name": "cutoff frequency of each followed curve (NaN: absent)"})},
             coords=coords,
             attrs={"shape": self.shape, "parameters": json.dumps(self.parameters), "accuracy": self.accuracy,
                    "reused": self.reused, "computed": self.computed})
         for name in self.names:
-            ds[name].attrs["units"] = "rad" if name == "angle" else "m"
+            ds[name].attrs["units"] = ("rad" if name == "angle" else "Hz" if name == "frequency" else
+                                       "1" if name.split(".")[-1] in MATERIAL_KEYS else "m")
+        self._add_quantities(ds, shape)
         return ds
 
+    def _add_quantities(self, ds, shape):
+        """The quantities at the analysis frequency (see :class:`SweepResult`), where computed."""
+        if not any("at_frequency" in r for r in self.points.values()):
+            return
+        n = self.modes
+        dims = self.names + ("mode",)
+        arrays = {q: np.full(shape + (n,), np.nan) for q in POINT_QUANTITIES + tuple(q + "_error" for q in POINT_QUANTITIES)}
+        at_label = np.full(shape + (n,), "", dtype=object)
+        for idx in itertools.product(*(range(s) for s in shape)):
+            key = tuple(float(self.values[d][i]) for d, i in enumerate(idx))
+            q = self.points[key].get("at_frequency")
+            if q is None:
+                continue
+            for name, arr in arrays.items():
+                vals = q[name][:n]
+                arr[idx][:len(vals)] = vals
+            labs = q.get("at_label") or self.points[key]["label"]
+            at_label[idx][:len(labs[:n])] = labs[:n]
+        for name, arr in arrays.items():
+            base = name[:-6] if name.endswith("_error") else name
+            attrs = {"units": UNITS[base]}
+            if name.endswith("_error"):
+                attrs["long_name"] = f"estimated error of {base}"
+            ds[name] = (dims, arr, attrs)
+        ds["at_label"] = (dims, at_label, {"long_name": "label of the mode the quantities belong to (loaded guides: "
+                                                         "the modes at the frequency, largest beta first)"})
+        if self.frequency is not None:
+            ds.attrs["frequency"] = self.frequency
+        ds.attrs["cautions"] = " ".join(Q.CAUTIONS)
+
+    def tracks(self, index=()):
+        """The followed curves (:func:`femodes.studies.tracking.follow`) along the first varied
+        parameter, the others held at ``index`` (their positions in the grid)."""
+        x = self.values[0]
+        pts = []
+        for v in x:
+            key = (float(v),) + tuple(float(self.values[d + 1][i]) for d, i in enumerate(index))
+            pts.append(self.points[key])
+        return follow(pts, x)
+
+    def _follow(self, fc):
+        """(curve, ambiguous, fc per curve) arrays: modes followed along the first varied
+        parameter, separately on every line of the grid's other parameters."""
+        shape = fc.shape
+        curve = np.zeros(shape, dtype=int)
+        amb = np.zeros(shape, dtype=bool)
+        per_line = {}
+        for rest in itertools.product(*(range(s) for s in shape[1:-1])):
+            t = self.tracks(rest)
+            per_line[rest] = t
+            for i in range(shape[0]):
+                k = len(t.curve[i])
+                curve[(i,) + rest][:k] = t.curve[i]
+                amb[(i,) + rest][:k] = t.ambiguous[i]
+        n_curves = max([t.n_curves for t in per_line.values()] + [1])
+        fc_curve = np.full(shape[:-1] + (n_curves,), np.nan)
+        for rest, t in per_line.items():
+            by = t.fc_by_curve(fc[(slice(None),) + rest])
+            fc_curve[(slice(None),) + rest][:, :by.shape[1]] = by
+        return curve, amb, fc_curve
+
     def rows(self):
-        """One dict per point and mode, in grid order (SI units; the columns of :meth:`to_csv`)."""
+        """One dict per point and mode, in grid order (SI units; the columns of :meth:`to_csv`),
+        with the followed ``curve`` of each mode and whether its assignment is ``ambiguous``."""
         out = []
-        for p in itertools.product(*self.values):
+        ds = self.to_xarray()
+        curve = ds.curve.values.reshape(-1, self.modes)
+        amb = ds.ambiguous.values.reshape(-1, self.modes)
+        for j, p in enumerate(itertools.product(*self.values)):
             r = self.points[tuple(float(v) for v in p)]
             band = r["band"] or [math.nan, math.nan]
             base = dict(zip(self.names, (float(v) for v in p)))
@@ -152,15 +238,15 @@ class SweepResult:
                 row = dict(base, mode=k + 1)
                 if k < len(r["fc"]):
                     row.update(label=r["label"][k], family=r["family"][k], fc_Hz=r["fc"][k],
-                               fc_error_Hz=r["fc_error"][k])
+                               fc_error_Hz=r["fc_error"][k], curve=int(curve[j, k]), ambiguous=bool(amb[j, k]))
                 out.append(row)
         return out
 
     def to_csv(self, path):
         """The points as CSV, one row per point and mode (SI units named in the header; empty where
         a point is invalid).  Written to a temporary name and moved into place.  Returns the path."""
-        cols = list(self.names) + ["mode", "label", "family", "fc_Hz", "fc_error_Hz", "f_low_Hz", "f_high_Hz",
-                                   "status", "message"]
+        cols = list(self.names) + ["mode", "label", "family", "fc_Hz", "fc_error_Hz", "curve", "ambiguous",
+                                   "f_low_Hz", "f_high_Hz", "status", "message"]
         buf = io.StringIO()
         w = csv.DictWriter(buf, cols, lineterminator="\n")
         w.writeheader()
@@ -208,8 +294,21 @@ def _number(name, value):
     return x
 
 
-def _plan(shape, parameters, vary):
-    """(names, values, fixed parameters) checked against the shape's parameters."""
+#: the names a sweep may vary besides the shape's parameters: the analysis frequency and the fill's
+#: material (``region.NAME.eps_r`` and the like for a region given in ``regions``)
+MATERIAL_KEYS = ("eps_r", "mu_r", "tan_delta")
+
+
+def _extra_names(regions):
+    out = ["frequency"] + list(MATERIAL_KEYS)
+    for r in regions or ():
+        out += [f"region.{r['name']}.{k}" for k in MATERIAL_KEYS]
+    return out
+
+
+def _plan(shape, parameters, vary, extra=()):
+    """(names, values, fixed parameters) checked against the shape's parameters (and ``extra``,
+    names that are not the shape's: frequency, materials; they may be varied, not fixed)."""
     allowed = _shape_function(shape)
     if not isinstance(parameters, dict):
         raise FemodesError(f"parameters must be a dict of the shape's keyword arguments, got {type(parameters).__name__}")
@@ -217,8 +316,10 @@ def _plan(shape, parameters, vary):
         raise FemodesError("vary must be a dict from a parameter name to a sequence of its values, with at least one "
                            "parameter")
     for name in list(parameters) + list(vary):
-        if name not in allowed:
-            raise FemodesError(f"{shape.__name__} has no parameter {name!r}; its parameters: {', '.join(allowed)}")
+        if name not in allowed and not (name in extra and name in vary):
+            more = f"; a sweep may also vary {', '.join(extra)}" if extra else ""
+            raise FemodesError(f"{shape.__name__} has no parameter {name!r}; its parameters: {', '.join(allowed)}"
+                               + more)
     both = sorted(set(parameters) & set(vary))
     if both:
         raise FemodesError(f"{', '.join(both)} is both fixed (parameters) and varied (vary): give it in one only")
@@ -244,28 +345,119 @@ def _key(point):
     return json.dumps([float(v) for v in point])
 
 
+def _regions(regions):
+    """The ``regions`` option checked: a list of dicts {name, shape (a Section placed in the
+    guide), eps_r, mu_r, tan_delta} (JSON-ready copies for the store's settings beside)."""
+    if regions is None:
+        return None
+    if isinstance(regions, dict) or not hasattr(regions, "__iter__"):
+        raise FemodesError("regions must be a list of dicts such as {'name': 'slab', 'shape': "
+                           "femodes.rectangle(a, d).translated(0, y), 'eps_r': 2.25}")
+    out = []
+    for r in regions:
+        if not isinstance(r, dict) or "shape" not in r or not str(r.get("name", "")).strip():
+            raise FemodesError(f"each region must be a dict with a 'name' and a 'shape' (and eps_r, mu_r, tan_delta), "
+                               f"got {r!r}")
+        extra = sorted(set(r) - {"name", "shape", "eps_r", "mu_r", "tan_delta"})
+        if extra:
+            raise FemodesError(f"region {r['name']!r} has unknown key(s) {', '.join(extra)}: give name, shape, eps_r, "
+                               "mu_r, tan_delta")
+        out.append({"name": str(r["name"]), "shape": r["shape"], "eps_r": _number("eps_r", r.get("eps_r", 1.0)),
+                    "mu_r": _number("mu_r", r.get("mu_r", 1.0)), "tan_delta": _number("tan_delta", r.get("tan_delta", 0.0))})
+    names = [r["name"] for r in out]
+    if len(set(names)) != len(names):
+        raise FemodesError(f"region names repeat ({', '.join(names)}): give each region its own name")
+    return out
+
+
+#: the last solve of this process (sections differing in frequency only share it)
+_LAST = {}
+
+
+def _split(point, options):
+    """(shape keyword arguments, solve options, regions, frequency, analysis settings) of one
+    point: the varied frequency and material values taken out of ``point`` and put in place."""
+    shape_kw, opts = {}, dict(options)
+    regions = [dict(r) for r in (opts.pop("regions", None) or ())]
+    analysis = dict(opts.pop("analysis", None) or {})
+    frequency = analysis.pop("frequency", None)
+    for k, v in point.items():
+        if k == "frequency":
+            frequency = v
+        elif k in MATERIAL_KEYS:
+            if k == "tan_delta":
+                analysis["tan_delta"] = v
+            else:
+                opts[k] = v
+        elif k.startswith("region."):
+            _, name, prop = k.split(".", 2)
+            for r in regions:
+                if r["name"] == name:
+                    r[prop] = v
+        else:
+            shape_kw[k] = v
+    return shape_kw, opts, regions, frequency, analysis
+
+
 def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
-    """Solve one point (in a worker): the section ``shape(**fixed, **point)`` and its cutoffs.
-    Returns the result dict of :class:`SweepResult` (status 'invalid' with the shape's message
-    when the parameters make the geometry invalid); ``mesh_size`` is the final element size, which
-    the next point may start from (``start_size``)."""
+    """Solve one point (in a worker): the section ``shape(**fixed, **point)`` (with the
+    ``regions`` of ``options`` filled in) and its cutoffs, and with an analysis frequency the
+    quantities of :mod:`femodes.studies.pointwise`.  Returns the result dict of
+    :class:`SweepResult` (status 'invalid' with the shape's message when the parameters make the
+    geometry invalid); ``mesh_size`` is the final element size, which the next point may start
+    from (``start_size``)."""
     t0 = time.perf_counter()
     out = {"status": "ok", "message": "", "fc": [], "fc_error": [], "label": [], "family": [], "band": None,
            "n_dofs": 0, "mesh_size": None, "seconds": 0.0}
+    shape_kw, opts, regions, frequency, analysis = _split(point, options)
     try:
-        section = shape(**fixed, **point)
+        section = shape(**fixed, **shape_kw)
+        for r in regions:
+            section = section.with_material(r["shape"], eps_r=r["eps_r"], mu_r=r["mu_r"], tan_delta=r["tan_delta"],
+                                            name=r["name"])
     except FemodesError as exc:
         out.update(status="invalid", message=str(exc))
         return out
-    if start_size is not None and not getattr(section, "materials", ()):
-        options = dict(options, start_size=start_size)
-    ms = solve(section, modes=modes, accuracy=accuracy, **options)
+    at_f = None
+    if section.materials:
+        if frequency is None:
+            ms = solve(section, modes=modes, accuracy=accuracy, **opts)
+        else:
+            st = study(section, modes=modes, accuracy=accuracy, frequency=frequency,
+                       tan_delta=analysis.get("tan_delta", 0.0), **opts)
+            ms = st.modes
+            at_f = quantities_at(st.at_frequency, frequency, section=section, **analysis)
+            at_f["at_label"] = [str(m.label) for m in st.at_frequency]
+    else:
+        key = json.dumps([shape.__module__, shape.__qualname__, fixed, shape_kw, opts, modes, accuracy],
+                         sort_keys=True, default=str)
+        if _LAST.get("key") == key:
+            ms, partner = _LAST["ms"], _LAST["partner"]
+        else:
+            if start_size is not None:
+                opts = dict(opts, start_size=start_size)
+            ms = solve(section, modes=modes, accuracy=accuracy, **opts)
+            partner = None
+            _LAST.clear()
+            _LAST.update(key=key, ms=ms, partner=None)
+        if frequency is not None:
+            if partner is None:
+                partner = homogeneous_partner(ms, solve)
+                _LAST["partner"] = partner
+            at_f = quantities_at(ms, frequency, partner=partner, **analysis)
     out["fc"] = [float(m.fc) for m in ms]
     out["fc_error"] = [float(m.fc_error) for m in ms]
     out["label"] = [str(m.label) for m in ms]
     out["family"] = [str(m.family) for m in ms]
+    out["degenerate"] = [bool(getattr(m, "degenerate_with", ())) for m in ms]
+    out["symmetry"] = [class_signature("", getattr(m, "symmetry", None) or {}).split("|", 1)[1] for m in ms]
+    if at_f is not None:
+        out["at_frequency"] = dict(at_f, frequency=float(frequency))
     try:
-        band = ms.single_mode_band() if hasattr(ms, "single_mode_band") else (ms[0].fc, ms[1].fc)
+        if hasattr(ms, "single_mode_band"):
+            band = ms.single_mode_band()
+        else:
+            band = (ms[0].fc, ms[1].fc)
         out["band"] = [float(band[0]), float(band[1])]
     except (FemodesError, IndexError):
         out["band"] = None
@@ -298,14 +490,17 @@ def _progress(total, enabled):
 
 
 def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, scheduler=None, workers=None,
-          progress=None, **options):
+          progress=None, frequency=None, conductivity=5.8e7, roughness=0.0, tan_delta=0.0,
+          breakdown_field=DRY_AIR_BREAKDOWN, safety_factor=2.0, regions=None, **options):
     """The cutoffs of ``shape`` over a grid of parameter values (see the module docstring).
 
     shape      : a shape function, e.g. ``femodes.double_ridge`` (module-level, found by name in
                  the worker processes)
     parameters : its fixed keyword arguments (SI), e.g. {"width": 34e-3, "height": 16e-3}
     vary       : parameter name -> sequence of values (SI); several names make a grid, in the
-                 order given
+                 order given.  Besides the shape's parameters: ``frequency`` (Hz, the analysis
+                 frequency), ``eps_r``, ``mu_r``, ``tan_delta`` of the fill, and
+                 ``region.NAME.eps_r`` (``.mu_r``, ``.tan_delta``) of a region of ``regions``
     modes, accuracy : as for :func:`femodes.solve`, at every point; ``options`` too (eps_r,
                  mu_r, family, order)
     store      : a file (SQLite) to keep every finished point in and to resume from
@@ -313,18 +508,53 @@ def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, schedu
     workers    : local processes (default: the cores, at most the points to compute; 1 runs in
                  this process)
     progress   : a progress bar (default: on a terminal only)
+    frequency  : an analysis frequency (Hz): per point and mode also the quantities of
+                 :mod:`femodes.studies.pointwise` (beta, guide wavelength, wave impedance, Z_PV,
+                 conductor and dielectric attenuation, breakdown power, each with its error),
+                 using ``conductivity`` (S/m or a metal name), ``roughness`` (m rms),
+                 ``tan_delta`` (the fill's), ``breakdown_field`` (V/m) and ``safety_factor``
+    regions    : dielectric regions put into the guide at every point: a list of dicts
+                 {"name", "shape" (a Section, placed), "eps_r", "mu_r", "tan_delta"}; the
+                 points are then solved full-vector (loaded guides)
 
     Returns a :class:`SweepResult` (``.to_xarray()`` for a Dataset).
     """
-    names, values, fixed = _plan(shape, parameters, vary)
+    regions = _regions(regions)
+    names, values, fixed = _plan(shape, parameters, vary, _extra_names(regions))
     unknown = sorted(set(options) - set(SWEEP_OPTIONS))
     if unknown:
         raise FemodesError(f"unknown option(s) {', '.join(unknown)}; a sweep passes on {', '.join(SWEEP_OPTIONS)}")
+    both = sorted(set(options) & set(names))
+    if both:
+        raise FemodesError(f"{', '.join(both)} is both an option and varied: give it in one only")
+    if frequency is not None and "frequency" in names:
+        raise FemodesError("frequency is both given and varied: give it in one only")
+    analysed = frequency is not None or "frequency" in names
+    if frequency is not None:
+        frequency = _number("frequency", frequency)
+    for name, vals in zip(names, values):
+        if (name == "frequency" or name.endswith("eps_r") or name.endswith("mu_r")) and np.any(vals <= 0):
+            raise FemodesError(f"the values of {name} must be positive")
+        if name.endswith("tan_delta") and np.any(vals < 0):
+            raise FemodesError(f"the values of {name} must be >= 0")
+    if analysed or "tan_delta" in names:
+        options = dict(options, analysis={
+            "frequency": frequency, "conductivity": Q.conductivity_of(conductivity),
+            "roughness": _number("roughness", roughness), "tan_delta": _number("tan_delta", tan_delta),
+            "breakdown_field": _number("breakdown_field", breakdown_field),
+            "safety_factor": _number("safety_factor", safety_factor)})
+    elif tan_delta:
+        raise FemodesError("tan_delta is used for the dielectric attenuation at an analysis frequency: give "
+                           "frequency= as well")
+    if regions is not None:
+        options = dict(options, regions=regions)
     modes = _check_count(modes)  # the solver's own message, once, before any point
     accuracy = _number("accuracy", accuracy)
     grid = list(itertools.product(*values))
     settings = {"shape": f"{shape.__module__}.{shape.__qualname__}", "parameters": fixed, "modes": modes,
                 "accuracy": accuracy, "options": {k: options[k] for k in sorted(options)}}
+    if regions is not None:  # a region's shape by its outline, not by the object's address
+        settings["options"]["regions"] = [dict(r, shape=repr(r["shape"].outer)) for r in regions]
     points, reused = {}, 0
     st = SweepStore(store, json.loads(json.dumps(settings, default=str))) if store is not None else None
     try:
@@ -350,7 +580,7 @@ def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, schedu
     finally:
         if st is not None:
             st.close()
-    return SweepResult(shape.__name__, fixed, names, values, modes, accuracy, points, reused, len(todo))
+    return SweepResult(shape.__name__, fixed, names, values, modes, accuracy, points, reused, len(todo), frequency)
 
 
 def _blocks(todo, n):

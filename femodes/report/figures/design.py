@@ -4,9 +4,10 @@ contour maps of the dominant cutoff and of the single-mode ratio.
 
 They take the Dataset of ``SweepResult.to_xarray()`` (or the result itself): dimensions (the
 varied names, ``mode``), ``fc`` and ``fc_error`` (Hz), ``f_low`` / ``f_high`` (the single-mode
-band) and ``single_mode_ratio``.  The modes are numbered in cutoff order at each point (curve k
-is the k-th cutoff, whichever mode that is): where two modes cross, curves k and k + 1 touch
-rather than cross.
+band) and ``single_mode_ratio``.  The curves drawn are the followed mode identities
+(``curve`` / ``ambiguous``, :mod:`femodes.studies.tracking`): where two modes cross, each curve
+stays on its own mode, and a point whose assignment could not be decided is ringed.  A Dataset
+without them (an older file) is drawn in cutoff order (curve k the k-th cutoff, whichever mode).
 """
 
 from __future__ import annotations
@@ -30,6 +31,12 @@ def _dataset(result):
 
 
 def _axis(name):
+    """(scale from SI, axis label) of a swept parameter: mm for a length, degrees for an angle,
+    GHz for the frequency, no unit for a material property (eps_r, mu_r, tan_delta)."""
+    if name == "frequency":
+        return 1e-9, "frequency (GHz)"
+    if name.split(".")[-1] in ("eps_r", "mu_r", "tan_delta"):
+        return 1.0, name.replace("_", " ")
     scale, unit = _PARAM_SCALE.get(name, (1e3, "mm"))
     return scale, f"{name.replace('_', ' ')} ({unit})"
 
@@ -52,6 +59,10 @@ def design_curves(result, path=None, *, spec_band=None, target=None, dpi=200):
     x = np.asarray(ds[name].values, dtype=float) * scale
     fc = np.asarray(ds.fc.values, dtype=float) / 1e9
     err = np.asarray(ds.fc_error.values, dtype=float) / 1e9
+    names_k = [f"mode {k + 1}" for k in range(fc.shape[1])]
+    amb = np.zeros(fc.shape, dtype=bool)
+    if "curve" in ds and "ambiguous" in ds:
+        fc, err, amb, names_k = _followed(ds, fc, err)
     st = _style()
     fig = _new_figure(7.5, 6.0)
     top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
@@ -60,7 +71,10 @@ def design_curves(result, path=None, *, spec_band=None, target=None, dpi=200):
     span = np.nanmax(fc) - np.nanmin(fc) if np.any(np.isfinite(fc)) else 1.0
     for k in range(fc.shape[1]):
         y, e = fc[:, k], err[:, k]
-        line, = top.plot(x, y, lw=1.6, marker="o", ms=3, zorder=3, label=f"mode {k + 1}")
+        line, = top.plot(x, y, lw=1.6, marker="o", ms=3, zorder=3, label=names_k[k])
+        if np.any(amb[:, k]):
+            top.plot(x[amb[:, k]], y[amb[:, k]], ls="none", marker="o", ms=9, mfc="none", mec=st["text"], zorder=4,
+                     label="not decided" if not any(amb[:, :k].ravel()) else None)
         show = np.isfinite(e) & (e > 1e-3 * span)
         if np.any(show):
             top.errorbar(x[show], y[show], yerr=e[show], fmt="none", ecolor=line.get_color(), capsize=2, zorder=3)
@@ -83,6 +97,26 @@ def design_curves(result, path=None, *, spec_band=None, target=None, dpi=200):
     if path is not None:
         _save(fig, path, dpi)
     return fig
+
+
+def _followed(ds, fc, err):
+    """(fc, fc_error, ambiguous, names) rearranged from cutoff order to the followed curves
+    (points x curves); a curve is named by the label its mode carries at most points."""
+    curve = np.asarray(ds.curve.values, dtype=int)
+    amb0 = np.asarray(ds.ambiguous.values, dtype=bool)
+    labels = np.asarray(ds.label.values, dtype=object)
+    n = max(int(curve.max(initial=0)), 1)
+    out = [np.full((fc.shape[0], n), np.nan), np.full((fc.shape[0], n), np.nan), np.zeros((fc.shape[0], n), bool)]
+    seen = [dict() for _ in range(n)]
+    for i in range(fc.shape[0]):
+        for k in range(fc.shape[1]):
+            c = curve[i, k]
+            if c > 0:
+                out[0][i, c - 1], out[1][i, c - 1], out[2][i, c - 1] = fc[i, k], err[i, k], amb0[i, k]
+                lab = str(labels[i, k])
+                seen[c - 1][lab] = seen[c - 1].get(lab, 0) + 1
+    names = [max(s, key=s.get) if s else f"curve {c + 1}" for c, s in enumerate(seen)]
+    return out[0], out[1], out[2], names
 
 
 def design_map(result, path=None, *, quantity="fc1", target=None, dpi=200):
