@@ -18,6 +18,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from femodes.errors import FemodesError, check_positive, nonnegative_number, positive_number
+from femodes.geometry.checks import check_scale, check_section
 from femodes.geometry.loops import Line, Loop, _max_distance, _min_distance, _point_in_polygon, _point_map, _polyline_self_intersects, _polylines_cross
 
 __all__ = ["Section", "Material", "material_values"]
@@ -121,6 +122,7 @@ class Section:
         scale = float(np.max(np.ptp(po, axis=1)))
         if not np.all(np.isfinite(po)) or scale <= 0:
             raise FemodesError("the outline has no extent: give at least three distinct vertices")
+        check_scale(po)
         if _polyline_self_intersects(self.outer.polyline(8), scale):
             raise FemodesError("the outline crosses itself: list the vertices in order around the boundary")
         area = abs(self.outer.signed_area())
@@ -147,6 +149,7 @@ class Section:
                 if _point_in_polygon(ph[:, 0], pj) or _point_in_polygon(pj[:, 0], ph) or _polylines_cross(ph, pj) or \
                         min(_min_distance(ph, pj), _min_distance(pj, ph)) < 1e-6 * scale:
                     raise FemodesError(f"holes {j + 1} and {k + 1} touch or overlap: keep inner conductors apart")
+        check_section(self)  # touching, slivers, scale (femodes.geometry.checks)
 
     # -- derived -------------------------------------------------------------
     @property
