@@ -20,7 +20,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from femodes.constants import C0
-from femodes.errors import FemodesError, positive_number
+from femodes.errors import FemodesError, material_number, positive_number
 from femodes.geometry.mesh import Mesh
 from femodes.geometry.section import Section
 from femodes.modes.labels import build_modes
@@ -65,8 +65,8 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     :class:`LoadedCutoff`.
     """
     n_modes = _check_count(modes)
-    eps_r = positive_number("eps_r", eps_r)
-    mu_r = positive_number("mu_r", mu_r)
+    eps_r = material_number("eps_r", eps_r)
+    mu_r = material_number("mu_r", mu_r)
     try:
         accuracy = float(accuracy)
     except (TypeError, ValueError):

@@ -50,7 +50,8 @@ def check_scale(points, what="the section"):
     pts = np.asarray(points, dtype=float)
     if not np.all(np.isfinite(pts)):
         raise FemodesError(f"{what} has coordinates that are not finite numbers: give finite lengths")
-    size = float(np.max(np.ptp(pts, axis=1)))
+    with np.errstate(over="ignore", invalid="ignore"):
+        size = float(np.max(np.ptp(pts, axis=1)))
     lo, hi = SIZE_LIMITS
     if not (lo <= size <= hi):
         raise FemodesError(f"{what} is {size:.3g} m across: give a size between {lo:g} m and {hi:g} m "
@@ -127,17 +128,6 @@ def check_mesh(points, triangles, what="the mesh"):
         e = edges[:, np.flatnonzero(count[inverse] > 2)[0]]
         raise FemodesError(f"{what} is not conforming: the edge from {_mm(pts[:, e[0]])} to {_mm(pts[:, e[1]])} "
                            "belongs to more than two triangles (overlapping triangles); fix the mesh in its mesher")
-    # connectivity through shared edges
-    owner = np.tile(np.arange(m), 3)
-    order = np.argsort(inverse, kind="stable")
-    inv_s, own_s = inverse[order], owner[order]
-    pair = np.flatnonzero(inv_s[1:] == inv_s[:-1])
-    g = coo_matrix((np.ones(len(pair)), (own_s[pair], own_s[pair + 1])), shape=(m, m))
-    n_parts, _ = connected_components(g, directed=False)
-    if n_parts > 1:
-        raise FemodesError(f"{what} falls into {n_parts} pieces that share no edge (joined at single points, or "
-                           "not at all): a guide must be one connected cross-section; mesh each guide on its own "
-                           "or join the pieces along an edge")
     # conformity: no vertex on the inside of a boundary edge (a hanging node)
     bnd = edges[:, np.flatnonzero(count[inverse] == 1)]
     bnd = np.unique(bnd, axis=1)
@@ -159,6 +149,17 @@ def check_mesh(points, triangles, what="the mesh"):
             raise FemodesError(f"{what} is not conforming: the vertex at {_mm(v[i])} lies inside the edge from "
                                f"{_mm(p0[j])} to {_mm(p1[j])} of another triangle (a hanging node); split that "
                                "triangle or remesh so that neighbouring triangles share whole edges")
+    # connectivity through shared edges
+    owner = np.tile(np.arange(m), 3)
+    order = np.argsort(inverse, kind="stable")
+    inv_s, own_s = inverse[order], owner[order]
+    pair = np.flatnonzero(inv_s[1:] == inv_s[:-1])
+    g = coo_matrix((np.ones(len(pair)), (own_s[pair], own_s[pair + 1])), shape=(m, m))
+    n_parts, _ = connected_components(g, directed=False)
+    if n_parts > 1:
+        raise FemodesError(f"{what} falls into {n_parts} pieces that share no edge (joined at single points, or "
+                           "not at all): a guide must be one connected cross-section; mesh each guide on its own "
+                           "or join the pieces along an edge")
 
 
 def lagrange_unknowns(n_vertices, n_edges, n_triangles, order):

@@ -36,6 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes.errors import FemodesError
+from femodes.geometry.checks import check_unknowns, lagrange_unknowns, predicted_unknowns
 from femodes.geometry.mesh import mesh_section
 from femodes.geometry.section import Section
 from femodes.solvers.discretise import discretise
@@ -255,10 +256,16 @@ def _update_shift(shifts, family, lam):
 def _discrete_solve(geometry, h, p, fams, counts, shifts, radius=None):
     """Mesh (or reuse a fixed mesh), assemble, and solve each family for ``counts[f]`` pairs."""
     if isinstance(geometry, Section):
+        # a uniform mesh of size h is a lower bound of the graded one: refuse before meshing
+        check_unknowns(predicted_unknowns(geometry.area, h, p), MAX_DOFS, "the mesh this accuracy asks for")
         r, g = radius if isinstance(radius, tuple) else (radius, 1.0)
         mesh = mesh_section(geometry, h, order=p, grading_radius=r, grading=g, all_corners=True)
     else:
         mesh = geometry
+        t = mesh.triangles
+        n_edges = len(np.unique(np.sort(np.hstack([t[[0, 1]], t[[1, 2]], t[[2, 0]]]), axis=0), axis=1).T)
+        check_unknowns(lagrange_unknowns(mesh.n_vertices, n_edges, mesh.n_triangles, p), MAX_DOFS,
+                       "the mesh file at this element order")
     skm = mesh.to_skfem(order=max(2, p))
     disc = discretise(skm, p)
     if disc.n_dofs > MAX_DOFS:
