@@ -298,3 +298,25 @@ def test_output_into_a_missing_or_read_only_directory_is_one_line(tmp_path, caps
     assert status == 2
     assert err.startswith("femodes: error: ") and err.count("\n") == 1, err
     assert "directory" in err
+
+
+# ---------------------------------------------------------------------------- small solves
+AWKWARD = st.one_of(
+    st.builds(lambda a, r: femodes.rectangle(a, a * r), st.floats(1e-3, 0.1), st.floats(1e-3, 1.0)),
+    st.builds(lambda a, r: femodes.ellipse(a, a * r), st.floats(1e-3, 0.05), st.floats(0.021, 1.0)),
+    st.builds(lambda a, b, u, v: femodes.rectangular_coax(a, b, a * u, b * v), st.floats(1e-3, 0.05),
+              st.floats(1e-3, 0.05), st.floats(0.01, 0.999), st.floats(0.01, 0.999)),
+    st.builds(lambda a, b, u, v: femodes.double_ridge(a, b, a * u, b * v), st.floats(1e-3, 0.05),
+              st.floats(1e-3, 0.05), st.floats(0.01, 0.99), st.floats(0.005, 0.99)),
+    st.builds(lambda r, t: femodes.sector(r, t), st.floats(1e-3, 0.05), st.floats(0.02, 6.28)),
+)
+
+
+@settings(max_examples=max(3, EXAMPLES // 5), deadline=20000, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow])
+@given(AWKWARD, st.integers(1, 3))
+def test_awkward_but_valid_guides_solve_or_refuse_cleanly(section, modes):
+    # accuracy 1e-2: a coarse solve through meshing, assembly and the eigen step
+    ms = _allowed(lambda: femodes.solve(section, modes=modes, accuracy=1e-2))
+    if ms is not None:
+        assert len(ms) == modes and all(m.fc >= 0 and math.isfinite(m.fc) for m in ms)
