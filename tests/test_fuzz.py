@@ -303,7 +303,8 @@ def test_output_into_a_missing_or_read_only_directory_is_one_line(tmp_path, caps
 # ---------------------------------------------------------------------------- small solves
 AWKWARD = st.one_of(
     st.builds(lambda a, r: femodes.rectangle(a, a * r), st.floats(1e-3, 0.1), st.floats(1e-3, 1.0)),
-    st.builds(lambda a, r: femodes.ellipse(a, a * r), st.floats(1e-3, 0.05), st.floats(0.021, 1.0)),
+    # (up to 10:1 here: a 49:1 ellipse is accepted but takes 15-20 s, its tips set the mesh)
+    st.builds(lambda a, r: femodes.ellipse(a, a * r), st.floats(1e-3, 0.05), st.floats(0.1, 1.0)),
     st.builds(lambda a, b, u, v: femodes.rectangular_coax(a, b, a * u, b * v), st.floats(1e-3, 0.05),
               st.floats(1e-3, 0.05), st.floats(0.01, 0.999), st.floats(0.01, 0.999)),
     st.builds(lambda a, b, u, v: femodes.double_ridge(a, b, a * u, b * v), st.floats(1e-3, 0.05),
