@@ -303,6 +303,18 @@ def test_input_ranges_of_solve(kw, words):
         femodes.solve(femodes.rectangle(22.86e-3, 10.16e-3), **{"modes": 2, **kw})
 
 
+def test_loaded_guides_refuse_bad_orders_and_frequencies():
+    s = femodes.rectangle(22.86e-3, 10.16e-3).with_material(femodes.rectangle(5e-3, 10.16e-3), eps_r=2.0)
+    with pytest.raises(FemodesError, match="above the 1e.13 Hz"):
+        femodes.solve(s, modes=1, frequency=1e20)
+    with pytest.raises(FemodesError, match="must be 1, 2 or 3"):
+        femodes.dispersion(s, [10e9, 12e9], modes=1, order=True)
+    with pytest.raises(FemodesError, match="two or more positive frequencies"):
+        femodes.dispersion(s, ["ten", "twelve"], modes=1)
+    with pytest.raises(FemodesError, match="order must be one of"):
+        femodes.solve(femodes.rectangle(22.86e-3, 10.16e-3), modes=1, order=True)
+
+
 def test_conductivity_and_frequency_ranges():
     with pytest.raises(FemodesError, match="conductivity must lie between 10000 and 1e"):
         conductivity_of(1e30)
