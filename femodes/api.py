@@ -20,7 +20,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from femodes.constants import C0
-from femodes.errors import FemodesError, positive_number
+from femodes.errors import MAX_FREQUENCY, FemodesError, material_number, positive_number
 from femodes.geometry.mesh import Mesh
 from femodes.geometry.section import Section
 from femodes.modes.display import at_frequency_html, cutoff_html, fill_text, html_lines, list_repr, section_text
@@ -66,8 +66,8 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     :class:`LoadedCutoff`.
     """
     n_modes = _check_count(modes)
-    eps_r = positive_number("eps_r", eps_r)
-    mu_r = positive_number("mu_r", mu_r)
+    eps_r = material_number("eps_r", eps_r)
+    mu_r = material_number("mu_r", mu_r)
     try:
         accuracy = float(accuracy)
     except (TypeError, ValueError):
@@ -77,7 +77,12 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
                            f"0.1 (relative error on kc), got {accuracy!r}")
     if family is not None and family not in ("TE", "TM"):
         raise FemodesError(f"family must be None, 'TE' or 'TM', got {family!r}")
-    p = DEFAULT_ORDER if order is None else int(order) if order in ELEMENT_ORDERS else None
+    if frequency is not None:
+        frequency = positive_number("frequency", frequency, "Hz")
+        if frequency > MAX_FREQUENCY:
+            raise FemodesError(f"frequency {frequency:.3g} Hz is above the {MAX_FREQUENCY:g} Hz (10 THz) femodes "
+                               "handles (metal walls stop being good conductors); give it in Hz")
+    p = DEFAULT_ORDER if order is None else int(order) if (order in ELEMENT_ORDERS and not isinstance(order, bool)) else None
     if p is None:
         raise FemodesError(f"order must be one of {ELEMENT_ORDERS}, got {order!r}")
 
@@ -136,6 +141,15 @@ def _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family):
     modes = build_modes(section, sol.fine, sol.merged, sol.tem, eps_r, mu_r, sol.safety, n_modes, line)
     return ModeSet(modes, section=section, mesh=sol.mesh, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy,
                    modes_asked=n_modes, n_dofs=sol.n_dofs, order=sol.order, mesh_size=sol.mesh_size, family=family, line=line)
+
+
+def _loaded_order(order):
+    """The edge-element order of a loaded guide: None (default) or 1, 2, 3."""
+    if order is None:
+        return ORDER
+    if isinstance(order, bool) or order not in (1, 2, 3):
+        raise FemodesError(f"order of a loaded guide's edge elements must be 1, 2 or 3, got {order!r}")
+    return int(order)
 
 
 def _check_count(modes):
@@ -222,10 +236,13 @@ def dispersion(section, frequencies, modes=4, eps_r=1.0, mu_r=1.0, accuracy=1e-6
     fixed = isinstance(section, Mesh) and bool(section.materials)
     if not (isinstance(section, Section) or fixed):
         raise FemodesError(f"dispersion() needs a section or a mesh with materials, got {type(section).__name__}")
-    fs = np.atleast_1d(np.asarray(frequencies, dtype=float))
-    if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0):
+    try:
+        fs = np.atleast_1d(np.asarray(frequencies, dtype=float))
+    except (TypeError, ValueError):
+        raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}") from None
+    if fs.size < 2 or not np.all(np.isfinite(fs)) or np.any(fs <= 0) or np.any(fs > MAX_FREQUENCY):
         raise FemodesError(f"frequencies must be two or more positive frequencies in Hz, got {frequencies!r}")
-    p = ORDER if order is None else int(order)
+    p = _loaded_order(order)
     # the error of beta^2 is measured relative to k0^2 eps_max mu_max, which is smallest at the
     # lowest frequency: ask the top-frequency solve for that much more, and a margin of 4 for
     # the tracked modes away from the top frequency, whose errors its estimate does not see
@@ -405,7 +422,7 @@ def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_
                      dispersion=disp, family=family)
     if family is not None:
         raise FemodesError("family= is for homogeneously filled guides: a loaded guide's modes are hybrid")
-    p = ORDER if order is None else int(order)
+    p = _loaded_order(order)
     bare = _bare_modes(section, modes + 8, eps_r, mu_r)  # the labels of every part, solved once
     cuts, prob = _loaded_modes(section, modes, None, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
                                bare=bare)

@@ -165,6 +165,11 @@ def main(argv=None) -> int:
         return _fail("choose a command: solve, sweep, seek, sensitivity, tolerance, selfcheck or shapes (see 'femodes --help')")
     except FemodesError as exc:
         return _fail(str(exc))
+    except OSError as exc:  # output into a missing or read-only directory, a full disk, ...
+        where = f" ({exc.filename})" if getattr(exc, "filename", None) else ""
+        return _fail(f"{exc.strerror or exc}{where}: check that the directory exists, is writable and has room")
+    except MemoryError:
+        return _fail("out of memory: ask for a looser accuracy or fewer modes")
     except KeyboardInterrupt:
         print("femodes: interrupted", file=sys.stderr)
         return 130

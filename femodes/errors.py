@@ -10,6 +10,8 @@ class FemodesError(ValueError):
 
 
 def _number(name, value, unit):
+    if isinstance(value, bool):  # True is 1 to Python, never a length or a count to a user
+        raise FemodesError(f"{name} must be a number{' in ' + unit if unit else ''}, got {value!r}")
     try:
         return float(value)
     except (TypeError, ValueError):
@@ -35,6 +37,8 @@ def nonnegative_number(name, value, unit=""):
 
 def check_positive(name, value, unit="m"):
     """Return ``value`` as float if it is finite and > 0, else raise FemodesError."""
+    if isinstance(value, bool):
+        raise FemodesError(f"{name} must be a number, got {value!r}")
     try:
         v = float(value)
     except (TypeError, ValueError):
@@ -46,6 +50,8 @@ def check_positive(name, value, unit="m"):
 
 def check_nonnegative(name, value, unit="m"):
     """Return ``value`` as float if it is finite and >= 0, else raise FemodesError."""
+    if isinstance(value, bool):
+        raise FemodesError(f"{name} must be a number, got {value!r}")
     try:
         v = float(value)
     except (TypeError, ValueError):
@@ -53,3 +59,30 @@ def check_nonnegative(name, value, unit="m"):
     if not (v >= 0 and v < float("inf")):
         raise FemodesError(f"{name} must be zero or a positive finite value in {unit}, got {value!r}")
     return v
+
+
+#: relative permittivity and permeability a region or filling may have: passive, non-plasma
+#: materials (eps_r, mu_r >= 1) up to the strongest ceramics and ferrites (~1e4); beyond, the
+#: cutoffs fall below round-off of the eigenvalues (eps_r = 1e300 turned every cutoff into 0)
+MATERIAL_RANGE = (1.0, 1e4)
+#: wall conductivity (S/m) for which the good-conductor surface impedance holds: from poor
+#: alloys and graphite (1e4) to above silver (6.3e7), with margin
+CONDUCTIVITY_RANGE = (1e4, 1e9)
+#: highest frequency (Hz): 10 THz; above, metal walls are no longer good conductors
+MAX_FREQUENCY = 1e13
+
+
+def in_range(name, value, lo, hi, unit="", why=""):
+    """``value`` as float if lo <= value <= hi, else FemodesError naming the range and why."""
+    x = positive_number(name, value, unit)
+    if not (lo <= x <= hi):
+        u = f" {unit}" if unit else ""
+        raise FemodesError(f"{name} must lie between {lo:g} and {hi:g}{u}{' (' + why + ')' if why else ''}, "
+                           f"got {value!r}")
+    return x
+
+
+def material_number(name, value):
+    """eps_r or mu_r, checked against :data:`MATERIAL_RANGE`."""
+    return in_range(name, value, *MATERIAL_RANGE, why="relative to vacuum; passive materials up to the "
+                    "strongest ceramics and ferrites")

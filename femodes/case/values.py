@@ -8,7 +8,7 @@ import difflib
 import math
 
 from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, NAME, POINT, POINTS
-from femodes.errors import FemodesError
+from femodes.errors import MAX_FREQUENCY, FemodesError
 from femodes.quantities import METALS, conductivity_of
 
 
@@ -27,7 +27,11 @@ def _frequency_value(where, value, units, scale):
     v = _number(where, value, f"a frequency in {units} (number)", unit_key="frequency_units")
     if v <= 0:
         raise FemodesError(f"{where} must be a positive frequency in {units}, got {_show(value)}")
-    return _decimal_scale(v, scale)
+    f = _decimal_scale(v, scale)
+    if f > MAX_FREQUENCY:
+        raise FemodesError(f"{where} is {f:.3g} Hz, above the {MAX_FREQUENCY:g} Hz (10 THz) femodes handles "
+                           f"(metal walls stop being good conductors); check the value and frequency_units")
+    return f
 
 
 def _band_value(where, value, units, scale):
@@ -37,7 +41,11 @@ def _band_value(where, value, units, scale):
     f1, f2 = (float(v) for v in value)
     if not (math.isfinite(f1) and math.isfinite(f2) and 0 < f1 < f2):
         raise FemodesError(f"{where} must be [f1, f2] with 0 < f1 < f2 ({units}), got [{value[0]!r}, {value[1]!r}]")
-    return (_decimal_scale(f1, scale), _decimal_scale(f2, scale))
+    band = (_decimal_scale(f1, scale), _decimal_scale(f2, scale))
+    if band[1] > MAX_FREQUENCY:
+        raise FemodesError(f"{where} reaches {band[1]:.3g} Hz, above the {MAX_FREQUENCY:g} Hz (10 THz) femodes "
+                           "handles; check the values and frequency_units")
+    return band
 
 
 def _parse_conductor(text):

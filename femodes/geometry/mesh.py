@@ -30,6 +30,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from femodes.errors import FemodesError
+from femodes.geometry.checks import check_mesh, check_section
 from femodes.geometry.locate import locate_straight
 from femodes.geometry.loops import Arc, Corner, Line, _point_edge_distances
 from femodes.geometry.section import Section, material_values
@@ -497,6 +498,7 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
     """
     if not (h_max > 0):
         raise FemodesError(f"mesh size must be positive, got {h_max!r}")
+    check_section(section)  # a moved section skipped the checks at construction
     with gmsh_session() as gmsh:
         if section.materials:
             _build_geometry_occ(gmsh, section)
@@ -655,8 +657,9 @@ def read_mesh(path, scale=1.0) -> Mesh:
                 m = meshio.read(path)
         else:
             m = meshio.read(path)
-    except Exception as exc:  # meshio raises many types for unreadable files
-        raise FemodesError(f"could not read mesh file {path}: {exc}") from None
+    except (Exception, SystemExit) as exc:  # meshio raises many types (and calls exit()) on bad files
+        raise FemodesError(f"could not read mesh file {path}: {exc or type(exc).__name__}; give a triangle mesh "
+                           "meshio reads (gmsh .msh, .vtu, .xdmf, ...)") from None
     blocks = [c for c in m.cells if c.type in ("triangle", "triangle6")]
     if not blocks:
         kinds = sorted({c.type for c in m.cells})
@@ -664,9 +667,15 @@ def read_mesh(path, scale=1.0) -> Mesh:
                            "femodes needs a 2-D triangle mesh of the cross-section")
     kind = "triangle6" if any(b.type == "triangle6" for b in blocks) else "triangle"
     used = [i for i, c in enumerate(m.cells) if c.type == kind]
-    conn = np.vstack([m.cells[i].data for i in used]).T.astype(np.int64)
-    coords = np.asarray(m.points[:, :2], dtype=float).T * float(scale)
+    try:
+        conn = np.vstack([m.cells[i].data for i in used]).T.astype(np.int64)
+        coords = np.asarray(m.points[:, :2], dtype=float).T * float(scale)
+    except (IndexError, ValueError, TypeError) as exc:
+        raise FemodesError(f"mesh file {path} has unusable points or triangles ({exc}); fix the file") from None
+    if conn.shape[1] == 0 or not np.all((conn >= 0) & (conn < coords.shape[1])):
+        raise FemodesError(f"mesh file {path} has triangles that name missing points; fix the file")
     mesh = _mesh_from_connectivity(coords, conn)
+    check_mesh(mesh.points, mesh.triangles, f"mesh file {path}")
     tags, names = _file_groups(m, used)
     if tags is not None:
         mesh = replace(mesh, regions=tags, region_names=names)

@@ -17,7 +17,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from femodes.errors import FemodesError, check_positive, nonnegative_number, positive_number
+from femodes.errors import FemodesError, check_positive, material_number, nonnegative_number
+from femodes.geometry.checks import check_scale, check_section
 from femodes.geometry.loops import Line, Loop, _max_distance, _min_distance, _point_in_polygon, _point_map, _polyline_self_intersects, _polylines_cross
 
 __all__ = ["Section", "Material", "material_values"]
@@ -26,7 +27,7 @@ __all__ = ["Section", "Material", "material_values"]
 def material_values(eps_r, mu_r, tan_delta, name):
     """(eps_r, mu_r, tan_delta, name) of a material region, checked: eps_r, mu_r > 0 (real),
     0 <= tan_delta < 1, name a string (stripped)."""
-    eps, mu = positive_number("eps_r", eps_r), positive_number("mu_r", mu_r)
+    eps, mu = material_number("eps_r", eps_r), material_number("mu_r", mu_r)
     tand = nonnegative_number("tan_delta", tan_delta)
     if tand >= 1:
         raise FemodesError(f"tan_delta is a loss tangent and must lie in 0 <= tan_delta < 1, got {tan_delta!r}")
@@ -106,6 +107,8 @@ class Section:
 
     def __post_init__(self):
         trusted = self.params.pop("_valid", False) if isinstance(self.params, dict) else False
+        if not trusted:  # before any area: sizes near the float range overflow
+            check_scale(self.outer.polyline(8))
         outer = self.outer
         if outer.signed_area() < 0:
             outer = outer.reversed()
@@ -121,6 +124,7 @@ class Section:
         scale = float(np.max(np.ptp(po, axis=1)))
         if not np.all(np.isfinite(po)) or scale <= 0:
             raise FemodesError("the outline has no extent: give at least three distinct vertices")
+        check_scale(po)
         if _polyline_self_intersects(self.outer.polyline(8), scale):
             raise FemodesError("the outline crosses itself: list the vertices in order around the boundary")
         area = abs(self.outer.signed_area())
@@ -147,6 +151,7 @@ class Section:
                 if _point_in_polygon(ph[:, 0], pj) or _point_in_polygon(pj[:, 0], ph) or _polylines_cross(ph, pj) or \
                         min(_min_distance(ph, pj), _min_distance(pj, ph)) < 1e-6 * scale:
                     raise FemodesError(f"holes {j + 1} and {k + 1} touch or overlap: keep inner conductors apart")
+        check_section(self)  # touching, slivers, scale (femodes.geometry.checks)
 
     # -- derived -------------------------------------------------------------
     @property
@@ -228,11 +233,12 @@ class Section:
 
     def translated(self, dx, dy):
         """The same section moved by (dx, dy) metres."""
-        return self._moved("translate", (float(dx), float(dy)))
+        dx, dy = _finite("dx", dx, "m"), _finite("dy", dy, "m")
+        return self._moved("translate", (dx, dy))
 
     def rotated(self, angle):
         """The same section rotated counter-clockwise by ``angle`` radians about the origin."""
-        return self._moved("rotate", float(angle))
+        return self._moved("rotate", _finite("angle", angle, "radians"))
 
     def mirrored(self, axis="x"):
         """Mirror image: axis='x' maps x -> -x, axis='y' maps y -> -y."""
@@ -316,6 +322,19 @@ class Section:
 
 
 _ANGLE_KEYS = {"angle"}
+
+
+def _finite(name, value, unit):
+    """A finite number (not a boolean) as float, else FemodesError."""
+    if isinstance(value, bool):
+        raise FemodesError(f"{name} must be a number in {unit}, got {value!r}")
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise FemodesError(f"{name} must be a number in {unit}, got {value!r}") from None
+    if not math.isfinite(x):
+        raise FemodesError(f"{name} must be a finite number in {unit}, got {value!r}")
+    return x
 
 
 def _loop_key(loop):

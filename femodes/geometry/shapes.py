@@ -16,6 +16,19 @@ from femodes.geometry.section import Section
 from femodes.geometry.standards import standard_size
 
 
+def _offset(offset):
+    """(dx, dy) in metres from a pair of finite numbers."""
+    try:
+        if isinstance(offset, (str, bytes, dict)) or len(offset) != 2 or any(isinstance(v, bool) for v in offset):
+            raise TypeError
+        dx, dy = (float(offset[0]), float(offset[1]))
+    except (TypeError, IndexError, ValueError, KeyError):
+        raise FemodesError(f"offset must be a pair (dx, dy) in metres, got {offset!r}") from None
+    if not (math.isfinite(dx) and math.isfinite(dy)):
+        raise FemodesError(f"offset must be a pair of finite numbers (dx, dy) in metres, got {offset!r}")
+    return dx, dy
+
+
 def rectangle(width, height, corner_radius=0.0):
     """Rectangle ``width`` (x) by ``height`` (y) metres, centred at the origin.
 
@@ -57,10 +70,7 @@ def coaxial(outer_radius, inner_radius, offset=(0.0, 0.0)):
     a = check_positive("inner_radius", inner_radius)
     if a >= b:
         raise FemodesError(f"inner_radius ({a * 1e3:.6g} mm) must be smaller than outer_radius ({b * 1e3:.6g} mm)")
-    try:
-        dx, dy = (float(offset[0]), float(offset[1]))
-    except (TypeError, IndexError, ValueError):
-        raise FemodesError(f"offset must be a pair (dx, dy) in metres, got {offset!r}") from None
+    dx, dy = _offset(offset)
     if math.hypot(dx, dy) + a >= b * (1 - 1e-6):
         raise FemodesError(f"the inner conductor (radius {a * 1e3:.6g} mm, offset {math.hypot(dx, dy) * 1e3:.6g} mm) "
                            f"touches the outer wall: the offset must be below {(b - a) * 1e3:.6g} mm")
@@ -78,10 +88,7 @@ def rectangular_coax(width, height, inner_width, inner_height, offset=(0.0, 0.0)
     b = check_positive("height", height)
     w = check_positive("inner_width", inner_width)
     h = check_positive("inner_height", inner_height)
-    try:
-        dx, dy = (float(offset[0]), float(offset[1]))
-    except (TypeError, IndexError, ValueError):
-        raise FemodesError(f"offset must be a pair (dx, dy) in metres, got {offset!r}") from None
+    dx, dy = _offset(offset)
     if abs(dx) + w / 2 >= a / 2 or abs(dy) + h / 2 >= b / 2:
         raise FemodesError(f"the inner conductor ({w * 1e3:.6g} x {h * 1e3:.6g} mm at offset "
                            f"({dx * 1e3:.6g}, {dy * 1e3:.6g}) mm) does not fit inside the "

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes.constants import MU0, NP_TO_DB
-from femodes.errors import FemodesError
+from femodes.errors import CONDUCTIVITY_RANGE, FemodesError, in_range
 from femodes.modes.loaded import LoadedMode
 from femodes.quantities.common import (
     _beta,
@@ -19,7 +19,6 @@ from femodes.quantities.common import (
     _k,
     _nonnegative,
     _out,
-    _positive,
     _require_propagating,
     _z_wave,
 )
@@ -54,7 +53,8 @@ def conductivity_of(conductivity):
             raise FemodesError(f"unknown metal {conductivity!r}; known: {', '.join(METALS)} "
                                "(or give the conductivity in S/m)")
         return METALS[key]
-    return _positive("conductivity", conductivity, "S/m")
+    return in_range("conductivity", conductivity, *CONDUCTIVITY_RANGE, unit="S/m",
+                    why="the good-conductor surface impedance: metals, alloys, graphite")
 
 
 def skin_depth(f, conductivity=5.8e7):
