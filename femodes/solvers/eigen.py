@@ -1,8 +1,8 @@
 """Eigen: sparse symmetric pencils -> lowest eigenpairs.
 
 The one place that knows about linear-algebra backends.  Shift-invert Lanczos (ARPACK through
-scipy.sparse.linalg.eigsh) with the factorisation of (K - sigma M) done here once by SuperLU and
-handed to ARPACK as a LinearOperator.  BLAS is held to one thread while it runs: on a small
+scipy.sparse.linalg.eigsh) with the factorisation of (K - sigma M) done here once (SuperLU or sparse
+Cholesky, chosen in :mod:`femodes.solvers.backends`) and handed to ARPACK as a LinearOperator.  BLAS is held to one thread while it runs: on a small
 shared machine threading made the solve slower, not faster.
 
 threadpoolctl limits only the libraries already loaded when the limit is set.  scipy loads its own
@@ -18,8 +18,10 @@ from contextlib import contextmanager
 
 import numpy as np
 import scipy.linalg  # noqa: F401  (loads scipy's BLAS now, so that single_thread reaches it)
-from scipy.sparse.linalg import LinearOperator, eigsh, splu
+from scipy.sparse.linalg import LinearOperator, eigsh
 from threadpoolctl import threadpool_limits
+
+from femodes.solvers.backends import factorize
 
 __all__ = ["lowest_eigenpairs", "single_thread"]
 
@@ -42,8 +44,9 @@ def lowest_eigenpairs(K, M, k, sigma, tol=0.0):
     k = int(min(k, n - 2))
     if k < 1:
         raise ValueError("problem too small for the number of eigenpairs asked")
-    A = (K - sigma * M).tocsc()
-    lu = splu(A, permc_spec="MMD_AT_PLUS_A", options={"SymmetricMode": True})
+    # K - sigma M is SPD for the positive semi-definite K and definite M of this module's callers
+    # when sigma lies below the lowest eigenvalue; a factor that finds otherwise falls back to LU
+    lu = factorize(K - sigma * M, spd=True)
     op = LinearOperator((n, n), matvec=lu.solve, dtype=float)
     rng = np.random.default_rng(12345)  # deterministic start vector
     v0 = rng.standard_normal(n)
