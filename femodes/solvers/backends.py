@@ -13,8 +13,9 @@ solves per iteration.  Which library does that fastest depends on the matrix:
 
 Choice (``backend="auto"``, the default): cholespy for SPD matrices of at least ``CHOLESPY_MIN``
 unknowns when it is installed, SuperLU otherwise.  The crossover is measured
-(``benchmarks/bench_backend.py``; numbers in DEVELOPERS.md): below a few thousand unknowns both
-take milliseconds and SuperLU has no set-up cost to win back.  A Cholesky factorisation that finds
+(``benchmarks/bench_backend.py`` and WR-90 / rectangle pencils, P3-P4, 10 modes, one thread): cholespy
+was 1.1-1.35x faster from 500 to 2e4 unknowns and 2x at 1e5; at 190 unknowns the two tied (about
+20 ms, ARPACK's own work), so below CHOLESPY_MIN SuperLU keeps the small problems.  A Cholesky factorisation that finds
 the matrix is not positive definite falls back to SuperLU (it never silently returns a wrong solve).
 
 Overrides, strongest first: :func:`use` (a context manager, e.g. ``with use("superlu"): solve(...)``),
@@ -39,7 +40,7 @@ __all__ = ["BACKENDS", "CHOLESPY_MIN", "Factor", "available", "choose", "factori
 BACKENDS = ("superlu", "cholespy")
 
 #: unknowns from which an SPD matrix goes to cholespy under "auto" (measured crossover, see module doc)
-CHOLESPY_MIN = 3000
+CHOLESPY_MIN = 500
 
 _ENV = "FEMODES_BACKEND"
 _override: ContextVar[str | None] = ContextVar("femodes_backend", default=None)
