@@ -101,3 +101,16 @@ def test_the_whole_solve_agrees_across_backends():
     for name, kc in got.items():
         np.testing.assert_allclose(kc, want, rtol=1e-6, err_msg=name)
         np.testing.assert_allclose(kc, got["superlu"], rtol=1e-7, err_msg=name)
+
+
+def test_predicted_cost_is_a_growing_band_that_holds_the_factor():
+    lo_t, hi_t = zip(*[backends.predicted_cost(n, "superlu")[0] for n in (1e3, 1e4, 1e5, 1e6)])
+    assert all(a < b for a, b in zip(lo_t, hi_t)) and all(a < b for a, b in zip(hi_t, hi_t[1:]))
+    # the memory band's high end holds at least SuperLU's own factor (12 bytes per stored entry:
+    # value + row index) of a P4 pencil it was not measured on
+    skm = skfem.MeshTri.init_tensor(np.linspace(0, A, 61), np.linspace(0, B, 31))
+    d = discretise(skm, 4)
+    f = backends.factorize(d.K + d.M, spd=True, backend="superlu")
+    assert backends.predicted_cost(d.n_dofs, "superlu")[1][1] > 12 * f.nnz
+    with pytest.raises(FemodesError, match="positive"):
+        backends.predicted_cost(0)

@@ -25,6 +25,7 @@ name, or a backend that is not installed, raises FemodesError naming the valid o
 
 from __future__ import annotations
 
+import math
 import os
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -34,7 +35,7 @@ from scipy.sparse.linalg import splu
 
 from femodes.errors import FemodesError
 
-__all__ = ["BACKENDS", "CHOLESPY_MIN", "Factor", "available", "choose", "factorize", "use"]
+__all__ = ["BACKENDS", "CHOLESPY_MIN", "Factor", "available", "choose", "factorize", "predicted_cost", "use"]
 
 #: every backend name femodes knows ("auto" picks among the installed ones)
 BACKENDS = ("superlu", "cholespy")
@@ -157,3 +158,53 @@ def factorize(A, spd=False, backend=None):
         except ValueError:  # "Matrix is not positive definite!"
             pass
     return _superlu(A)
+
+
+# -- cost model ---------------------------------------------------------------------------------
+#: Measured by benchmarks/bench_backend.py (2026-12-05, 2-core machine shared with other jobs, one
+#: BLAS thread): WR-90, P4 Lagrange elements (about 23.5 matrix entries per unknown), the 10 lowest TE
+#: modes.  Per backend: (unknowns, seconds of factorisation + eigensolve, peak resident MB of the whole
+#: process: Python, matrices, factor and Lanczos vectors).
+MEASURED_COSTS = {
+    "superlu": ((2493, 0.025, 99), (11421, 0.123, 145), (22717, 0.41, 195), (112681, 11.8, 454),
+                (335445, 29.0, 1305)),
+    "cholespy": ((2493, 0.021, 96), (11421, 0.092, 126), (22717, 0.23, 160), (112681, 5.45, 395),
+                 (335445, 19.9, 950)),
+}
+#: spread of the same case between runs on the shared machine (0.41 s and 1.30 s at 2.3e4 unknowns;
+#: 5.5 s and 11.8 s for the two backends at 1.1e5 in runs minutes apart): time bands are x/ 3.
+TIME_SPREAD = 3.0
+#: peak memory repeated within 10 % between runs; the band is x/ 1.5 to cover other element orders'
+#: denser or sparser matrices (P2: about 13 entries per unknown) and interpolation between sizes.
+MEMORY_SPREAD = 1.5
+
+
+def predicted_cost(n, backend=None, modes=10):
+    """Predicted (seconds, bytes) of the eigen stage for an SPD pencil of ``n`` unknowns, each a
+    (low, high) band from :data:`MEASURED_COSTS`.
+
+    Log-log interpolation between the measured sizes, the last measured slope beyond them (fill of
+    a 2-D nested-dissection-like ordering grows as n log n, so the slope does not fall with size).
+    The Lanczos part scales with the number of modes (the basis is about 2 modes + 2 vectors); the
+    table is for 10 modes, so more modes widen the high end by modes / 10.  ``backend`` as for
+    :func:`choose` (SPD); indefinite (loaded-guide) pencils cost more per unknown and are not covered.
+    """
+    n = float(n)
+    if not n > 0:
+        raise FemodesError(f"the number of unknowns must be positive, got {n!r}")
+    name = choose(int(n), True, backend)
+    pts = np.array(MEASURED_COSTS[name], dtype=float)
+    ln, lt, lm = np.log(pts[:, 0]), np.log(pts[:, 1]), np.log(pts[:, 2])
+
+    def interp(y):
+        x = math.log(n)
+        if x <= ln[0]:
+            return math.exp(y[0])
+        if x >= ln[-1]:
+            slope = (y[-1] - y[-2]) / (ln[-1] - ln[-2])
+            return math.exp(y[-1] + slope * (x - ln[-1]))
+        return math.exp(np.interp(x, ln, y))
+
+    t, m = interp(lt), interp(lm) * 2 ** 20
+    scale = max(1.0, modes / 10)
+    return (t / TIME_SPREAD, t * TIME_SPREAD * scale), (m / MEMORY_SPREAD, m * MEMORY_SPREAD * scale)
