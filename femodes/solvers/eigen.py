@@ -1,8 +1,8 @@
 """Eigen: sparse symmetric pencils -> lowest eigenpairs.
 
 The one place that knows about linear-algebra backends.  Shift-invert Lanczos (ARPACK through
-scipy.sparse.linalg.eigsh) with the factorisation of (K - sigma M) done here once by SuperLU and
-handed to ARPACK as a LinearOperator.  BLAS is held to one thread while it runs: on a small
+scipy.sparse.linalg.eigsh) with the factorisation of (K - sigma M) done here once (SuperLU or sparse
+Cholesky, chosen in :mod:`femodes.solvers.backends`) and handed to ARPACK as a LinearOperator.  BLAS is held to one thread while it runs: on a small
 shared machine threading made the solve slower, not faster.
 
 threadpoolctl limits only the libraries already loaded when the limit is set.  scipy loads its own
@@ -22,6 +22,7 @@ from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigsh, splu
 from threadpoolctl import threadpool_limits
 
 from femodes.errors import FemodesError
+from femodes.solvers.backends import factorize
 
 __all__ = ["lowest_eigenpairs", "single_thread"]
 
@@ -113,10 +114,12 @@ def _good(K, M, lam, X, res, limit):
 def _shift_invert(K, M, k, sigma, tol, ncv=None, maxiter=None, pivoting=False):
     n = K.shape[0]
     A = (K - sigma * M).tocsc()
-    if pivoting:
+    if pivoting:  # the retry on a badly conditioned pencil: partial pivoting and refinement below
         lu = splu(A)
     else:
-        lu = splu(A, permc_spec="MMD_AT_PLUS_A", options={"SymmetricMode": True})
+        # K - sigma M is SPD for the positive semi-definite K and definite M of this module's callers
+        # when sigma lies below the lowest eigenvalue; a factor that finds otherwise falls back to LU
+        lu = factorize(A, spd=True)
     op = LinearOperator((n, n), matvec=_refined(A, lu) if pivoting else lu.solve, dtype=float)
     rng = np.random.default_rng(12345)  # deterministic start vector
     v0 = rng.standard_normal(n)

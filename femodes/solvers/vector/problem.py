@@ -14,6 +14,7 @@ import numpy as np
 
 from femodes.constants import C0
 from femodes.errors import FemodesError
+from femodes.solvers.backends import factorize
 from femodes.solvers.eigen import lowest_eigenpairs, single_thread
 from femodes.solvers.vector.common import _coo, _count, _elements, _frequency, _material, _skfem_mesh
 from femodes.solvers.vector.fields import FieldsMixin
@@ -132,7 +133,7 @@ class VectorProblem(FieldsMixin, TrackingMixin):
 
     # -- the frequency-dependent operator -------------------------------------------
     def _factor(self, k0, sigma):
-        """SuperLU factors of the symmetric form of (A - sigma B) at k0.
+        """Factors of the symmetric (indefinite) form of (A - sigma B) at k0 (SuperLU; see backends).
 
         With w = -v and the second row divided by -sigma, (A - sigma B) becomes the symmetric
             M = [[S_tt + sigma T_mu - k0^2 T_eps , G              ],
@@ -140,13 +141,12 @@ class VectorProblem(FieldsMixin, TrackingMixin):
         i.e. (A - sigma B) = diag(I, -sigma I) M diag(I, -I).
         """
         import scipy.sparse as sp
-        from scipy.sparse.linalg import splu
 
         tt, tz, zz = self.mats["tt"], self.mats["tz"], self.mats["zz"]
         K = tt["S_tt"] + sigma * tt["T_mu"] - (k0 * k0) * tt["T_eps"]
         C = (zz["S_zz"] - (k0 * k0) * zz["T_zz"]) / sigma
         M = sp.bmat([[K, tz["G_mu"]], [tz["G_mu"].T, C]], format="csc")
-        return splu(M, permc_spec="MMD_AT_PLUS_A", options={"SymmetricMode": True})
+        return factorize(M, spd=False)
 
     def _apply_op(self, lu, sigma, V):
         """OP (E_t, *) = (A - sigma B)^-1 B (E_t, 0) for the columns of V (interior E_t);
@@ -414,7 +414,7 @@ class VectorProblem(FieldsMixin, TrackingMixin):
         TM-type: S_zz e_z = k0^2 T_zz e_z.  Returns a tuple of :class:`VectorCutoff`.
         """
         import scipy.sparse as sp
-        from scipy.sparse.linalg import LinearOperator, eigsh, splu
+        from scipy.sparse.linalg import LinearOperator, eigsh
 
 
         n = _count("modes", modes)
@@ -428,7 +428,7 @@ class VectorProblem(FieldsMixin, TrackingMixin):
             # TE-type, constrained curl-curl
             G = tz["G_eps"]
             Kaug = sp.bmat([[tt["S_tt"] - sigma * tt["T_eps"], G], [G.T, None]], format="csc")
-            lu = splu(Kaug, permc_spec="MMD_AT_PLUS_A", options={"SymmetricMode": True})
+            lu = factorize(Kaug, spd=False)  # a saddle-point matrix: indefinite
 
             def opinv(v):
                 return lu.solve(np.concatenate([v, np.zeros(nz)]))[:nt]

@@ -1,0 +1,211 @@
+"""Sparse direct solvers behind the eigen stage: factorise (A - sigma B) once, solve many times.
+
+Shift-invert Lanczos / Arnoldi spends its time in one sparse factorisation and then two triangular
+solves per iteration.  Which library does that fastest depends on the matrix:
+
+``superlu``  scipy's SuperLU (LU, MMD_AT_PLUS_A ordering, symmetric mode).  Always installed; works
+             for every nonsingular matrix, definite or not.  The default.
+``cholespy`` sparse Cholesky (CHOLMOD inside the cholespy wheel).  Only for symmetric positive-definite
+             matrices, which both shifts of the homogeneous guide give: K - sigma M with K positive
+             semi-definite, M positive definite and sigma < 0.  A Cholesky factor L L^T holds about
+             half the entries of an LU factor of the same matrix, and the supernodal factorisation
+             is faster where it has dense blocks to work on.
+
+Choice (``backend="auto"``, the default): cholespy for SPD matrices of at least ``CHOLESPY_MIN``
+unknowns when it is installed, SuperLU otherwise.  The crossover is measured
+(``benchmarks/bench_backend.py`` and WR-90 / rectangle pencils, P3-P4, 10 modes, one thread): cholespy
+was 1.1-1.35x faster from 500 to 2e4 unknowns and 2x at 1e5; at 190 unknowns the two tied (about
+20 ms, ARPACK's own work), so below CHOLESPY_MIN SuperLU keeps the small problems.  A Cholesky factorisation that finds
+the matrix is not positive definite falls back to SuperLU (it never silently returns a wrong solve).
+
+Overrides, strongest first: :func:`use` (a context manager, e.g. ``with use("superlu"): solve(...)``),
+then the environment variable ``FEMODES_BACKEND`` (``auto``, ``superlu`` or ``cholespy``).  An unknown
+name, or a backend that is not installed, raises FemodesError naming the valid ones.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from contextlib import contextmanager
+from contextvars import ContextVar
+
+import numpy as np
+from scipy.sparse.linalg import splu
+
+from femodes.errors import FemodesError
+
+__all__ = ["BACKENDS", "CHOLESPY_MIN", "Factor", "available", "choose", "factorize", "predicted_cost", "use"]
+
+#: every backend name femodes knows ("auto" picks among the installed ones)
+BACKENDS = ("superlu", "cholespy")
+
+#: unknowns from which an SPD matrix goes to cholespy under "auto" (measured crossover, see module doc)
+CHOLESPY_MIN = 500
+
+_ENV = "FEMODES_BACKEND"
+_override: ContextVar[str | None] = ContextVar("femodes_backend", default=None)
+
+
+def _has_cholespy():
+    try:
+        import cholespy  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
+def available():
+    """The installed backends, in order of preference."""
+    return tuple(b for b in BACKENDS if b == "superlu" or (b == "cholespy" and _has_cholespy()))
+
+
+def _check(name, where):
+    name = str(name).strip().lower()
+    if name == "auto":
+        return name
+    if name not in BACKENDS:
+        raise FemodesError(f"unknown linear-algebra backend {name!r} ({where}); valid names: "
+                           f"{', '.join(('auto',) + BACKENDS)}")
+    if name not in available():
+        raise FemodesError(f"the linear-algebra backend {name!r} ({where}) is not installed; "
+                           f"installed: {', '.join(available())} (pip install {name}, or choose another)")
+    return name
+
+
+def requested():
+    """The backend asked for: the :func:`use` override, else FEMODES_BACKEND, else "auto"."""
+    name = _override.get()
+    if name is not None:
+        return name
+    env = os.environ.get(_ENV, "").strip()
+    return _check(env, f"environment variable {_ENV}") if env else "auto"
+
+
+@contextmanager
+def use(name):
+    """Use backend ``name`` ("auto", "superlu", "cholespy") for every factorisation in the block."""
+    token = _override.set(_check(name, "femodes.solvers.backends.use"))
+    try:
+        yield
+    finally:
+        _override.reset(token)
+
+
+def choose(n, spd, backend=None):
+    """The backend that factorises an n x n matrix (``spd``: known symmetric positive definite)."""
+    name = _check(backend, "backend argument") if backend is not None else requested()
+    if name == "auto":
+        return "cholespy" if spd and n >= CHOLESPY_MIN and "cholespy" in available() else "superlu"
+    if name == "cholespy" and not spd:
+        return "superlu"  # Cholesky cannot factorise an indefinite matrix: LU is the only choice
+    return name
+
+
+class Factor:
+    """A factorised matrix: ``solve(b)`` returns A^-1 b for a vector or an (n, m) block of columns.
+
+    backend : the library that factorised it;  nnz : entries of the stored factor (None if the
+    library does not say).
+    """
+
+    def __init__(self, backend, solve, nnz=None):
+        self.backend = backend
+        self._solve = solve
+        self.nnz = nnz
+
+    def solve(self, b):
+        return self._solve(b)
+
+    __call__ = solve
+
+
+def _superlu(A):
+    lu = splu(A.tocsc(), permc_spec="MMD_AT_PLUS_A", options={"SymmetricMode": True})
+    return Factor("superlu", lu.solve, int(lu.L.nnz + lu.U.nnz))
+
+
+def _cholespy(A):
+    import cholespy
+
+    A = A.tocsr()
+    A.sum_duplicates()
+    n = A.shape[0]
+    chol = cholespy.CholeskySolverD(n, A.indptr.astype(np.int32), A.indices.astype(np.int32),
+                                    np.ascontiguousarray(A.data, dtype=np.float64), cholespy.MatrixType.CSR)
+
+    def solve(b):
+        b = np.ascontiguousarray(b, dtype=np.float64)
+        x = np.empty_like(b)
+        chol.solve(b, x)
+        return x
+
+    return Factor("cholespy", solve)
+
+
+def factorize(A, spd=False, backend=None):
+    """Factorise the square sparse matrix A; returns a :class:`Factor`.
+
+    ``spd`` says A is symmetric positive definite (allows Cholesky); ``backend`` overrides the
+    choice for this call (else :func:`use`, FEMODES_BACKEND, "auto").  If Cholesky finds A is not
+    positive definite after all, SuperLU factorises it instead.
+    """
+    n = A.shape[0]
+    name = choose(n, spd, backend)
+    if name == "cholespy":
+        try:
+            return _cholespy(A)
+        except ValueError:  # "Matrix is not positive definite!"
+            pass
+    return _superlu(A)
+
+
+# -- cost model ---------------------------------------------------------------------------------
+#: Measured by benchmarks/bench_backend.py (2026-12-05, 2-core machine shared with other jobs, one
+#: BLAS thread): WR-90, P4 Lagrange elements (about 23.5 matrix entries per unknown), the 10 lowest TE
+#: modes.  Per backend: (unknowns, seconds of factorisation + eigensolve, peak resident MB of the whole
+#: process: Python, matrices, factor and Lanczos vectors).
+MEASURED_COSTS = {
+    "superlu": ((2493, 0.025, 99), (11421, 0.123, 145), (22717, 0.41, 195), (112681, 11.8, 454),
+                (335445, 29.0, 1305), (1120685, 114.5, 4329)),
+    "cholespy": ((2493, 0.021, 96), (11421, 0.092, 126), (22717, 0.23, 160), (112681, 5.45, 395),
+                 (335445, 19.9, 950), (1120685, 85.9, 2836)),
+}
+#: spread of the same case between runs on the shared machine (0.41 s and 1.30 s at 2.3e4 unknowns;
+#: SuperLU at 1.1e6: 114 s in this table, on a load of 4.5 on 2 cores, and 30-45 s on a quieter
+#: machine the day before): time bands are x/ 4.
+TIME_SPREAD = 4.0
+#: peak memory repeated within 10 % between runs; the band is x/ 1.5 to cover other element orders'
+#: denser or sparser matrices (P2: about 13 entries per unknown) and interpolation between sizes.
+MEMORY_SPREAD = 1.5
+
+
+def predicted_cost(n, backend=None, modes=10):
+    """Predicted (seconds, bytes) of the eigen stage for an SPD pencil of ``n`` unknowns, each a
+    (low, high) band from :data:`MEASURED_COSTS`.
+
+    Log-log interpolation between the measured sizes, the last measured slope beyond them (fill of
+    a 2-D nested-dissection-like ordering grows as n log n, so the slope does not fall with size).
+    The Lanczos part scales with the number of modes (the basis is about 2 modes + 2 vectors); the
+    table is for 10 modes, so more modes widen the high end by modes / 10.  ``backend`` as for
+    :func:`choose` (SPD); indefinite (loaded-guide) pencils cost more per unknown and are not covered.
+    """
+    n = float(n)
+    if not n > 0:
+        raise FemodesError(f"the number of unknowns must be positive, got {n!r}")
+    name = choose(int(n), True, backend)
+    pts = np.array(MEASURED_COSTS[name], dtype=float)
+    ln, lt, lm = np.log(pts[:, 0]), np.log(pts[:, 1]), np.log(pts[:, 2])
+
+    def interp(y):
+        x = math.log(n)
+        if x <= ln[0]:
+            return math.exp(y[0])
+        if x >= ln[-1]:
+            slope = (y[-1] - y[-2]) / (ln[-1] - ln[-2])
+            return math.exp(y[-1] + slope * (x - ln[-1]))
+        return math.exp(np.interp(x, ln, y))
+
+    t, m = interp(lt), interp(lm) * 2 ** 20
+    scale = max(1.0, modes / 10)
+    return (t / TIME_SPREAD, t * TIME_SPREAD * scale), (m / MEMORY_SPREAD, m * MEMORY_SPREAD * scale)
