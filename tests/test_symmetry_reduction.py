@@ -17,7 +17,7 @@ import pytest
 
 import femodes as fm
 from femodes import reference as ref
-from femodes.geometry.loops import Arc, Corner, Line, Loop
+from femodes.geometry.loops import Arc, Corner
 from femodes.geometry.mesh import mesh_section
 from femodes.geometry.section import Section
 from femodes.geometry.symmetry import canonical, mirror_planes, reduce, unfold_mesh
@@ -122,7 +122,7 @@ def test_unfolded_mesh_covers_the_whole_section_symmetrically():
 def test_rectangles_against_the_closed_form(a, b, n, accuracy):
     # fc = c / 2 sqrt((m / a)^2 + (n / b)^2) (common practice); labels and degeneracies as the
     # unreduced solve's
-    red = fm.solve(fm.rectangle(a, b), n, accuracy=accuracy)
+    red = fm.solve(fm.rectangle(a, b), n, accuracy=accuracy, symmetry="always")
     whole = fm.solve(fm.rectangle(a, b), n, accuracy=accuracy, symmetry=False)
     truth = ref.rectangle_modes(a, b, n)
     kc = np.array([m.kc for m in red])
@@ -141,7 +141,7 @@ def test_equilateral_triangle_with_a_corner_on_the_cut():
     side = 10e-3
     s = fm.polygon([(-side / 2, 0.0), (side / 2, 0.0), (0.0, side * math.sqrt(3) / 2)])
     assert mirror_planes(s) == ("x",)
-    red = fm.solve(s, 8, accuracy=1e-6)
+    red = fm.solve(s, 8, accuracy=1e-6, symmetry="always")
     truth = ref.equilateral_triangle_modes(side, 8)
     kc = np.array([m.kc for m in red])
     t = np.array([r.kc for r in truth])
@@ -158,7 +158,7 @@ def test_270_degree_sector_mixed_corner_error_bars(family):
     # (exponent 2/3, like the whole 270-degree corner), the odd class the Dirichlet one (4/3)
     R = 5e-3
     s = _sector_270(R)
-    modes = fm.solve(s, 5, family=family, accuracy=1e-6)
+    modes = fm.solve(s, 5, family=family, accuracy=1e-6, symmetry="always")
     sol = solve_scalar(s, 5, 1e-6, family, 4, symmetry=True)
     assert sol.fine["symmetry"] == ("y",)
     truth = np.array([r.kc for r in ref.sector_modes(R, 1.5 * math.pi, 30) if r.family == family][:5])
@@ -172,7 +172,7 @@ def test_coax_te11_tem_and_labels():
     # TE11 of a coax: J_1'(k a) Y_1'(k b) - J_1'(k b) Y_1'(k a) = 0 (femodes.reference.coax_modes,
     # scipy.special); a degenerate pair with x / y parities, a TEM mode first
     a, b = 1e-3, 3e-3
-    red = fm.solve(fm.coaxial(b, a), 6, accuracy=1e-6)
+    red = fm.solve(fm.coaxial(b, a), 6, accuracy=1e-6, symmetry="always")
     whole = fm.solve(fm.coaxial(b, a), 6, accuracy=1e-6, symmetry=False)
     truth = ref.coax_modes(a, b, 6)
     assert red[0].family == "TEM" and red[0].label == "TEM"
@@ -192,7 +192,7 @@ def test_double_ridge_example_reduced_equals_whole():
     # no closed form: the reduced and unreduced solves of the example's guide agree within their
     # error bars, with the same labels, parities and degenerate pairs
     s = fm.double_ridge(**RIDGE)
-    red = fm.solve(s, 10, accuracy=1e-5)
+    red = fm.solve(s, 10, accuracy=1e-5, symmetry="always")
     whole = fm.solve(s, 10, accuracy=1e-5, symmetry=False)
     _same_modes(red, whole)
     # the fundamental: H_z odd across the ridges' plane x = 0, even across the gap's y = 0
@@ -202,7 +202,7 @@ def test_double_ridge_example_reduced_equals_whole():
 def test_fields_of_unfolded_modes_are_mirror_images():
     # E_z of TM11 in WR-90 (sin(pi x / a) sin(pi y / b) about the corner) is even about both
     # centre lines, H_z of TE10 odd in x: checked on the unfolded field at mirrored points
-    ms = fm.solve(fm.rectangle(*WR90), 5, accuracy=1e-6)
+    ms = fm.solve(fm.rectangle(*WR90), 5, accuracy=1e-6, symmetry="always")
     pts = np.array([[3e-3, -4e-3, 7e-3], [2e-3, 1e-3, -3.5e-3]])
     for m in ms:
         f = m.longitudinal(pts)
@@ -213,9 +213,21 @@ def test_fields_of_unfolded_modes_are_mirror_images():
 
 def test_family_and_option_off():
     s = fm.rectangle(*WR90)
-    te = fm.solve(s, 4, family="TE", accuracy=1e-6)
+    te = fm.solve(s, 4, family="TE", accuracy=1e-6, symmetry="always")
     assert [m.label for m in te] == ["TE10", "TE20", "TE01", "TE11"]
     sol = solve_scalar(s, 4, 1e-6, None, 4, symmetry=False)
     assert "symmetry" not in sol.fine
     sol = solve_scalar(s, 4, 1e-6, None, 4, symmetry=True)
     assert sol.fine["symmetry"] == ("x", "y") and sol.fine["reduced_dofs"] < sol.n_dofs
+
+
+def test_default_reduces_only_where_it_pays():
+    # the policy (femodes.api.reduction_pays, measured in DEVELOPERS.md): many modes, or fine
+    # accuracy on a graded / curved section; a wrong value is refused with what is valid
+    from femodes.api import reduction_pays
+    assert reduction_pays(fm.rectangle(*WR90), 100, 1e-6)
+    assert not reduction_pays(fm.rectangle(*WR90), 6, 1e-8)
+    assert reduction_pays(fm.double_ridge(**RIDGE), 10, 1e-8)
+    assert not reduction_pays(fm.double_ridge(**RIDGE), 8, 1e-6)
+    with pytest.raises(fm.FemodesError, match="symmetry must be"):
+        fm.solve(fm.rectangle(*WR90), 2, symmetry="yes")
