@@ -231,3 +231,15 @@ def test_default_reduces_only_where_it_pays():
     assert not reduction_pays(fm.double_ridge(**RIDGE), 8, 1e-6)
     with pytest.raises(fm.FemodesError, match="symmetry must be"):
         fm.solve(fm.rectangle(*WR90), 2, symmetry="yes")
+
+
+def test_moved_and_rotated_rectangle():
+    # the planes are the section's own axes: WR-90 moved and turned is still solved on its
+    # quarter, the modes unfolded back in place (closed form, common practice)
+    s = fm.rectangle(*WR90).translated(1e-3, 2e-3).rotated(0.3)
+    ms = fm.solve(s, 8, accuracy=1e-7, symmetry="always")
+    truth = ref.rectangle_modes(*WR90, 8)
+    t = np.array([r.kc for r in truth])
+    err = np.abs(np.array([m.kc for m in ms]) - t) / t
+    assert np.all(err <= np.array([m.rel_error for m in ms]))
+    assert sorted(m.label for m in ms) == sorted(r.label for r in truth)
