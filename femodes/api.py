@@ -21,6 +21,7 @@ import numpy as np
 
 from femodes.constants import C0
 from femodes.errors import MAX_FREQUENCY, FemodesError, material_number, positive_number
+from femodes.geometry.loops import Arc
 from femodes.geometry.mesh import Mesh
 from femodes.geometry.section import Section
 from femodes.modes.display import at_frequency_html, cutoff_html, fill_text, html_lines, list_repr, section_text
@@ -39,7 +40,8 @@ MAX_MODES = 500
 
 
 def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, order=None,
-          mesh_size=None, max_iterations=6, frequency=None, evanescent=False, start_size=None):
+          mesh_size=None, max_iterations=6, frequency=None, evanescent=False, start_size=None,
+          symmetry=True):
     """The ``modes`` lowest-cutoff modes of a guide.
 
     Parameters
@@ -57,6 +59,12 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     start_size: start the accuracy loop at this element size (m), e.g. the ``mesh_size`` of a
                solve of a similar section (sweeps pass it from point to point); the accuracy
                control is unchanged
+    symmetry : where a homogeneously filled section has mirror planes (in its own frame), solve
+               each symmetry class on the half or quarter section with electric / magnetic walls
+               on the cuts and unfold the modes to the whole section (the same modes, labels and
+               error estimates within the error bars; fewer unknowns per eigensolve).  True (the
+               default): where that pays (:func:`reduction_pays`); 'always': whenever the section
+               has a mirror plane; False: the whole section.
     frequency, evanescent : for sections with material regions only: the modes of largest beta
                at ``frequency`` (evanescent ones too if asked); without a frequency such a
                section gives its lowest cutoffs
@@ -113,8 +121,28 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
         mesh_size = positive_number("mesh_size", mesh_size, "m")
     if start_size is not None:
         start_size = positive_number("start_size", start_size, "m")
-    sol = solve_scalar(section, n_modes, accuracy, family, p, mesh_size, max_iterations, start_size)
+    if symmetry not in (True, False, "always"):
+        raise FemodesError(f"symmetry must be True (reduce where it pays), 'always' or False, got {symmetry!r}")
+    reduced = symmetry == "always" or (symmetry is True and reduction_pays(section, n_modes, accuracy, p))
+    sol = solve_scalar(section, n_modes, accuracy, family, p, mesh_size, max_iterations, start_size,
+                       symmetry=reduced)
     return _mode_set(sol, section, n_modes, eps_r, mu_r, accuracy, family)
+
+
+def reduction_pays(section, n_modes, accuracy, order=DEFAULT_ORDER):
+    """Whether solving a mirror-symmetric section class by class on its half or quarter is
+    expected to be faster than solving it whole (measured, benchmarks/bench_symmetry.py and
+    DEVELOPERS.md): each class costs its own eigensolves and the modes are unfolded at the end,
+    which small problems do not repay.  Measured on 5 guides (WR-90, a square, a rounded
+    rectangle, a coax, the double ridge) x (6, 20, 50 modes) x (1e-4, 1e-6, 1e-8), whole / reduced
+    time: from 40 modes 0.73-4.5 (median 1.6); on sections with curved walls or rate-limiting
+    corners at accuracy 1e-8 and 10 modes or more 1.2-3.2; elsewhere mostly 0.3-0.7 (sub-second
+    solves, where the per-class eigensolves and the unfolding dominate)."""
+    if n_modes >= 40:
+        return True
+    smooth = not section.rate_limiting_corners(order) and \
+        not any(isinstance(seg, Arc) for loop in section.loops for seg in loop.segments)
+    return not smooth and accuracy <= 1e-8 and n_modes >= 10
 
 
 #: outlines beyond these sizes (m) get a warning: implausible for a microwave guide

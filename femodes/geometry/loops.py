@@ -150,6 +150,10 @@ class Corner:
 
     point: tuple
     angle: float
+    #: True where a symmetry wall (a cut of :mod:`femodes.geometry.mirror`) meets a wall or
+    #: another cut: depending on the symmetry class the corner is Dirichlet-Neumann (mixed), or
+    #: of one kind, and its exponents are those of both problems (see :meth:`exponents`)
+    mixed: bool = False
 
     @property
     def reentrant(self):
@@ -157,8 +161,9 @@ class Corner:
 
     @property
     def exponent(self):
-        """Singular exponent lambda = pi / angle of the potential near the corner."""
-        return math.pi / self.angle
+        """Singular exponent lambda = pi / angle of the potential near the corner; at a
+        ``mixed`` corner pi / (2 angle), the first exponent of the Dirichlet-Neumann problem."""
+        return math.pi / (2.0 * self.angle) if self.mixed else math.pi / self.angle
 
     def exponents(self, upto):
         """The corner exponents lambda_k = k pi / angle, k = 1, 2, ..., up to ``upto``.
@@ -172,6 +177,12 @@ class Corner:
         smooth (a polynomial times an entire function) when lambda_k is a whole number, and singular
         otherwise: its derivatives of order > lambda_k blow up at the corner.  A corner where a
         straight side meets an arc (or two arcs meet) is taken with its tangent angle.
+
+        At a ``mixed`` corner (a symmetry wall meeting a wall) the problem is Dirichlet on one
+        side and Neumann on the other for some symmetry classes: r^(mu_k) sin(mu_k theta) with
+        mu_k = (k - 1/2) pi / alpha (Grisvard 1985, section 5.2; from memory), and of one kind
+        for the others (k pi / alpha): together every multiple of pi / (2 alpha), which is what
+        is returned (the one mesh serves every class).
         """
         lam = self.exponent
         return [k * lam for k in range(1, int(upto / lam) + 1)]

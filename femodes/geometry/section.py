@@ -96,6 +96,9 @@ class Section:
     frame : (x0, y0, angle) where the shape's own centre and x axis lie after moves
     materials : tuple of Material, in the order given (a later one wins where two overlap);
                 everywhere else the guide holds the background fill given to ``solve``
+    cuts : the symmetry walls of a reduced section (:func:`femodes.geometry.mirror.reduce`):
+                'x' for a wall on the line x = 0, 'y' for y = 0 (their kind, electric or
+                magnetic, is chosen per symmetry class by the solver); () for a whole section
     """
 
     outer: Loop
@@ -104,6 +107,7 @@ class Section:
     params: dict = field(default_factory=dict, compare=False)
     frame: tuple = (0.0, 0.0, 0.0)
     materials: tuple = ()
+    cuts: tuple = ()
 
     def __post_init__(self):
         trusted = self.params.pop("_valid", False) if isinstance(self.params, dict) else False
@@ -177,8 +181,14 @@ class Section:
         return (float(p[0].min()), float(p[1].min()), float(p[0].max()), float(p[1].max()))
 
     def corners(self):
-        """All corners of all loops (see :class:`Corner`)."""
-        return [c for l in self.loops for c in l.corners()]
+        """All corners of all loops (see :class:`Corner`); those on a symmetry wall (``cuts``)
+        are ``mixed``: their exponents are those of the Dirichlet-Neumann corner too."""
+        out = [c for l in self.loops for c in l.corners()]
+        if self.cuts:
+            tol = 1e-9 * self.size
+            on = [c for c in out if any(abs(c.point[0 if a == "x" else 1]) <= tol for a in self.cuts)]
+            out = [replace(c, mixed=True) if c in on else c for c in out]
+        return out
 
     def reentrant_corners(self):
         return [c for c in self.corners() if c.reentrant]

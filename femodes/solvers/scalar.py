@@ -34,10 +34,12 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.spatial import cKDTree
 
 from femodes.errors import FemodesError
 from femodes.geometry.checks import check_unknowns, lagrange_unknowns, predicted_unknowns
 from femodes.geometry.mesh import mesh_section
+from femodes.geometry.mirror import canonical, mirror_planes, reduce, to_frame, unfold_mesh
 from femodes.geometry.section import Section
 from femodes.solvers.budget import Progress, available_memory, predicted_memory, predicted_time
 from femodes.solvers.discretise import discretise
@@ -99,14 +101,31 @@ class ScalarSolution:
         return self.fine["n_dofs"]
 
 
-def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iterations=6, start_size=None):
+def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iterations=6, start_size=None,
+                 symmetry=False):
     """The accuracy loop of a homogeneously filled Section: TE (Neumann) and TM (Dirichlet)
     eigenvalues kc^2 with Richardson error estimates, and the TEM potentials; see the module
     docstring.  Arguments are checked by the caller (femodes.api.solve).  ``start_size``: an
     element size that met the accuracy on a similar section (a neighbouring sweep point): the loop
     starts from it instead of from the error model, which usually saves the refinement steps; the
-    estimate and the stopping rule are the same."""
+    estimate and the stopping rule are the same.
+
+    ``symmetry``: where the section has mirror planes (:func:`femodes.geometry.symmetry.mirror_planes`)
+    each symmetry class (family x parity of psi under each mirror) is solved on the half or
+    quarter section with its symmetry walls (psi odd: Dirichlet on the cut, even: Neumann), every
+    class in the same accuracy loop on the same reduced meshes (a class whose computed modes all
+    fall among the wanted ones is asked for more: no class can hide a lower mode), and the
+    eigenvectors are unfolded to a mesh of the whole section at the end (:func:`_unfold`)."""
     fams = ("TE", "TM") if family is None else (family,)
+    geom, axes = section, ()
+    if symmetry:
+        axes = mirror_planes(section)
+        red = reduce(canonical(section), axes) if axes else None
+        if red is None:
+            axes = ()
+        else:
+            geom = red
+            fams = _class_keys(fams, axes)
     n_tem = len(section.holes) if family is None else 0
     want = max(0, n_modes - n_tem)
     A = section.area
@@ -122,6 +141,10 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
     # at most half of the lowest modes are TM: the k-th Dirichlet eigenvalue lies above the first
     # k + 1 Neumann ones (Friedlander, Arch. Rational Mech. Anal. 116, 1991)
     counts = {f: (want // 2 + 1 if (f == "TM" and family is None) else want + 1) for f in fams}
+    if axes:  # a share of each family's count per class, with a margin (the loop adds if short)
+        nc = 2 ** len(axes)
+        counts = {f: math.ceil(1.5 * (want // 2 + 1 if (f[:2] == "TM" and family is None) else want + 1) / nc) + 2
+                  for f in fams}
     # corner grading reaches out to about 3 / kc: beyond that the smooth part of the field, not the
     # corner singularity, sets the error (kept fixed through the refinement, so Richardson holds)
     radius = min(section.size, GRADING_REACH / kc_max)
@@ -145,11 +168,11 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
             h = h_coarse / 1.35
         else:
             h_coarse = 1.5 * h
-        coarse = _discrete_solve(section, h_coarse, p, fams, counts, shifts, radius)
+        coarse = _discrete_solve(geom, h_coarse, p, fams, counts, shifts, radius)
         short = _short_families(coarse, want)
         while short:  # rare: a family had all its computed modes among the wanted ones
             counts = {f: c + (max(3, c // 2) if f in short else 0) for f, c in counts.items()}
-            coarse = _discrete_solve(section, h_coarse, p, fams, counts, shifts, radius)
+            coarse = _discrete_solve(geom, h_coarse, p, fams, counts, shifts, radius)
             short = _short_families(coarse, want)
         if family is None and want:
             # ask each family for what the coarse solve found of it among the wanted, plus margin
@@ -160,23 +183,24 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
             # a third, coarsest mesh (cheap): the observed rate of every mode, and a guard against
             # the coarse and fine meshes agreeing by chance (see _merge)
             try:
-                history.append(_eigenvalues(_discrete_solve(section, 1.6 * h_coarse, p, fams, counts,
-                                                            shifts, radius), section if n_tem else None))
+                history.append(_eigenvalues(_discrete_solve(geom, 1.6 * h_coarse, p, fams, counts,
+                                                            shifts, radius), section if n_tem else None, axes, p))
             except FemodesError:  # too coarse for the modes asked: two meshes only
                 pass
-        fine = _discrete_solve(section, h, p, fams, counts, shifts, radius)
+        fine = _discrete_solve(geom, h, p, fams, counts, shifts, radius)
         best = None  # (worst, fine, coarse, merged, tem, h) of the best trusted step so far
         stop = None  # why the loop stopped short of the asked accuracy, for the one warning
         for it in range(max_iterations):
             short = _short_families(fine, want)
             if short:
                 counts = {f: c + (3 if f in short else 0) for f, c in counts.items()}
-                coarse = _discrete_solve(section, coarse["h"], p, fams, counts, shifts, radius)
-                fine = _discrete_solve(section, h, p, fams, counts, shifts, radius)
+                coarse = _discrete_solve(geom, coarse["h"], p, fams, counts, shifts, radius)
+                fine = _discrete_solve(geom, h, p, fams, counts, shifts, radius)
                 continue
             merged = _merge(fine, coarse, p, want, history=history)
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
-            tem = _tem_statics(fine, coarse, p, section, history=history) if n_tem else None
+            tem = _tem_statics(*_wholes(fine, coarse, axes, section, p), p, section,
+                               history=history) if n_tem else None
             worst = max(worst, relative_error(tem))
             trusted = (fine["n_dofs"] >= _MIN_DOF_RATIO * coarse["n_dofs"]
                        and math.sqrt(merged[-1][0]) * coarse["h"] <= _KH_MAX[p]) if merged else True
@@ -221,12 +245,13 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
                 break
             progress.next_mesh(int(n_next))
             h *= shrink
-            history.append(_eigenvalues(coarse, section if n_tem else None))
-            coarse, fine = fine, _discrete_solve(section, h, p, fams, counts, shifts, radius)
+            history.append(_eigenvalues(coarse, section if n_tem else None, axes, p))
+            coarse, fine = fine, _discrete_solve(geom, h, p, fams, counts, shifts, radius)
         else:
             merged = _merge(fine, coarse, p, want, history=history)
             worst = max((e / lam for lam, e, *_ in merged), default=0.0) / 2 * _safety(fine)
-            tem = _tem_statics(fine, coarse, p, section, history=history) if n_tem else None
+            tem = _tem_statics(*_wholes(fine, coarse, axes, section, p), p, section,
+                               history=history) if n_tem else None
             worst = max(worst, relative_error(tem))
         if best is not None and worst > best[0]:
             worst, fine, coarse, merged, tem, h = best
@@ -241,7 +266,93 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
                        "size": f" (the next mesh would exceed {MAX_DOFS} unknowns)"}.get(stop, "")
                 warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached{why}; estimated {worst:.1e} "
                               f"with {fine['n_dofs']} unknowns", RuntimeWarning, stacklevel=2)
-    return ScalarSolution(fine, merged, tem, _safety(fine), p, h)
+    safety = _safety(fine)
+    if axes:
+        fine, merged = _unfold(fine, merged, axes, section, p)
+    return ScalarSolution(fine, merged, tem, safety, p, h)
+def _class_keys(fams, axes):
+    """The symmetry classes of the families: 'TE x even', ... or 'TM x odd y even', ..."""
+    keys = []
+    for f in fams:
+        for par in ([("even",), ("odd",)] if len(axes) == 1 else
+                    [("even", "even"), ("odd", "even"), ("even", "odd"), ("odd", "odd")]):
+            keys.append(f + "".join(f" {a} {q}" for a, q in zip(axes, par)))
+    return tuple(keys)
+
+
+def _whole(res, axes, section, p):
+    """The reduced discrete solve ``res`` mirrored to the whole section (cached in it): the
+    unfolded mesh in the section's place, its discretisation, and for each whole dof the reduced
+    dof at its mirror image in the reduced part with the sign flips per axis (-1 where the dof
+    lies on the far side of that plane)."""
+    if "whole" in res:
+        return res["whole"]
+    canon = canonical(section)
+    mesh = to_frame(unfold_mesh(res["mesh"], axes, canon), section)
+    disc = discretise(mesh.to_skfem(order=max(2, p)), p)
+    x0, y0, th = section.frame
+    c, s = math.cos(th), math.sin(th)
+    xy = disc.basis.doflocs
+    loc = np.array([c * (xy[0] - x0) + s * (xy[1] - y0), -s * (xy[0] - x0) + c * (xy[1] - y0)])
+    far = {}
+    for a in axes:
+        k = 0 if a == "x" else 1
+        far[a] = loc[k] < 0
+        loc[k] = np.abs(loc[k])
+    dist, idx = cKDTree(res["disc"].basis.doflocs.T).query(loc.T)
+    if dist.max() > 1e-7 * section.size:
+        raise RuntimeError(f"unfolding: a dof of the whole mesh has no mirror image ({dist.max():.3g} m off)")
+    res["whole"] = {"mesh": mesh, "disc": disc, "index": idx, "far": far}
+    return res["whole"]
+
+
+def _wholes(fine, coarse, axes, section, p):
+    """The fine and coarse solves as the TEM statics want them: whole discretisations, with the
+    reduced meshes' sizes and rate data (the same view each time: the statics are cached in it)."""
+    if not axes:
+        return fine, coarse
+    out = []
+    for r in (fine, coarse):
+        w = _whole(r, axes, section, p)
+        if "view" not in w:
+            w["view"] = {"disc": w["disc"], "n_dofs": r["n_dofs"], "mesh": r["mesh"],
+                         "grading": r.get("grading", 1.0), "corners": r.get("corners", ()),
+                         "singular": r.get("singular", False)}
+        out.append(w["view"])
+    return out
+
+
+def _unfold(fine, merged, axes, section, p):
+    """The reduced classes' eigenvectors mirrored to the whole section: each column of class
+    key (parity q_a under the mirror of axis a) is x(whole dof) = prod_a (q_a sign if the dof is
+    on the far side) x(reduced dof at its image), divided by sqrt(2^planes) so that the columns
+    stay M-orthonormal on the whole mesh.  Returns the fine solve and merged rows in the
+    unreduced form (families 'TE', 'TM'; columns of the family's arrays)."""
+    w = _whole(fine, axes, section, p)
+    scale = 1.0 / math.sqrt(2.0 ** len(axes))
+    cols = {}
+    per_fam = {}
+    for key in fine["classes"]:
+        fam, odd = _class_of(key)
+        lam, X, res = fine[key]
+        sign = np.ones(len(w["index"]))
+        for a in odd:
+            sign[w["far"][a]] *= -1.0
+        Y = X[w["index"]] * (sign * scale)[:, None]
+        lst = per_fam.setdefault(fam, [])
+        for i in range(len(lam)):
+            lst.append((float(lam[i]), key, i, Y[:, i], float(res[i])))
+    out = {k: v for k, v in fine.items() if k not in fine["classes"] and k not in ("whole",)}
+    for fam, lst in per_fam.items():
+        lst.sort(key=lambda t: t[0])
+        for j, t in enumerate(lst):
+            cols[(t[1], t[2])] = j
+        out[fam] = (np.array([t[0] for t in lst]), np.column_stack([t[3] for t in lst]),
+                    np.array([t[4] for t in lst]))
+    out.update(mesh=w["mesh"], disc=w["disc"], n_dofs=w["disc"].n_dofs, classes=tuple(per_fam),
+               reduced_dofs=fine["n_dofs"], symmetry=tuple(axes))
+    rows = [(r[0], r[1], _class_of(r[2])[0], cols[(r[2], r[3])], r[4]) for r in merged]
+    return out, rows
 
 
 def _roundoff(n_dofs, safety):
@@ -354,40 +465,82 @@ def _discrete_solve(geometry, h, p, fams, counts, shifts, radius=None):
         if isinstance(geometry, Section) else ()
     out = {"mesh": mesh, "disc": disc, "n_dofs": disc.n_dofs, "h": h, "grading": g,
            "singular": bool(corners), "corners": corners}
-    interior = disc.interior()
+    out["classes"] = tuple(fams)
+    cuts = geometry.cuts if isinstance(geometry, Section) else ()
+    walls = _cut_dofs(disc, cuts, geometry.size) if cuts else None
+    found = {}  # the eigenvalues of each family over its classes: the next mesh's shift
     for f in fams:
-        if f == "TM":
-            K, M = restrict(disc.K, interior), restrict(disc.M, interior)
-            k = counts[f]
+        fam, odd = _class_of(f)
+        if walls is None:
+            dirichlet = disc.boundary if fam == "TM" else np.zeros(0, dtype=np.int64)
+        else:
+            parts = [walls[a] for a in odd] + ([walls["wall"]] if fam == "TM" else [])
+            dirichlet = np.unique(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.int64)
+        constant = dirichlet.size == 0  # all Neumann: the constant mode comes too
+        if dirichlet.size:
+            free = np.ones(disc.n_dofs, dtype=bool)
+            free[dirichlet] = False
+            free = np.flatnonzero(free)
+            K, M = restrict(disc.K, free), restrict(disc.M, free)
         else:
             K, M = disc.K, disc.M
-            k = counts[f] + 1  # the constant mode comes too
+        k = counts[f] + (1 if constant else 0)
         n = K.shape[0]
         if n < k + 3:
-            raise FemodesError(f"the mesh is too coarse for {counts[f]} {f} modes ({n} unknowns); "
+            raise FemodesError(f"the mesh is too coarse for {counts[f]} {fam} modes ({n} unknowns); "
                                "ask for fewer modes or a finer mesh")
-        lam, X, res = lowest_eigenpairs(K, M, k, shifts[f], residual_limit=1e-6)
-        _update_shift(shifts, f, lam)
-        if f == "TE":
+        lam, X, res = lowest_eigenpairs(K, M, k, shifts[fam], residual_limit=1e-6)
+        found.setdefault(fam, []).append(lam)
+        if constant:
             drop = int(np.argmin(np.abs(lam)))
             lam, X, res = np.delete(lam, drop), np.delete(X, drop, axis=1), np.delete(res, drop)
         else:
             full = np.zeros((disc.n_dofs, X.shape[1]))
-            full[interior] = X
+            full[free] = X
             X = full
         out[f] = (lam, X, res)
+    for fam, lams in found.items():
+        # over all classes of the family: one class's lowest eigenvalue can lie far above another's
+        # (a TM class odd about both planes), and the shift must stay below every class's lowest
+        _update_shift(shifts, fam, np.sort(np.concatenate(lams)))
     return out
 
 
-def _eigenvalues(result, section=None):
+def _class_of(key):
+    """(family, axes where psi is odd) of a class key: 'TE', 'TM', or e.g. 'TE x odd y even'
+    (the parity of psi = H_z or E_z under the section's mirrors, as the labels name it)."""
+    parts = key.split()
+    return parts[0], tuple(parts[i] for i in range(1, len(parts) - 1, 2) if parts[i + 1] == "odd")
+
+
+def _cut_dofs(disc, cuts, size):
+    """Boundary dofs of a reduced section: {'wall': dofs of the PEC wall facets, axis: dofs of
+    the facets on that symmetry wall} (a dof where a cut meets a wall is in both)."""
+    mesh = disc.basis.mesh
+    bf = mesh.boundary_facets()
+    xy = mesh.p[:, mesh.facets[:, bf]]  # (2, 2, nb)
+    tol = 1e-9 * size
+    out, on_any = {}, np.zeros(len(bf), dtype=bool)
+    for a in cuts:
+        k = 0 if a == "x" else 1
+        on = np.all(np.abs(xy[k]) <= tol, axis=0)
+        on_any |= on
+        out[a] = np.asarray(disc.basis.get_dofs(facets=bf[on]).all(), dtype=np.int64)
+    out["wall"] = np.asarray(disc.basis.get_dofs(facets=bf[~on_any]).all(), dtype=np.int64)
+    return out
+
+
+def _eigenvalues(result, section=None, axes=(), p=None):
     """The part of a discrete solve the error estimate keeps from older meshes (no vectors): the
-    eigenvalues, and with ``section`` (a guide with inner conductors) the conductors' energy
-    products (the gram matrix of :func:`_tem_statics`)."""
-    out = {"n_dofs": result["n_dofs"], **{f: (result[f][0],) for f in ("TE", "TM") if f in result}}
+    eigenvalues of each class, and with ``section`` (a guide with inner conductors) the
+    conductors' energy products (the gram matrix of :func:`_tem_statics`), computed on the whole
+    section (a reduced solve is unfolded for them, :func:`_wholes`)."""
+    out = {"n_dofs": result["n_dofs"], **{f: (result[f][0],) for f in result["classes"]}}
     if section is not None:
-        if "statics" not in result:
-            result["statics"] = conductor_potentials(result["disc"], section)
-        out["gram"] = result["statics"][1]
+        view = _wholes(result, result, axes, section, p)[0] if axes else result
+        if "statics" not in view:
+            view["statics"] = conductor_potentials(view["disc"], section)
+        out["gram"] = view["statics"][1]
     return out
 
 
@@ -414,9 +567,7 @@ def _merge(fine, coarse, p, want, same_mesh=False, history=()):
     s2p = 2.0 if same_mesh else (fine["n_dofs"] / coarse["n_dofs"]) ** (rate / 2)  # s^rate, s = sqrt(N_f/N_c)
     slowest = rate
     rows = []
-    for f in ("TE", "TM"):
-        if f not in fine:
-            continue
+    for f in fine["classes"]:
         lf, _, rf = fine[f]
         lc = coarse[f][0]
         older = history[-1] if history else None
@@ -504,7 +655,7 @@ def _observed_rate(dofs, values, rate, noise):
 
 def _families_of_lowest(result, want):
     """How many of the ``want`` lowest computed modes belong to each family."""
-    vals = sorted((lam, f) for f in ("TE", "TM") if f in result for lam in result[f][0])
+    vals = sorted((lam, f) for f in result["classes"] for lam in result[f][0])
     out = {}
     for _, f in vals[:want]:
         out[f] = out.get(f, 0) + 1
@@ -515,7 +666,7 @@ def _short_families(result, want):
     """Families whose computed modes all fall among the ``want`` lowest: a mode of that family
     just above them could still be lower than the last wanted one, so more must be computed."""
     seen = _families_of_lowest(result, want)
-    return {f for f in ("TE", "TM") if f in result and seen.get(f, 0) >= len(result[f][0])
+    return {f for f in result["classes"] if seen.get(f, 0) >= len(result[f][0])
             and len(result[f][0]) < result["disc"].n_dofs // 4}
 
 

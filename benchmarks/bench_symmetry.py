@@ -1,0 +1,70 @@
+"""Benchmark: the symmetry reduction (issue 12 item 2).
+
+The bundled double-ridge example guide (examples/double_ridge_feed.toml: two mirror planes, so
+four symmetry classes per family, each solved on the quarter section) is solved for 100 modes at
+accuracy 1e-6 with the reduction (the default, ``symmetry=True``) and without it
+(``symmetry=False``), interleaved in the same run, and the script prints the median times, their
+ratio (target: at least 3x), the unknowns of each final mesh, and the largest cutoff difference
+between the two runs measured in their combined error bars (it must stay below 1), with the
+number of modes whose labels differ (exactly degenerate partners may come in either order: the
+labels are compared within each degenerate group).
+
+Speed targets are ratios measured in the same run; nothing here is a timed test.
+
+    python benchmarks/bench_symmetry.py [modes] [accuracy] [repeats]
+"""
+
+from __future__ import annotations
+
+import statistics
+import sys
+import time
+from pathlib import Path
+
+import femodes
+from femodes.case.build import load_case
+
+EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "double_ridge_feed.toml"
+
+
+def groups(ms):
+    """Each mode's degenerate group as a sorted tuple of (label, symmetry) strings."""
+    out = []
+    for m in ms:
+        members = sorted((m.index,) + tuple(m.degenerate_with))
+        out.append(tuple(sorted(f"{ms[i].label} {sorted(ms[i].symmetry.items())}" for i in members
+                                if i < len(ms))))
+    return out
+
+
+def main():
+    modes = int(sys.argv[1]) if len(sys.argv) > 1 else 100
+    accuracy = float(sys.argv[2]) if len(sys.argv) > 2 else 1e-6
+    repeats = int(sys.argv[3]) if len(sys.argv) > 3 else 1
+    section = load_case(EXAMPLE).section
+    times = {True: [], False: []}
+    result = {}
+    for _ in range(repeats):
+        for sym in (False, True):
+            t = time.perf_counter()
+            result[sym] = femodes.solve(section, modes, accuracy=accuracy, symmetry=sym)
+            times[sym].append(time.perf_counter() - t)
+    red, whole = result[True], result[False]
+    worst = max(abs(a.fc - b.fc) / (a.fc_error + b.fc_error) for a, b in zip(red, whole))
+    worst_rel = max(abs(a.fc - b.fc) / b.fc for a, b in zip(red, whole))
+    ga, gb = groups(red), groups(whole)
+    differ = sum(a != b for a, b in zip(ga, gb))
+    tr, tw = statistics.median(times[True]), statistics.median(times[False])
+    print(f"double ridge (examples/double_ridge_feed.toml), {modes} modes at accuracy {accuracy:g}, "
+          f"{repeats} run(s) each, interleaved")
+    print(f"  symmetry=False: {tw:7.2f} s, {whole.n_dofs} unknowns")
+    print(f"  symmetry=True : {tr:7.2f} s, {red.n_dofs} unknowns on the unfolded mesh "
+          f"({red.n_dofs / 4:.0f} per quarter)")
+    print(f"  speed-up {tw / tr:.2f}x (target >= 3x)")
+    print(f"  max |fc difference| / (sum of the two error bars): {worst:.3f} (must be <= 1); "
+          f"max relative difference {worst_rel:.2e}")
+    print(f"  modes whose degenerate group's labels differ: {differ} of {len(red)}")
+
+
+if __name__ == "__main__":
+    main()
