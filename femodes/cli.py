@@ -270,20 +270,31 @@ def _fail(message):
 
 
 def _solve(args):
-    if args.verbose:
-        os.environ["FEMODES_DEBUG"] = "1"
+    if not args.verbose:
+        return _solve_case(args)
+    before = os.environ.get("FEMODES_DEBUG")
+    os.environ["FEMODES_DEBUG"] = "1"  # the solvers' refinement log, for this command only
+    try:
+        return _solve_case(args)
+    finally:
+        if before is None:
+            os.environ.pop("FEMODES_DEBUG", None)
+        else:
+            os.environ["FEMODES_DEBUG"] = before
 
+
+def _solve_case(args):
     case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
                                              fmt=args.format, no_figures=args.no_figures, frequency=args.frequency,
                                              band=args.band, conductor=args.conductor)
     if case.output.figures:
         os.environ.setdefault("MPLBACKEND", "Agg")
         check_figures(case.output)  # fail before a long solve, not after it
-    with warnings.catch_warnings(record=True) as caught:
+    with warnings.catch_warnings(record=True) as caught:  # the analysis's re-solves warn too
         warnings.simplefilter("always")
         study = run_case(case)
+        analysis = analyse(study, case.analysis) if case.analysis is not None else None
     _print_warnings(caught)
-    analysis = analyse(study, case.analysis) if case.analysis is not None else None
     csv_paths = write_csv(study, args.csv, analysis) if args.csv else None
     fields_path = write_fields(study, args.fields) if args.fields else None
     figures = write_figures(study, case.output, analysis)
