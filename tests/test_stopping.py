@@ -9,7 +9,7 @@ import pytest
 
 import femodes
 from femodes.reference.guides import rectangle_modes
-from femodes.solvers import budget, scalar
+from femodes.solvers import backends, budget, scalar
 
 A, B = 22.86e-3, 10.16e-3  # WR-90 (common practice: EIA standard inner dimensions)
 
@@ -52,6 +52,19 @@ def test_budget_model_is_conservative_for_a_small_solve():
     pred = scalar._predicted_dofs(A * B, h, 4)
     assert pred / 1.5 < ms.n_dofs < 1.5 * pred
     assert budget.predicted_memory(1e5) > 1e8  # a few kB per unknown
+
+
+def test_budget_uses_the_backends_measured_costs():
+    # the refusal's memory is the top of the measured band of the backend that would factorise:
+    # SuperLU's fill is larger than the sparse Cholesky's (benchmarks/bench_backend.py)
+    with backends.use("superlu"):
+        lu = budget.predicted_memory(1e6)
+        assert lu == backends.predicted_cost(1e6, "superlu")[1][1]
+        n = budget.fitting_unknowns(lu)
+        assert 0.99e6 < n <= 1e6 * 1.001 and budget.predicted_memory(n) <= lu
+    if "cholespy" in backends.available():
+        with backends.use("cholespy"):
+            assert budget.predicted_memory(1e6) < lu
 
 
 class _Terminal(io.StringIO):

@@ -1,16 +1,19 @@
-"""What a solve will cost, and how far it has come: memory and time per unknown, the memory this
-machine has free, and the progress lines of a long accuracy loop.
+"""What a solve will cost, and how far it has come: memory and time per refinement step, the
+memory this machine has free, and the progress lines of a long accuracy loop.
 
-Cost model (order-4 Lagrange elements on WR-90, SuperLU shift-invert, one thread; measured on the
-2-core development machine, see DEVELOPERS.md): the peak resident memory of one discrete solve
-grows about linearly with the unknowns N (the sparse factor's fill dominates), BYTES_PER_UNKNOWN
-covering the factor, the matrices, the Lanczos basis and the two meshes the loop keeps; the time
-grows a little faster than linearly (SECONDS_PER_UNKNOWN at the reference size, exponent
-TIME_EXPONENT).  These are estimates to refuse what cannot fit, not promises.
+Cost model: the eigen stage's measured costs of the linear-algebra backend that will factorise
+the matrix (:func:`femodes.solvers.backends.predicted_cost`: log-log interpolation of
+time and peak resident memory measured by benchmarks/bench_backend.py, as bands for the noise
+of a shared machine).  Memory: the top of the band (the factor's fill dominates; it covered the
+accuracy loop's measured peak, 4.4-5.0 kB per unknown with SuperLU at 55k-123k unknowns).  Time
+of one refinement step: the middle of the band times STEP_OVER_EIGEN for meshing, assembly and
+the labels (measured: 23 s for a whole step at 123k unknowns against 11.8 s for SuperLU's eigen
+stage at 113k).  These are estimates to refuse what cannot fit, not promises.
 """
 
 from __future__ import annotations
 
+import math
 import sys
 import time
 
@@ -19,14 +22,12 @@ try:  # optional: only where /proc/meminfo is missing
 except ImportError:  # pragma: no cover
     psutil = None
 
-__all__ = ["available_memory", "predicted_memory", "predicted_time", "Progress", "BYTES_PER_UNKNOWN"]
+from femodes.solvers.backends import predicted_cost
 
-# peak resident bytes per unknown of one step of the accuracy loop (measured, rounded up)
-BYTES_PER_UNKNOWN = 5500.0
-# seconds of one step of the accuracy loop at REFERENCE_UNKNOWNS, and its growth exponent (measured)
-SECONDS_PER_UNKNOWN = 2.0e-4
-REFERENCE_UNKNOWNS = 1.0e5
-TIME_EXPONENT = 1.2
+__all__ = ["available_memory", "predicted_memory", "predicted_time", "fitting_unknowns", "Progress", "STEP_OVER_EIGEN"]
+
+#: a whole refinement step (mesh, assembly, eigen stage, labels) over the eigen stage alone (measured)
+STEP_OVER_EIGEN = 2.0
 # measured (2026-12-05, WR-90, p = 4, fixed mesh size, peak RSS above the interpreter's): 55k
 # unknowns 10 modes 4.6 kB / unknown, 8.1 s; 123k 10 modes 4.4 kB, 23 s; 123k 40 modes 5.0 kB, 53 s
 
@@ -46,15 +47,36 @@ def available_memory():
     return float(psutil.virtual_memory().available)
 
 
-def predicted_memory(n_unknowns):
-    """Peak bytes of one accuracy-loop step with ``n_unknowns`` unknowns (the cost model above)."""
-    return BYTES_PER_UNKNOWN * float(n_unknowns)
+def predicted_memory(n_unknowns, modes=10):
+    """Peak bytes of one accuracy-loop step with ``n_unknowns`` unknowns: the top of the measured
+    band of the backend that would factorise it (:func:`~femodes.solvers.backends.predicted_cost`)."""
+    return float(predicted_cost(n_unknowns, modes=modes)[1][1])
 
 
-def predicted_time(n_unknowns):
-    """Seconds of one accuracy-loop step with ``n_unknowns`` unknowns on this kind of machine."""
-    n = float(n_unknowns)
-    return SECONDS_PER_UNKNOWN * REFERENCE_UNKNOWNS * (n / REFERENCE_UNKNOWNS) ** TIME_EXPONENT
+def predicted_time(n_unknowns, modes=10):
+    """Seconds of one accuracy-loop step with ``n_unknowns`` unknowns on this kind of machine: the
+    middle of the backend's measured band for the eigen stage, times :data:`STEP_OVER_EIGEN`."""
+    lo, hi = predicted_cost(n_unknowns, modes=modes)[0]
+    return STEP_OVER_EIGEN * math.sqrt(lo * hi)
+
+
+def fitting_unknowns(nbytes, modes=10):
+    """The largest number of unknowns whose :func:`predicted_memory` stays within ``nbytes``
+    (bisection on the monotone model; 0 if not even a small problem fits)."""
+    lo, hi = 0.0, 1e4
+    if predicted_memory(hi, modes) > nbytes:
+        return 0.0
+    while predicted_memory(hi, modes) <= nbytes and hi < 1e12:
+        lo, hi = hi, 4 * hi
+    for _ in range(60):
+        mid = math.sqrt(lo * hi) if lo > 0 else hi / 2
+        if predicted_memory(mid, modes) <= nbytes:
+            lo = mid
+        else:
+            hi = mid
+        if hi / max(lo, 1.0) < 1.001:
+            break
+    return lo
 
 
 def _gb(nbytes):

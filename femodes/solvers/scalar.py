@@ -41,7 +41,7 @@ from femodes.geometry.checks import check_unknowns, lagrange_unknowns, predicted
 from femodes.geometry.mesh import mesh_section
 from femodes.geometry.mirror import canonical, mirror_planes, reduce, to_frame, unfold_mesh
 from femodes.geometry.section import Section
-from femodes.solvers.budget import Progress, available_memory, predicted_memory, predicted_time
+from femodes.solvers.budget import Progress, available_memory, fitting_unknowns, predicted_memory, predicted_time
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
 from femodes.solvers.electrostatic import Electrostatics, conductor_groups, conductor_potentials, gram_error, relative_error
@@ -240,7 +240,7 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
                 stop = "size"
                 break  # the next mesh would be too large: report what was reached
             avail = available_memory()
-            if avail is not None and predicted_memory(n_next) > avail:
+            if avail is not None and predicted_memory(n_next, max(counts.values())) > avail:
                 stop = "memory"
                 break
             progress.next_mesh(int(n_next))
@@ -373,16 +373,17 @@ def _check_budget(section, accuracy, p, h, n_modes, kc_max):
     if avail is None:
         return
     n = _predicted_dofs(section.area, h, p)
-    need = predicted_memory(n)
+    need = predicted_memory(n, n_modes)
     if need <= avail:
         return
     # the finest mesh that fits, and the accuracy and mode count the model gives it
-    h_fit = math.sqrt(_DOFS_PER_CELL * p * p * section.area * predicted_memory(1) / avail)
+    n_fit = max(fitting_unknowns(avail, n_modes), 1.0)
+    h_fit = math.sqrt(_DOFS_PER_CELL * p * p * section.area / n_fit)
     acc_fit = _ERROR_CONSTANT[p] * (kc_max * h_fit) ** (2 * p) * SAFETY["curved"] / (2 * 0.7)
     modes_fit = max(1, int(n_modes * (h / h_fit) ** 2))
     raise FemodesError(
         f"this solve would need about {n:.2g} unknowns, {need / 1e9:.1f} GB of memory and "
-        f"{predicted_time(n):.0f} s per refinement step (accuracy {accuracy:.0e}, {n_modes} modes), but only "
+        f"{predicted_time(n, n_modes):.0f} s per refinement step (accuracy {accuracy:.0e}, {n_modes} modes), but only "
         f"{avail / 1e9:.1f} GB is available: ask for a looser accuracy (about {min(acc_fit, 0.05):.0e} fits) "
         f"or fewer modes (about {modes_fit} at this accuracy)")
 
