@@ -583,3 +583,36 @@ def test_band_chart_coax_from_zero_and_without_analysis(coax, tmp_path):
     assert "analysis-band" not in {p.get_gid() for p in ax.patches} and "analysis-frequency" not in gids
     with pytest.raises(FemodesError, match="0 < f1 < f2"):
         F.band_chart(coax, band=(5e9, 1e9))
+
+
+@pytest.mark.parametrize("show", ["E", "EH"])
+def test_field_pattern_layout_keeps_every_text_inside_and_apart(rect, coax, show):
+    # the panels and the colour bar are placed by hand (no layout engine): nothing may be cut
+    # off at the figure's edge, and the panels, their tick labels and the colour bar must not
+    # overlap (checked on the drawn figure's own text extents)
+    for ms, mode in ((rect, rect[0]), (coax, coax[1])):
+        fig = F.field_pattern(mode, modeset=ms, show=show)
+        fig.canvas.draw()
+        r = fig.canvas.get_renderer()
+        W, H = fig.bbox.width, fig.bbox.height
+        ticks = {id(t.label1) for a in fig.axes for axis in (a.xaxis, a.yaxis) for t in axis.get_major_ticks()}
+        drawn = [t.label1 for a in fig.axes for axis in (a.xaxis, a.yaxis)  # tick labels inside the view
+                 for t, loc in zip(axis.get_major_ticks(), axis.get_majorticklocs())
+                 if min(axis.get_view_interval()) - 1e-9 <= loc <= max(axis.get_view_interval()) + 1e-9]
+        texts = [t for t in fig.findobj(lambda a: hasattr(a, "get_text") and hasattr(a, "get_window_extent"))
+                 if t.get_visible() and t.get_text().strip() and id(t) not in ticks] + drawn
+        assert len(texts) > 10
+        for t in texts:
+            b = t.get_window_extent(r)
+            assert b.x0 >= -1 and b.y0 >= -1 and b.x1 <= W + 1 and b.y1 <= H + 1, t.get_text()
+        axes = fig.axes
+        boxes = [a.get_window_extent(r) for a in axes]
+        for i in range(len(boxes)):
+            for j in range(i + 1, len(boxes)):
+                assert not boxes[i].overlaps(boxes[j]), (axes[i], axes[j])
+        panels, bar = axes[:-1], axes[-1]
+        for a in panels:  # a panel's y tick labels stay left of the panel and right of the one before
+            for lab in a.get_yticklabels():
+                if lab.get_text():
+                    assert lab.get_window_extent(r).x1 <= a.get_window_extent(r).x0 + 1
+        assert bar.get_window_extent(r).x0 > max(a.get_window_extent(r).x1 for a in panels)

@@ -46,11 +46,11 @@ def safe_name(label):
     return s or "mode"
 
 
-def _new_figure(width, height):
+def _new_figure(width, height, layout="compressed"):
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(width, height), layout="compressed")
+    fig = Figure(figsize=(width, height), layout=layout)
     FigureCanvasAgg(fig)
     # a notebook shows the figure as an image by itself: our figures never touch pyplot, so
     # IPython's inline-backend formatter for Figures is not always registered
