@@ -7,8 +7,8 @@ Three parts, each backend in its own runs (one BLAS thread everywhere):
    - assembly: femodes' vectorised assembly against scikit-fem's quadrature path (the previous code,
      kept as ``discretise_skfem``), time and peak memory;
    - eigen: factorisation of K - sigma M plus shift-invert Lanczos, every installed backend in one
-     process, interleaved (round after round; best of 3 below 5e4 unknowns), ratio to SuperLU; from
-     1e5 unknowns each backend again in its own process for its peak memory.
+     process, interleaved (round after round; best of 3 below 5e4 unknowns), ratio to SuperLU;
+     then each backend again in its own process for its peak memory.
 2. ``whole``: the whole solve at about 1e6 unknowns, 10 TE modes: meshing (gmsh), assembly, eigen,
    each backend in its own process: time per stage and the process's peak memory.
 3. ``loaded``: the full-vector problem of WR-90 with a dielectric slab (eps_r 2.25) on its bottom
@@ -148,7 +148,8 @@ def spd(names, largest=1e6):
     from femodes.geometry.mesh import mesh_section
 
     print("\n== 1. SPD pencils: WR-90, P4, 10 TE modes; factor+eigen in s (all backends in one process, "
-          "interleaved, best of 3 below 5e4 unknowns); peak = VmHWM of a process running that backend alone")
+          "interleaved, best of 3 below 5e4 unknowns); peak = VmHWM of a process running that backend alone, "
+          "whose time is printed as 'alone'")
     sec = femodes.rectangle(A, B)
     with tempfile.TemporaryDirectory() as tmp:
         for target in [s for s in SIZES if s <= largest]:
@@ -165,7 +166,7 @@ def spd(names, largest=1e6):
             if "error" in both:
                 print(f"~{target:.0e}: failed: {both['error']}")
                 break
-            alone = {name: _run(CHILD, f, name, 1) for name in names} if target >= 1e5 else {}
+            alone = {name: _run(CHILD, f, name, 1) for name in names}
             ref = both["superlu"]
             exact = math.pi / A
             print(f"\n{both['n']} unknowns (nnz(K) {both['nnz']}), mesh {t_mesh:.2f} s; TE10 kc error "

@@ -58,10 +58,17 @@ _INSTALL = {"cholespy": "pip install cholespy", "pardiso": "pip install 'femodes
 
 #: unknowns from which an SPD matrix goes to cholespy under "auto" (measured crossover, see module doc)
 CHOLESPY_MIN = 500
-#: unknowns from which an SPD matrix goes to PARDISO under "auto", when installed (measured crossover)
-PARDISO_SPD_MIN = 10 ** 9
-#: unknowns from which a symmetric indefinite or unsymmetric matrix goes to PARDISO under "auto"
-PARDISO_INDEFINITE_MIN = 10 ** 9
+#: unknowns from which an SPD matrix goes to PARDISO under "auto", when installed.  Measured
+#: (benchmarks/bench_backend.py, WR-90 P4, 10 modes, one thread, interleaved runs on a busy 2-core
+#: machine), factor + eigensolve, cholespy / PARDISO: 2.3e4 0.75 / 0.74 s, 4.5e4 1.22 / 1.26 s,
+#: 7.9e4 3.27 / 3.17 s, 1.7e5 9.0 / 8.9 s (ties within the noise), 3.4e5 32.0 / 29.3 s (1.09x),
+#: 1.12e6 176 / 110 s (1.6x); peak memory the same within 2 % at every size.
+PARDISO_SPD_MIN = 150_000
+#: unknowns from which a symmetric indefinite or unsymmetric matrix goes to PARDISO under "auto".
+#: Measured on the loaded guide's operator (WR-90, slab eps_r 2.25, order 3, 4 modes at 13 GHz),
+#: SuperLU / PARDISO, best of 5 interleaved: 949 unknowns 1.04x, 3.3e3 0.97x, 5.5e3 1.10x, 9.6e3
+#: 1.32x, 1.9e4 1.42x, 2.9e4 2.2x, 9.4e4 2.4x.
+PARDISO_INDEFINITE_MIN = 5_000
 
 _ENV = "FEMODES_BACKEND"
 _override: ContextVar[str | None] = ContextVar("femodes_backend", default=None)
