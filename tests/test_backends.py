@@ -171,6 +171,7 @@ def test_pardiso_releases_its_memory(pencil, mkl):
     f = backends.factorize(Asp, spd=True, backend="pardiso")
     held = mkl.memory_in_use() - before
     assert held > 8 * f.nnz  # at least the factor's values (8 bytes each) are MKL's
+    assert backends.predicted_cost(Asp.shape[0], "pardiso")[1][1] > held  # the memory band holds the factor
     f.release()
     assert mkl.memory_in_use() - before < 0.01 * held
     with pytest.raises(RuntimeError, match="released"):

@@ -237,6 +237,11 @@ MEASURED_COSTS = {
                 (335445, 29.0, 1305), (1120685, 114.5, 4329)),
     "cholespy": ((2493, 0.021, 96), (11421, 0.092, 126), (22717, 0.23, 160), (112681, 5.45, 395),
                  (335445, 19.9, 950), (1120685, 85.9, 2836)),
+    # 2026-12-05, the same script on a busier machine (load 2-9): the 1.12e6 row is the whole solve's
+    # process (meshing and assembly included, as peak memory an upper bound; SuperLU and cholespy took
+    # 185 and 176 s in the same runs), the small sizes' peaks carry MKL's libraries (+14 MB)
+    "pardiso": ((2493, 0.068, 113), (11421, 0.305, 136), (22717, 0.865, 164), (112681, 7.31, 397),
+                (335445, 29.3, 974), (1120685, 109.8, 2950)),
 }
 #: spread of the same case between runs on the shared machine (0.41 s and 1.30 s at 2.3e4 unknowns;
 #: SuperLU at 1.1e6: 114 s in this table, on a load of 4.5 on 2 cores, and 30-45 s on a quieter
