@@ -269,3 +269,13 @@ def test_auto_takes_pardiso_only_above_its_measured_crossovers(mkl):
     assert backends.choose(backends.PARDISO_SPD_MIN - 1, spd=True, backend="auto") != "pardiso"
     assert backends.choose(backends.PARDISO_INDEFINITE_MIN, spd=False, backend="auto") == "pardiso"
     assert backends.choose(backends.PARDISO_INDEFINITE_MIN - 1, spd=False, backend="auto") == "superlu"
+    # a saddle point (zero diagonal block) stays with SuperLU under auto: measured slower with PARDISO
+    assert backends.choose(10 ** 6, spd=False, backend="auto", saddle=True) == "superlu"
+    n = backends.PARDISO_INDEFINITE_MIN
+    T = sp.diags([-np.ones(n - 1), 4 * np.ones(n), -np.ones(n - 1)], [-1, 0, 1])  # positive definite
+    S = sp.bmat([[T, sp.identity(n)], [sp.identity(n), None]], format="csc")  # zero (2, 2) block
+    assert backends.factorize(S, backend="auto").backend == "superlu"
+    # inertia (n, n): T positive definite, its Schur complement -T^-1 negative definite (Sylvester)
+    f = backends.factorize(S, backend="pardiso", symmetric=True, inertia=(n, n))
+    b = np.ones(2 * n)
+    assert f.backend == "pardiso" and np.linalg.norm(S @ f.solve(b) - b) < 1e-12 * np.linalg.norm(b)

@@ -19,7 +19,8 @@ solves per iteration.  Which library does that fastest depends on the matrix:
 
 Choice (``backend="auto"``, the default): SPD matrices go to pardiso from ``PARDISO_SPD_MIN``
 unknowns when it is installed, else to cholespy from ``CHOLESPY_MIN``, else SuperLU; indefinite
-ones to pardiso from ``PARDISO_INDEFINITE_MIN`` unknowns when installed, else SuperLU.  The
+ones to pardiso from ``PARDISO_INDEFINITE_MIN`` unknowns when installed (saddle points, with zeros on
+the diagonal, excepted), else SuperLU.  The
 crossovers are measured (``benchmarks/bench_backend.py`` and WR-90 / rectangle pencils, P3-P4, 10
 modes, one thread): cholespy was 1.1-1.35x faster than SuperLU from 500 to 2e4 unknowns and 2x at
 1e5; at 190 unknowns the two tied (about 20 ms, ARPACK's own work), so below CHOLESPY_MIN SuperLU
@@ -67,7 +68,9 @@ PARDISO_SPD_MIN = 150_000
 #: unknowns from which a symmetric indefinite or unsymmetric matrix goes to PARDISO under "auto".
 #: Measured on the loaded guide's operator (WR-90, slab eps_r 2.25, order 3, 4 modes at 13 GHz),
 #: SuperLU / PARDISO, best of 5 interleaved: 949 unknowns 1.04x, 3.3e3 0.97x, 5.5e3 1.10x, 9.6e3
-#: 1.32x, 1.9e4 1.42x, 2.9e4 2.2x, 9.4e4 2.4x.
+#: 1.32x, 1.9e4 1.42x, 2.9e4 2.2x, 9.4e4 2.4x.  Saddle-point matrices (zeros on the diagonal: the
+#: loaded guide's cutoff problem) stay with SuperLU: there PARDISO needs weighted matching, whose
+#: factorisation took 2.6 s against SuperLU's 1.4-2.3 s at 9e4 unknowns (cutoffs 0.7-0.76x; a tie at 1e4-3e4).
 PARDISO_INDEFINITE_MIN = 5_000
 
 _ENV = "FEMODES_BACKEND"
@@ -128,11 +131,12 @@ def use(name):
         _override.reset(token)
 
 
-def choose(n, spd, backend=None):
-    """The backend that factorises an n x n matrix (``spd``: known symmetric positive definite)."""
+def choose(n, spd, backend=None, saddle=False):
+    """The backend that factorises an n x n matrix (``spd``: known symmetric positive definite;
+    ``saddle``: indefinite with zeros on the diagonal, which "auto" leaves to SuperLU)."""
     name = _check(backend, "backend argument") if backend is not None else requested()
     if name == "auto":
-        if n >= (PARDISO_SPD_MIN if spd else PARDISO_INDEFINITE_MIN) and _has_pardiso():
+        if not saddle and n >= (PARDISO_SPD_MIN if spd else PARDISO_INDEFINITE_MIN) and _has_pardiso():
             return "pardiso"
         return "cholespy" if spd and n >= CHOLESPY_MIN and _has_cholespy() else "superlu"
     if name == "cholespy" and not spd:
@@ -212,7 +216,8 @@ def factorize(A, spd=False, backend=None, symmetric=None, inertia=None):
     inertia, SuperLU factorises it instead (a line on stderr when FEMODES_DEBUG is set).
     """
     n = A.shape[0]
-    name = choose(n, spd, backend)
+    saddle = not spd and bool(np.any(A.diagonal() == 0))
+    name = choose(n, spd, backend, saddle)
     if name == "cholespy":
         try:
             return _cholespy(A)
