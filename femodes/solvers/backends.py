@@ -67,10 +67,12 @@ CHOLESPY_MIN = 500
 PARDISO_SPD_MIN = 150_000
 #: unknowns from which a symmetric indefinite or unsymmetric matrix goes to PARDISO under "auto".
 #: Measured on the loaded guide's operator (WR-90, slab eps_r 2.25, order 3, 4 modes at 13 GHz),
-#: time with SuperLU / time with PARDISO, best of 5 interleaved: 949 unknowns 0.76x, 2.1e3 1.02x,
-#: 3.3e3 1.06x, 5.5e3 1.29x, 9.6e3 1.58x; best of 2: 2.9e4 2.5x, 9.4e4 2.6x (10.3 vs 3.95 s).  Saddle-point matrices (zeros on the diagonal: the
-#: loaded guide's cutoff problem) stay with SuperLU: there PARDISO needs weighted matching, whose
-#: factorisation took 2.6 s against SuperLU's 1.4-2.3 s at 9e4 unknowns (cutoffs 0.7-0.76x; a tie at 1e4-3e4).
+#: time with SuperLU / time with PARDISO, best of 5 interleaved: 949 unknowns 1.04x, 3.3e3 0.97x,
+#: 5.5e3 1.10x, 9.6e3 1.32x, 1.9e4 1.42x; best of 2: 2.9e4 2.2x, 9.4e4 2.4x and 2.6x (two runs;
+#: 9.58 vs 3.97 s, 8.94 vs 3.47 s).
+#: Saddle-point matrices (zeros on the diagonal: the loaded guide's cutoff problem) stay with
+#: SuperLU: there PARDISO needs weighted matching, whose factorisation took 2.6 s against SuperLU's
+#: 1.4-2.3 s at 9e4 unknowns (cutoffs 0.7-1.0x; 0.9-1.1x at 3e3-3e4).
 PARDISO_INDEFINITE_MIN = 5_000
 
 _ENV = "FEMODES_BACKEND"

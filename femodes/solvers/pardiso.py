@@ -162,16 +162,18 @@ def _debug(msg):
 class PardisoFactor:
     """PARDISO's factorisation of the square sparse matrix A (phase 12, once).
 
-    PardisoFactor(A, mtype, inertia=None): ``mtype`` 2 (SPD), -2 (symmetric indefinite) or 11
-    (unsymmetric); ``inertia`` (positive, negative) eigenvalue counts A must have, checked for
-    mtype -2 (InertiaMismatch if they differ, the handle freed).  Attributes: ``nnz`` (entries of
+    PardisoFactor(A, mtype, inertia=None, matching=None, refinement=0): ``mtype`` 2 (SPD), -2
+    (symmetric indefinite) or 11 (unsymmetric); ``inertia`` (positive, negative) eigenvalue counts A
+    must have, checked for mtype -2 (InertiaMismatch if they differ, the handle freed);
+    ``matching`` scaling + weighted matching (None: for the indefinite types); ``refinement`` steps
+    of iterative refinement per solve (0: PARDISO's default).  Attributes: ``nnz`` (entries of
     the factor, PARDISO's count), ``inertia`` (PARDISO's (positive, negative) for mtype -2, else
     None), ``perturbed`` (pivots PARDISO perturbed), ``memory`` (bytes PARDISO reported for the
     analysis peak and the factor).  PardisoError if PARDISO fails (code -4 for an mtype-2 matrix
     that is not positive definite).
     """
 
-    def __init__(self, A, mtype, inertia=None):
+    def __init__(self, A, mtype, inertia=None, matching=None, refinement=0):
         lib = load()
         if lib is None:
             raise RuntimeError("MKL's runtime library (libmkl_rt) cannot be loaded")
@@ -199,13 +201,14 @@ class PardisoFactor:
         iparm = np.zeros(64, dtype=np.int32)
         iparm[0] = 1    # iparm set here, not PARDISO's defaults
         iparm[1] = 2    # nested-dissection ordering (METIS)
-        iparm[7] = 0    # iterative refinement: PARDISO's default (2 steps when pivots were perturbed)
+        iparm[7] = refinement  # iterative refinement steps (0: PARDISO's default, 2 when pivots were perturbed)
         iparm[9] = 13 if mtype == 11 else 8   # pivot perturbation 1e-13 (LU) / 1e-8 (symmetric)
-        # scaling and weighted matching: always for LU; for L D L^T only where the diagonal has zeros
-        # (a saddle point: without them 19886 of 89707 pivots of the loaded cutoffs' matrix were
-        # perturbed and each solve paid 2 refinement steps, 3x; where the diagonal is full they only
-        # slowed the factorisation, 0.93 vs 0.75 s on the loaded operator at 9e4, no pivot perturbed)
-        matching = mtype == 11 or (mtype == -2 and bool(np.any(A.diagonal() == 0)))
+        # scaling and weighted matching for the indefinite types.  Without them 19886 of 89707 pivots
+        # of the loaded cutoffs' saddle point were perturbed (each solve then paid 2 refinement steps,
+        # 3x), and on the loaded operator of a graded L-shaped mesh (no pivot perturbed) the modes'
+        # discrete Gauss law held to 1e-7 instead of 1.7e-9 (SuperLU 1.5e-9): the solves lose digits
+        if matching is None:
+            matching = mtype in (11, -2)
         iparm[10] = iparm[12] = 1 if matching else 0
         iparm[17] = -1  # report the factor's entries
         iparm[34] = 1   # 0-based indices
