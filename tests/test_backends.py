@@ -9,6 +9,7 @@ import math
 
 import numpy as np
 import pytest
+import scipy.sparse as sp
 import skfem
 
 import femodes
@@ -76,7 +77,9 @@ def test_auto_uses_superlu_below_the_crossover_and_cholesky_above():
     assert backends.choose(backends.CHOLESPY_MIN - 1, spd=True, backend="auto") == "superlu"
     want = "cholespy" if "cholespy" in backends.available() else "superlu"
     assert backends.choose(backends.CHOLESPY_MIN, spd=True, backend="auto") == want
-    assert backends.choose(10 ** 6, spd=False, backend="auto") == "superlu"
+    # indefinite: SuperLU, or PARDISO's L D L^T when installed (its crossover is tested below)
+    assert backends.choose(10 ** 6, spd=False, backend="auto") == ("pardiso" if "pardiso" in backends.available()
+                                                                    else "superlu")
 
 
 def test_unknown_backend_names_the_valid_ones(monkeypatch):
@@ -114,3 +117,165 @@ def test_predicted_cost_is_a_growing_band_that_holds_the_factor():
     assert backends.predicted_cost(d.n_dofs, "superlu")[1][1] > 12 * f.nnz
     with pytest.raises(FemodesError, match="positive"):
         backends.predicted_cost(0)
+
+
+# -- MKL PARDISO (optional: pip install 'femodes[mkl]'); skipped where the library cannot be loaded --------
+from femodes.solvers import pardiso as pardiso_mod  # noqa: E402
+
+
+@pytest.fixture
+def mkl():
+    if pardiso_mod.load() is None:
+        pytest.skip("MKL PARDISO is not installed (pip install 'femodes[mkl]', x86-64 only)")
+    return pardiso_mod
+
+
+@pytest.fixture
+def phases(mkl, monkeypatch):
+    """Every PARDISO call's (mtype, phase), in order."""
+    seen = []
+    real = mkl.call
+
+    def spy(lib, pt, mtype, phase, *a, **k):
+        seen.append((mtype, phase))
+        return real(lib, pt, mtype, phase, *a, **k)
+
+    monkeypatch.setattr(mkl, "call", spy)
+    return seen
+
+
+def test_pardiso_factorises_once_and_solves_many_times(pencil, phases):
+    Asp = (pencil.K + pencil.M).tocsr()  # SPD
+    rng = np.random.default_rng(1)
+    f = backends.factorize(Asp, spd=True, backend="pardiso")
+    assert f.backend == "pardiso"
+    for _ in range(4):
+        b = rng.standard_normal(Asp.shape[0])
+        assert np.linalg.norm(Asp @ f.solve(b) - b) < 1e-10 * np.linalg.norm(b)
+    B = rng.standard_normal((Asp.shape[0], 3))
+    assert np.linalg.norm(Asp @ f.solve(B) - B) < 1e-10 * np.linalg.norm(B)
+    # one analysis + factorisation (phase 12), then only solves on the stored factor (phase 33)
+    assert phases == [(2, 12)] + [(2, 33)] * 5
+    f.release()
+    assert phases[-1] == (2, -1)
+    # a whole shift-invert eigensolve: one factorisation for hundreds of solves
+    phases.clear()
+    with backends.use("pardiso"):
+        lowest_eigenpairs(pencil.K, pencil.M, 6, -0.5 * (math.pi / A) ** 2)
+    assert phases.count((2, 12)) == 1 and phases.count((2, 33)) > 10
+
+
+def test_pardiso_releases_its_memory(pencil, mkl):
+    Asp = (pencil.K + pencil.M).tocsr()
+    before = mkl.memory_in_use()
+    f = backends.factorize(Asp, spd=True, backend="pardiso")
+    held = mkl.memory_in_use() - before
+    assert held > 8 * f.nnz  # at least the factor's values (8 bytes each) are MKL's
+    assert backends.predicted_cost(Asp.shape[0], "pardiso")[1][1] > held  # the memory band holds the factor
+    f.release()
+    assert mkl.memory_in_use() - before < 0.01 * held
+    with pytest.raises(RuntimeError, match="released"):
+        f.solve(np.ones(Asp.shape[0]))
+    # a factor that is simply dropped is freed by its finaliser
+    g = mkl.PardisoFactor(Asp, 2)
+    assert mkl.memory_in_use() - before > 8 * g.nnz
+    del g
+    assert mkl.memory_in_use() - before < 0.01 * held
+
+
+def test_pardiso_inertia_counts_the_eigenvalues_below_the_shift(mkl):
+    # Dirichlet Laplacian of the 2 x 1 rectangle: eigenvalues (m pi / 2)^2 + (n pi)^2 = 12.34, 19.74, 32.08,
+    # 44.41, ... (Pozar sec. 3.3, the TM cutoffs).  K - 26 M has exactly two negative eigenvalues (Sylvester's
+    # law of inertia: as many as the pencil has below 26; the P3 values lie within 1e-5 of the closed form).
+    mesh = skfem.MeshTri.init_tensor(np.linspace(0, A, 21), np.linspace(0, B, 11))
+    d = discretise(mesh, 3)
+    idx = d.interior()
+    K, M = restrict(d.K, idx), restrict(d.M, idx)
+    n = K.shape[0]
+    shifted = (K - 26.0 * M).tocsr()
+    f = backends.factorize(shifted, spd=False, backend="pardiso", symmetric=True, inertia=(n - 2, 2))
+    assert f.backend == "pardiso" and f.inertia == (n - 2, 2)
+    b = np.ones(n)
+    assert np.linalg.norm(shifted @ f.solve(b) - b) < 1e-9 * np.linalg.norm(b)
+    # a factorisation that contradicts the expected inertia is not used: SuperLU takes over
+    g = backends.factorize(shifted, spd=False, backend="pardiso", symmetric=True, inertia=(n - 1, 1))
+    assert g.backend == "superlu"
+    # an SPD claim PARDISO's Cholesky disproves falls back the same way
+    assert backends.factorize(shifted, spd=True, backend="pardiso").backend == "superlu"
+
+
+def test_pardiso_solves_an_unsymmetric_matrix(pencil, mkl):
+    Asp = (pencil.K + pencil.M).tocsr()
+    Asp = (Asp + 0.1 * abs(Asp).max() * sp.diags(np.ones(Asp.shape[0] - 1), 1)).tocsr()  # unsymmetric
+    f = backends.factorize(Asp, spd=False, backend="pardiso")
+    b = np.arange(Asp.shape[0], dtype=float)
+    assert f.backend == "pardiso" and f.inertia is None
+    assert np.linalg.norm(Asp @ f.solve(b) - b) < 1e-10 * np.linalg.norm(b)
+
+
+def test_pardiso_cutoffs_of_the_rectangle_agree_with_superlu_within_error_bars(mkl):
+    # WR-90 cutoffs, closed form kc = sqrt((m pi / a)^2 + (n pi / b)^2) (Pozar sec. 3.3), computed on meshes
+    # large enough (accuracy 1e-9) that auto would take a sparse Cholesky
+    a, b = 22.86e-3, 10.16e-3
+    got = {}
+    for name in ("superlu", "pardiso"):
+        with backends.use(name):
+            got[name] = femodes.solve(femodes.rectangle(a, b), modes=5, accuracy=1e-9)
+    exact = {(m, n): 299792458.0 / 2 * math.hypot(m / a, n / b) for m in range(4) for n in range(3)}
+    for p, s in zip(got["pardiso"], got["superlu"]):
+        assert p.label == s.label
+        assert abs(p.fc - s.fc) <= p.fc_error + s.fc_error
+        m, n = (int(c) for c in p.label[2:4])
+        assert abs(p.fc - exact[(m, n)]) <= p.fc_error, p.label
+
+
+def test_pardiso_slab_loaded_guide_matches_the_lse_lsm_values(phases, monkeypatch):
+    # WR-90 with an eps_r = 2.25 slab on its bottom half: LSE / LSM transverse resonance (Collin, Field Theory of
+    # Guided Waves, ch. 6), femodes.reference.slab_on_wall_modes
+    from femodes import reference as ref
+
+    a, b, f = 22.86e-3, 10.16e-3, 13e9
+    guide = femodes.rectangle(a, b).with_material(femodes.rectangle(a, b / 2).translated(0, -b / 4), eps_r=2.25)
+    want = ref.slab_on_wall_modes(a, b, b / 2, 2.25, f, 4)
+    fallbacks = []
+    real = backends._superlu
+    monkeypatch.setattr(backends, "_superlu", lambda A: fallbacks.append(A.shape) or real(A))
+    got = {}
+    for name in ("pardiso", "superlu"):
+        with backends.use(name):
+            got[name] = femodes.solve(guide, modes=4, frequency=f, accuracy=1e-5)
+        if name == "pardiso":
+            # every factorisation was PARDISO's L D L^T (mtype -2), its inertia the expected one
+            assert fallbacks == [] and phases.count((-2, 12)) >= 2
+    for p, s, r in zip(got["pardiso"], got["superlu"], want):
+        assert abs(p.beta() - r.beta) <= p.beta_error, (p.label, r.label)
+        assert abs(p.beta() - s.beta()) <= p.beta_error + s.beta_error
+
+
+def test_pardiso_asked_for_but_not_installed_is_refused(monkeypatch):
+    monkeypatch.setattr(pardiso_mod, "load", lambda: None)
+    monkeypatch.setenv("FEMODES_BACKEND", "pardiso")
+    with pytest.raises(FemodesError, match=r"'pardiso'.*not installed.*valid names: auto, superlu, cholespy, pardiso"
+                                           r".*femodes\[mkl\]"):
+        femodes.solve(femodes.rectangle(22.86e-3, 10.16e-3), modes=1, accuracy=1e-3)
+    monkeypatch.setenv("FEMODES_BACKEND", "auto")
+    assert "pardiso" not in backends.available()
+    assert backends.choose(10 ** 6, spd=True) == ("cholespy" if "cholespy" in backends.available() else "superlu")
+    assert backends.choose(10 ** 6, spd=False) == "superlu"
+
+
+def test_auto_takes_pardiso_only_above_its_measured_crossovers(mkl):
+    assert backends.choose(backends.PARDISO_SPD_MIN, spd=True, backend="auto") == "pardiso"
+    assert backends.choose(backends.PARDISO_SPD_MIN - 1, spd=True, backend="auto") != "pardiso"
+    assert backends.choose(backends.PARDISO_INDEFINITE_MIN, spd=False, backend="auto") == "pardiso"
+    assert backends.choose(backends.PARDISO_INDEFINITE_MIN - 1, spd=False, backend="auto") == "superlu"
+    # a saddle point (zero diagonal block) stays with SuperLU under auto: measured slower with PARDISO
+    assert backends.choose(10 ** 6, spd=False, backend="auto", saddle=True) == "superlu"
+    n = backends.PARDISO_INDEFINITE_MIN
+    T = sp.diags([-np.ones(n - 1), 4 * np.ones(n), -np.ones(n - 1)], [-1, 0, 1])  # positive definite
+    S = sp.bmat([[T, sp.identity(n)], [sp.identity(n), None]], format="csc")  # zero (2, 2) block
+    assert backends.factorize(S, backend="auto").backend == "superlu"
+    # inertia (n, n): T positive definite, its Schur complement -T^-1 negative definite (Sylvester)
+    f = backends.factorize(S, backend="pardiso", symmetric=True, inertia=(n, n))
+    b = np.ones(2 * n)
+    assert f.backend == "pardiso" and np.linalg.norm(S @ f.solve(b) - b) < 1e-12 * np.linalg.norm(b)

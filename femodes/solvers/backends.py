@@ -10,23 +10,35 @@ solves per iteration.  Which library does that fastest depends on the matrix:
              semi-definite, M positive definite and sigma < 0.  A Cholesky factor L L^T holds about
              half the entries of an LU factor of the same matrix, and the supernodal factorisation
              is faster where it has dense blocks to work on.
+``pardiso``  MKL PARDISO through ctypes (:mod:`femodes.solvers.pardiso`), optional: ``pip install
+             'femodes[mkl]'`` (x86-64; the ``mkl`` wheel, about 1 GB).  Cholesky for SPD matrices,
+             L D L^T with Bunch-Kaufman pivots for symmetric indefinite ones (the loaded guide's
+             operator, whose inertia is then checked against the one the caller derived), LU for
+             unsymmetric ones.  Factorised once, solved many times on the stored factor; its memory
+             is freed (PARDISO's phase -1) when the factor is released or collected.
 
-Choice (``backend="auto"``, the default): cholespy for SPD matrices of at least ``CHOLESPY_MIN``
-unknowns when it is installed, SuperLU otherwise.  The crossover is measured
-(``benchmarks/bench_backend.py`` and WR-90 / rectangle pencils, P3-P4, 10 modes, one thread): cholespy
-was 1.1-1.35x faster from 500 to 2e4 unknowns and 2x at 1e5; at 190 unknowns the two tied (about
-20 ms, ARPACK's own work), so below CHOLESPY_MIN SuperLU keeps the small problems.  A Cholesky factorisation that finds
-the matrix is not positive definite falls back to SuperLU (it never silently returns a wrong solve).
+Choice (``backend="auto"``, the default): SPD matrices go to pardiso from ``PARDISO_SPD_MIN``
+unknowns when it is installed, else to cholespy from ``CHOLESPY_MIN``, else SuperLU; indefinite
+ones to pardiso from ``PARDISO_INDEFINITE_MIN`` unknowns when installed (saddle points, with zeros on
+the diagonal, excepted), else SuperLU.  The
+crossovers are measured (``benchmarks/bench_backend.py`` and WR-90 / rectangle pencils, P3-P4, 10
+modes, one thread): cholespy was 1.1-1.35x faster than SuperLU from 500 to 2e4 unknowns and 2x at
+1e5; at 190 unknowns the two tied (about 20 ms, ARPACK's own work), so below CHOLESPY_MIN SuperLU
+keeps the small problems.  PARDISO's crossovers: see the constants.  A Cholesky factorisation that
+finds the matrix is not positive definite, or a PARDISO factorisation that fails or shows the wrong
+inertia, falls back to SuperLU (it never silently returns a wrong solve).
 
 Overrides, strongest first: :func:`use` (a context manager, e.g. ``with use("superlu"): solve(...)``),
-then the environment variable ``FEMODES_BACKEND`` (``auto``, ``superlu`` or ``cholespy``).  An unknown
-name, or a backend that is not installed, raises FemodesError naming the valid ones.
+then the environment variable ``FEMODES_BACKEND`` (``auto``, ``superlu``, ``cholespy`` or
+``pardiso``).  An unknown name, or a backend that is not installed, raises FemodesError naming the
+valid ones.
 """
 
 from __future__ import annotations
 
 import math
 import os
+import sys
 from contextlib import contextmanager
 from contextvars import ContextVar
 
@@ -34,14 +46,34 @@ import numpy as np
 from scipy.sparse.linalg import splu
 
 from femodes.errors import FemodesError
+from femodes.solvers import pardiso as _pardiso
 
-__all__ = ["BACKENDS", "CHOLESPY_MIN", "Factor", "available", "choose", "factorize", "predicted_cost", "use"]
+__all__ = ["BACKENDS", "CHOLESPY_MIN", "PARDISO_INDEFINITE_MIN", "PARDISO_SPD_MIN", "Factor", "available", "choose",
+           "factorize", "predicted_cost", "use"]
 
 #: every backend name femodes knows ("auto" picks among the installed ones)
-BACKENDS = ("superlu", "cholespy")
+BACKENDS = ("superlu", "cholespy", "pardiso")
+
+#: how to install each optional backend
+_INSTALL = {"cholespy": "pip install cholespy", "pardiso": "pip install 'femodes[mkl]', x86-64 only"}
 
 #: unknowns from which an SPD matrix goes to cholespy under "auto" (measured crossover, see module doc)
 CHOLESPY_MIN = 500
+#: unknowns from which an SPD matrix goes to PARDISO under "auto", when installed.  Measured
+#: (benchmarks/bench_backend.py, WR-90 P4, 10 modes, one thread, interleaved runs on a busy 2-core
+#: machine), factor + eigensolve, cholespy / PARDISO: 2.3e4 0.75 / 0.74 s, 4.5e4 1.22 / 1.26 s,
+#: 7.9e4 3.27 / 3.17 s, 1.7e5 9.0 / 8.9 s (ties within the noise), 3.4e5 32.0 / 29.3 s (1.09x),
+#: 1.12e6 176 / 110 s (1.6x); peak memory the same within 2 % at every size.
+PARDISO_SPD_MIN = 150_000
+#: unknowns from which a symmetric indefinite or unsymmetric matrix goes to PARDISO under "auto".
+#: Measured on the loaded guide's operator (WR-90, slab eps_r 2.25, order 3, 4 modes at 13 GHz),
+#: time with SuperLU / time with PARDISO, best of 5 interleaved: 949 unknowns 1.04x, 3.3e3 0.97x,
+#: 5.5e3 1.10x, 9.6e3 1.32x, 1.9e4 1.42x; best of 2: 2.9e4 2.2x, 9.4e4 2.4x and 2.6x (two runs;
+#: 9.58 vs 3.97 s, 8.94 vs 3.47 s).
+#: Saddle-point matrices (zeros on the diagonal: the loaded guide's cutoff problem) stay with
+#: SuperLU: there PARDISO needs weighted matching, whose factorisation took 2.6 s against SuperLU's
+#: 1.4-2.3 s at 9e4 unknowns (cutoffs 0.7-1.0x; 0.9-1.1x at 3e3-3e4).
+PARDISO_INDEFINITE_MIN = 5_000
 
 _ENV = "FEMODES_BACKEND"
 _override: ContextVar[str | None] = ContextVar("femodes_backend", default=None)
@@ -55,9 +87,17 @@ def _has_cholespy():
     return True
 
 
+def _has_pardiso():
+    return _pardiso.load() is not None
+
+
+def _installed(name):
+    return name == "superlu" or (name == "cholespy" and _has_cholespy()) or (name == "pardiso" and _has_pardiso())
+
+
 def available():
     """The installed backends, in order of preference."""
-    return tuple(b for b in BACKENDS if b == "superlu" or (b == "cholespy" and _has_cholespy()))
+    return tuple(b for b in BACKENDS if _installed(b))
 
 
 def _check(name, where):
@@ -67,9 +107,10 @@ def _check(name, where):
     if name not in BACKENDS:
         raise FemodesError(f"unknown linear-algebra backend {name!r} ({where}); valid names: "
                            f"{', '.join(('auto',) + BACKENDS)}")
-    if name not in available():
+    if not _installed(name):
         raise FemodesError(f"the linear-algebra backend {name!r} ({where}) is not installed; "
-                           f"installed: {', '.join(available())} (pip install {name}, or choose another)")
+                           f"installed: {', '.join(available())}; valid names: {', '.join(('auto',) + BACKENDS)} "
+                           f"({_INSTALL[name]}, or choose an installed one)")
     return name
 
 
@@ -84,7 +125,7 @@ def requested():
 
 @contextmanager
 def use(name):
-    """Use backend ``name`` ("auto", "superlu", "cholespy") for every factorisation in the block."""
+    """Use backend ``name`` ("auto", "superlu", "cholespy", "pardiso") for every factorisation in the block."""
     token = _override.set(_check(name, "femodes.solvers.backends.use"))
     try:
         yield
@@ -92,11 +133,14 @@ def use(name):
         _override.reset(token)
 
 
-def choose(n, spd, backend=None):
-    """The backend that factorises an n x n matrix (``spd``: known symmetric positive definite)."""
+def choose(n, spd, backend=None, saddle=False):
+    """The backend that factorises an n x n matrix (``spd``: known symmetric positive definite;
+    ``saddle``: indefinite with zeros on the diagonal, which "auto" leaves to SuperLU)."""
     name = _check(backend, "backend argument") if backend is not None else requested()
     if name == "auto":
-        return "cholespy" if spd and n >= CHOLESPY_MIN and "cholespy" in available() else "superlu"
+        if not saddle and n >= (PARDISO_SPD_MIN if spd else PARDISO_INDEFINITE_MIN) and _has_pardiso():
+            return "pardiso"
+        return "cholespy" if spd and n >= CHOLESPY_MIN and _has_cholespy() else "superlu"
     if name == "cholespy" and not spd:
         return "superlu"  # Cholesky cannot factorise an indefinite matrix: LU is the only choice
     return name
@@ -106,18 +150,26 @@ class Factor:
     """A factorised matrix: ``solve(b)`` returns A^-1 b for a vector or an (n, m) block of columns.
 
     backend : the library that factorised it;  nnz : entries of the stored factor (None if the
-    library does not say).
+    library does not say);  inertia : (positive, negative) eigenvalue counts of a symmetric
+    indefinite matrix when the library reports them (PARDISO), else None.  :meth:`release` frees
+    the factor's memory now (PARDISO); otherwise it goes with the object.
     """
 
-    def __init__(self, backend, solve, nnz=None):
+    def __init__(self, backend, solve, nnz=None, release=None, inertia=None):
         self.backend = backend
         self._solve = solve
+        self._release = release
         self.nnz = nnz
+        self.inertia = inertia
 
     def solve(self, b):
         return self._solve(b)
 
     __call__ = solve
+
+    def release(self):
+        if self._release is not None:
+            self._release()
 
 
 def _superlu(A):
@@ -143,20 +195,42 @@ def _cholespy(A):
     return Factor("cholespy", solve)
 
 
-def factorize(A, spd=False, backend=None):
+def _pardiso_factor(A, spd, symmetric, inertia):
+    if spd:
+        mtype = 2
+    else:
+        if symmetric is None:
+            d = abs(A - A.T)
+            symmetric = d.nnz == 0 or d.max() <= 1e-14 * abs(A).max()
+        mtype = -2 if symmetric else 11
+    f = _pardiso.PardisoFactor(A, mtype, inertia=inertia if mtype == -2 else None)
+    return Factor("pardiso", f.solve, f.nnz, release=f.release, inertia=f.inertia)
+
+
+def factorize(A, spd=False, backend=None, symmetric=None, inertia=None):
     """Factorise the square sparse matrix A; returns a :class:`Factor`.
 
     ``spd`` says A is symmetric positive definite (allows Cholesky); ``backend`` overrides the
-    choice for this call (else :func:`use`, FEMODES_BACKEND, "auto").  If Cholesky finds A is not
-    positive definite after all, SuperLU factorises it instead.
+    choice for this call (else :func:`use`, FEMODES_BACKEND, "auto").  ``symmetric`` says an
+    indefinite A is symmetric (None: PARDISO checks A - A^T itself); ``inertia`` the (positive,
+    negative) eigenvalue counts a symmetric A must have, which PARDISO's L D L^T is checked against.
+    If Cholesky finds A is not positive definite after all, or PARDISO fails or shows another
+    inertia, SuperLU factorises it instead (a line on stderr when FEMODES_DEBUG is set).
     """
     n = A.shape[0]
-    name = choose(n, spd, backend)
+    saddle = not spd and bool(np.any(A.diagonal() == 0))
+    name = choose(n, spd, backend, saddle)
     if name == "cholespy":
         try:
             return _cholespy(A)
         except ValueError:  # "Matrix is not positive definite!"
             pass
+    if name == "pardiso":
+        try:
+            return _pardiso_factor(A, spd, symmetric, inertia)
+        except (_pardiso.PardisoError, _pardiso.InertiaMismatch, ValueError) as exc:
+            if os.environ.get("FEMODES_DEBUG"):
+                print(f"femodes: {exc}; SuperLU factorises this matrix instead", file=sys.stderr)
     return _superlu(A)
 
 
@@ -170,6 +244,11 @@ MEASURED_COSTS = {
                 (335445, 29.0, 1305), (1120685, 114.5, 4329)),
     "cholespy": ((2493, 0.021, 96), (11421, 0.092, 126), (22717, 0.23, 160), (112681, 5.45, 395),
                  (335445, 19.9, 950), (1120685, 85.9, 2836)),
+    # 2026-12-05, the same script on a busier machine (load 2-9): the 1.12e6 row is the whole solve's
+    # process (meshing and assembly included, as peak memory an upper bound; SuperLU and cholespy took
+    # 185 and 176 s in the same runs), the small sizes' peaks carry MKL's libraries (+14 MB)
+    "pardiso": ((2493, 0.068, 113), (11421, 0.305, 136), (22717, 0.865, 164), (112681, 7.31, 397),
+                (335445, 29.3, 974), (1120685, 109.8, 2950)),
 }
 #: spread of the same case between runs on the shared machine (0.41 s and 1.30 s at 2.3e4 unknowns;
 #: SuperLU at 1.1e6: 114 s in this table, on a load of 4.5 on 2 cores, and 30-45 s on a quieter

@@ -1,9 +1,9 @@
 """Eigen: sparse symmetric pencils -> lowest eigenpairs.
 
 The one place that knows about linear-algebra backends.  Shift-invert Lanczos (ARPACK through
-scipy.sparse.linalg.eigsh) with the factorisation of (K - sigma M) done here once (SuperLU or sparse
-Cholesky, chosen in :mod:`femodes.solvers.backends`) and handed to ARPACK as a LinearOperator.  BLAS is held to one thread while it runs: on a small
-shared machine threading made the solve slower, not faster.
+scipy.sparse.linalg.eigsh) with the factorisation of (K - sigma M) done here once (SuperLU, sparse
+Cholesky or the optional MKL PARDISO, chosen in :mod:`femodes.solvers.backends`) and handed to
+ARPACK as a LinearOperator.  BLAS is held to one thread while it runs: on a small shared machine threading made the solve slower, not faster.
 
 threadpoolctl limits only the libraries already loaded when the limit is set.  scipy loads its own
 BLAS (OpenBLAS) with ``scipy.linalg`` / ``scipy.sparse.linalg``: were those imported lazily inside

@@ -133,12 +133,20 @@ class VectorProblem(FieldsMixin, TrackingMixin):
 
     # -- the frequency-dependent operator -------------------------------------------
     def _factor(self, k0, sigma):
-        """Factors of the symmetric (indefinite) form of (A - sigma B) at k0 (SuperLU; see backends).
+        """Factors of the symmetric (indefinite) form of (A - sigma B) at k0 (see backends).
 
         With w = -v and the second row divided by -sigma, (A - sigma B) becomes the symmetric
             M = [[S_tt + sigma T_mu - k0^2 T_eps , G              ],
                  [G^T                             , C(k0) / sigma  ]]
         i.e. (A - sigma B) = diag(I, -sigma I) M diag(I, -I).
+
+        Its inertia is (n_t positive, n_z negative) eigenvalues: the same matrix at shift lam,
+        M(lam), has that inertia as lam -> infinity (the top block ~ lam T_mu is positive definite,
+        and its Schur complement (C - G^T T_mu^-1 G) / lam + O(lam^-2) = -k0^2 T_zz / lam + ...
+        is negative definite, because grad P_p lies in N_p, so G^T T_mu^-1 G = S_zz exactly), and
+        it changes only where M(lam) is singular, at a real eigenvalue beta^2 = lam of the pencil.
+        sigma lies above every real beta^2 (Rayleigh bound k0^2 max(eps_r mu_r)), so none is
+        crossed.  A factorisation reporting another inertia (PARDISO) is not used.
         """
         import scipy.sparse as sp
 
@@ -146,7 +154,7 @@ class VectorProblem(FieldsMixin, TrackingMixin):
         K = tt["S_tt"] + sigma * tt["T_mu"] - (k0 * k0) * tt["T_eps"]
         C = (zz["S_zz"] - (k0 * k0) * zz["T_zz"]) / sigma
         M = sp.bmat([[K, tz["G_mu"]], [tz["G_mu"].T, C]], format="csc")
-        return factorize(M, spd=False)
+        return factorize(M, spd=False, symmetric=True, inertia=(K.shape[0], C.shape[0]))
 
     def _apply_op(self, lu, sigma, V):
         """OP (E_t, *) = (A - sigma B)^-1 B (E_t, 0) for the columns of V (interior E_t);
@@ -428,7 +436,10 @@ class VectorProblem(FieldsMixin, TrackingMixin):
             # TE-type, constrained curl-curl
             G = tz["G_eps"]
             Kaug = sp.bmat([[tt["S_tt"] - sigma * tt["T_eps"], G], [G.T, None]], format="csc")
-            lu = factorize(Kaug, spd=False)  # a saddle-point matrix: indefinite
+            # a saddle-point matrix, indefinite: inertia (n_t positive, n_z negative), the top block
+            # S_tt - sigma T_eps being positive definite (sigma < 0) and G of full column rank
+            # (grad is one-to-one on the interior nodal space)
+            lu = factorize(Kaug, spd=False, symmetric=True, inertia=(nt, nz))
 
             def opinv(v):
                 return lu.solve(np.concatenate([v, np.zeros(nz)]))[:nt]
