@@ -34,7 +34,8 @@ counts too, and a cutoff's relative error is at least the trend of the higher mo
 :func:`_three_mesh_errors`, :func:`_trend_floor`).  Measured by benchmarks/bench_loaded_error_bars.py
 (slabs on the bottom or side wall of WR-90, eps_r 1.5 to 10, accuracy 1e-4 to 1e-7, 4 cutoffs
 each, against the transverse-resonance cutoffs): with the model's rate alone, 69 of 560 cutoffs
-were outside their error bars (up to 6.4x); with these rules none.
+were outside their error bars (true / reported median 0.29, max 6.4); with these rules none
+(median 0.059, max 0.65), for 1.3x the CPU time.
 """
 
 from __future__ import annotations
