@@ -125,7 +125,9 @@ def test_complex_pairs_of_a_layered_guide_are_reported_as_artefacts():
     # must say what they are.
     slab = fm.rectangle(22.86e-3, 10.16e-3).with_material(fm.rectangle(4e-3, 10.16e-3), eps_r=10)
     with pytest.warns(RuntimeWarning, match="numerical artefact, not a complex mode"):
-        sol = solve_loaded(slab, 20, 12e9, accuracy=0.09, order=3, evanescent=True, mesh_size=6e-3,
+        # (accuracy loose enough that these first meshes are the answer: the error model of
+        # femodes.solvers.loaded puts them at 0.13)
+        sol = solve_loaded(slab, 20, 12e9, accuracy=0.3, order=3, evanescent=True, mesh_size=6e-3,
                            max_iterations=1)
     assert any(o.family == "complex" for o in sol.objects)            # present on the mesh ...
     assert all(sol.objects[i].family != "complex" for i in sol.keep)  # ... but not reported
