@@ -40,8 +40,9 @@ def canonical(section):
 
 def mirror_planes(section):
     """The mirror planes ('x': x -> -x, 'y': y -> -y, in the section's own frame) of a
-    homogeneously filled section; () for a section with material regions (not reduced)."""
-    if section.materials:
+    homogeneously filled section; () for a section with material regions or with walls marked
+    magnetic by the user (:meth:`Section.with_walls`: solved as given, not reduced)."""
+    if section.materials or section.magnetic:
         return ()
     canon = canonical(section)
     return tuple(a for a in ("x", "y") if canon.is_symmetric(a))
