@@ -125,3 +125,18 @@ def test_electric_marks_take_a_side_back():
 def test_bad_marks_say_what_to_fix(make, words):
     with pytest.raises(fm.FemodesError, match=words):
         make()
+
+
+def test_case_file_key_marks_where_the_guide_lies():
+    from femodes.case import parse_case
+
+    text = ('[guide]\nshape = "rectangle"\nwidth = 20\nheight = 10\noffset = [5, 0]\n'
+            'magnetic_walls = [[15, 0]]\n[solve]\nmodes = 2\n')
+    case = parse_case(text)
+    assert case.section.magnetic == (pytest.approx((15e-3, 0.0)),)
+    assert not case.section.is_symmetric("x")
+    with pytest.raises(fm.FemodesError, match="not on the outer wall"):
+        parse_case(text.replace("[[15, 0]]", "[[16, 0]]"))
+    with pytest.raises(fm.FemodesError, match="magnetic_walls"):
+        parse_case(text.replace("offset = [5, 0]\n", "").replace("[[15, 0]]", "[[10, 0]]")
+                   + "[sweep]\nwidth = [18, 20]\n")

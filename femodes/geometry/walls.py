@@ -86,8 +86,7 @@ def resolve_marks(section, points):
         if dist > tol:
             raise FemodesError(f"the magnetic wall mark ({p[0] * 1e3:.6g}, {p[1] * 1e3:.6g}) mm is not on the outer "
                                f"wall (nearest side {dist * 1e3:.3g} mm away): give a point on the side to mark, "
-                               "in the section's own coordinates after any move (metres in Python, the [guide] "
-                               "units in a case file)")
+                               "where the guide lies after any move")
         seg = segs[best]
         if not isinstance(seg, Line):
             raise FemodesError(f"the magnetic wall mark ({p[0] * 1e3:.6g}, {p[1] * 1e3:.6g}) mm lies on a curved "
