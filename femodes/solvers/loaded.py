@@ -83,11 +83,12 @@ def _mesh(section, h, order, k_max=None):
                         all_corners=True)
 
 
-def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0):
-    """The VectorProblem of elements ``order`` on ``mesh`` with the section's materials."""
+def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0, magnetic=None):
+    """The VectorProblem of elements ``order`` on ``mesh`` with the section's materials
+    (``magnetic``: the magnetic-wall facets, see VectorProblem)."""
 
     eps, mu, tand = _material_arrays(section, mesh, eps_r, mu_r, tan_delta)
-    return VectorProblem(mesh, eps, mu, order=order, tan_delta=tand)
+    return VectorProblem(mesh, eps, mu, order=order, tan_delta=tand, magnetic=magnetic)
 
 
 def _rate(section, p):
@@ -145,6 +146,7 @@ class LoadedSolution:
               complex pairs judged numerical artefacts never)
     problem : the final VectorProblem;  order : its element order
     lower   : () -> the VectorModes of order p - 1 on the final mesh (cached), or None
+    mesh    : the final femodes Mesh (None for a mesh file's fixed mesh)
     """
 
     values: np.ndarray
@@ -154,16 +156,19 @@ class LoadedSolution:
     problem: object
     order: int
     lower: object = None
+    mesh: object = None
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None):
+                 evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None, magnetic=None):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions, with
     their errors: the accuracy loop (module docstring), unnamed (:class:`LoadedSolution`).
 
     ``eps_r``, ``mu_r``, ``tan_delta``: the background fill (the regions carry their own).
     ``mesh_size``: the element size (m) of the third (finest) of the first three meshes instead
-    of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger)."""
+    of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger).
+    ``magnetic``: the magnetic-wall facets of a reduced section (VectorProblem; the symmetry
+    classes of femodes.solvers.loaded_mirror)."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
         raise FemodesError(f"order must be 1, 2 or 3 for loaded guides (edge elements), got {order!r}")
@@ -180,7 +185,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     def run(size):
         """(values, mode objects, unknowns, problem, mesh) on the mesh of element size ``size``."""
         mesh = _mesh(section, size, p, k_max)
-        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta)
+        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta, magnetic)
         if frequency is not None:
             got = prob.solve(frequency, modes=modes, evanescent=True)
             return np.array([m.beta2 for m in got]), got, prob.n_dofs, prob, mesh
@@ -255,11 +260,11 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     def lower_modes(mesh=fine[4]):
         """The modes with elements of order p - 1 on the final mesh, for the error of field-based
         quantities."""
-        prob = _problem(section, mesh, eps_r, mu_r, p - 1, tan_delta)
+        prob = _problem(section, mesh, eps_r, mu_r, p - 1, tan_delta, magnetic)
         return prob.solve(frequency, modes=len(objs) + 2, evanescent=False)
 
     lower = functools.lru_cache(maxsize=1)(lower_modes) if frequency is not None and p > 1 else None
-    return LoadedSolution(vals, err, tuple(objs), tuple(keep), fine[3], p, lower)
+    return LoadedSolution(vals, err, tuple(objs), tuple(keep), fine[3], p, lower, fine[4])
 
 
 # ---------------------------------------------------------------------------- fixed meshes
