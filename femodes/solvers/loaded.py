@@ -160,7 +160,8 @@ class LoadedSolution:
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None, magnetic=None):
+                 evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None, magnetic=None,
+                 meshes=None, judged=None):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions, with
     their errors: the accuracy loop (module docstring), unnamed (:class:`LoadedSolution`).
 
@@ -168,7 +169,10 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     ``mesh_size``: the element size (m) of the third (finest) of the first three meshes instead
     of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger).
     ``magnetic``: the magnetic-wall facets of a reduced section (VectorProblem; the symmetry
-    classes of femodes.solvers.loaded_mirror)."""
+    classes of femodes.solvers.loaded_mirror); ``meshes``: a dict of the meshes made so far by
+    element size, shared by calls on the same section (the classes of one reduced section);
+    ``judged``: only the first ``judged`` values must meet ``accuracy`` (the others, asked for
+    as a margin, are estimated alike but do not drive the refinement)."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
         raise FemodesError(f"order must be 1, 2 or 3 for loaded guides (edge elements), got {order!r}")
@@ -184,7 +188,12 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
 
     def run(size):
         """(values, mode objects, unknowns, problem, mesh) on the mesh of element size ``size``."""
-        mesh = _mesh(section, size, p, k_max)
+        key = (round(size / L, 12), p, k_max)
+        mesh = meshes.get(key) if meshes is not None else None
+        if mesh is None:
+            mesh = _mesh(section, size, p, k_max)
+            if meshes is not None:
+                meshes[key] = mesh
         prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta, magnetic)
         if frequency is not None:
             got = prob.solve(frequency, modes=modes, evanescent=True)
@@ -221,6 +230,7 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             rel = err / ((2 * math.pi * float(frequency) / C0) ** 2 * eps_max * mu_max)
         else:
             rel = err / (2 * fine[0][:len(err)])
+        rel = rel[:judged] if judged is not None else rel
         rel = rel[np.isfinite(rel)]  # complex pairs not on every mesh: judged at the end
         worst = float(rel.max()) if len(rel) else 0.0
         if worst <= accuracy:

@@ -110,11 +110,14 @@ def _element_map(red_skm, whole_skm, axes, size):
 
 def unfold_coefficients(red_elem, red_skm, red_dofs, whole_elem, whole_skm, whole_dofs, n_whole,
                         emap, coeffs, sigma, vector):
-    """The coefficients on the whole mesh of the field E(x') = sigma S E_red(R x') (vector) or
+    """The coefficients on the whole mesh of the fields E(x') = sigma S E_red(R x') (vector) or
     sigma E_red(R x') (scalar), per whole triangle (``sigma``: (nw,) class signs; S from the copy's
-    flips), from the reduced ``coeffs``: a least-squares fit of each element's basis to the
-    field sampled at the 21 reference points (exact: the field is in the space)."""
+    flips), from the reduced ``coeffs`` (one column per field): a least-squares fit of each
+    element's basis to the field sampled at the 21 reference points (exact: the field is in the
+    space).  Returns (n_whole, columns)."""
     src, flips, perm = emap
+    coeffs = np.asarray(coeffs).reshape(coeffs.shape[0], -1)
+    k = coeffs.shape[1]
     nw = whole_skm.t.shape[1]
     q = _REF.shape[1]
     tind = np.arange(nw)
@@ -122,7 +125,7 @@ def unfold_coefficients(red_elem, red_skm, red_dofs, whole_elem, whole_skm, whol
     nloc = whole_dofs.shape[0]
     Phi = np.array([np.asarray(whole_elem.gbasis(wmap, _REF, i, tind=tind)[0]) for i in range(nloc)])
     dtype = np.result_type(coeffs.dtype, float)
-    target = np.zeros((2, nw, q) if vector else (nw, q), dtype=dtype)
+    target = np.zeros((2, nw, q, k) if vector else (nw, q, k), dtype=dtype)
     lam_w = np.vstack([1.0 - _REF[0] - _REF[1], _REF[0], _REF[1]])   # barycentrics of the points
     keys = perm[0] * 9 + perm[1] * 3 + perm[2]
     for key in np.unique(keys):
@@ -134,24 +137,24 @@ def unfold_coefficients(red_elem, red_skm, red_dofs, whole_elem, whole_skm, whol
         s = src[sel]
         val = 0
         for i in range(red_dofs.shape[0]):
-            b = np.asarray(red_elem.gbasis(rmap, X, i, tind=s)[0])
-            c = coeffs[red_dofs[i, s]]
-            val = val + (c[None, :, None] * b if vector else c[:, None] * b)
+            b = np.asarray(red_elem.gbasis(rmap, X, i, tind=s)[0])   # (2, m, q) or (m, q)
+            c = coeffs[red_dofs[i, s]]                                # (m, k)
+            val = val + (b[..., None] * c[None, :, None, :] if vector else b[..., None] * c[:, None, :])
         if vector:
-            target[:, sel] = val * (sigma[sel] * flips[:, sel])[:, :, None]
+            target[:, sel] = val * (sigma[sel] * flips[:, sel])[:, :, None, None]
         else:
-            target[sel] = val * sigma[sel][:, None]
+            target[sel] = val * sigma[sel][:, None, None]
     if vector:
         A = np.transpose(Phi, (2, 1, 3, 0)).reshape(nw, 2 * q, nloc)   # (nw, rows, nloc)
-        t = np.transpose(target, (1, 0, 2)).reshape(nw, 2 * q)
+        t = np.transpose(target, (1, 0, 2, 3)).reshape(nw, 2 * q, k)
     else:
         A = np.transpose(Phi, (1, 2, 0))
         t = target
     G = np.einsum("erk,erl->ekl", A, A)
-    r = np.einsum("erk,er->ek", A, t)
-    c = np.linalg.solve(G.astype(dtype), r[..., None])[..., 0]
-    out = np.zeros(n_whole, dtype=dtype)
-    out[whole_dofs] = c.T
+    r = np.einsum("erk,erc->ekc", A, t)
+    c = np.linalg.solve(G.astype(dtype), r)                            # (nw, nloc, k)
+    out = np.zeros((n_whole, k), dtype=dtype)
+    out[whole_dofs] = np.transpose(c, (1, 0, 2))
     return out
 
 
@@ -188,12 +191,16 @@ def solve_loaded_mirror(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, acc
     classes = mirror_classes(axes)
     nc = len(classes)
     kw = dict(frequency=frequency, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy, order=order, evanescent=True,
-              tan_delta=tan_delta, mesh_size=mesh_size)
+              tan_delta=tan_delta, mesh_size=mesh_size, meshes={})  # the classes share their meshes
     walls = [_wall_test(c, canon.size) for c in classes]
-    # each class asked for its share of the modes with a margin; a class all of whose modes fall
-    # among the wanted ones may hide more: asked again for all
-    counts = [min(modes, math.ceil(modes / nc) + 1)] * nc
-    sols = [solve_loaded(red, counts[i], magnetic=walls[i], **kw) for i in range(nc)]
+    # each class asked for its share of the modes plus one; the refinement is driven by the
+    # share alone (a class's extra mode lies deeper in its spectrum than any wanted one and would
+    # ask for a finer mesh than the whole solve needs).  Then: a class all of whose modes fall
+    # among the wanted ones may hide more, and one with more wanted modes than judged must meet
+    # the accuracy on all of them: both are solved again
+    share = math.ceil(modes / nc)
+    counts, judged = [min(modes, share + 1)] * nc, [share] * nc
+    sols = [solve_loaded(red, counts[i], magnetic=walls[i], judged=judged[i], **kw) for i in range(nc)]
 
     def ranked(sols):
         rows = []
@@ -202,15 +209,19 @@ def solve_loaded_mirror(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, acc
                 rows.append((ci, j, v))
         key = (lambda r: (-r[2].real, -r[2].imag)) if frequency is not None else (lambda r: r[2].real)
         return sorted(rows, key=key)
-    for _ in range(2):
+    for _ in range(3):
         top = ranked(sols)[:modes]
-        short = [ci for ci in range(nc) if counts[ci] < modes
-                 and sum(1 for r in top if r[0] == ci) >= len(sols[ci].values)]
-        if not short:
+        again = []
+        for ci in range(nc):
+            n_in = sum(1 for r in top if r[0] == ci)
+            if (n_in >= len(sols[ci].values) and counts[ci] < modes) or n_in > judged[ci]:
+                judged[ci] = n_in
+                counts[ci] = min(modes, n_in + 2)
+                again.append(ci)
+        if not again:
             break
-        for ci in short:
-            counts[ci] = modes
-            sols[ci] = solve_loaded(red, modes, magnetic=walls[ci], **kw)
+        for ci in again:
+            sols[ci] = solve_loaded(red, counts[ci], magnetic=walls[ci], judged=judged[ci], **kw)
     # one final mesh for all classes: the finest class's
     fine = max(range(nc), key=lambda ci: sols[ci].mesh.n_triangles)
     mesh = sols[fine].mesh
@@ -255,26 +266,35 @@ def solve_loaded_mirror(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, acc
                                whole.basis_t.element_dofs, whole.basis_t.N, emap, sigma=sigma, vector=True)
         uz = functools.partial(unfold_coefficients, elem_z, prob.mesh, prob.basis_z.element_dofs, elem_z, wskm,
                                whole.basis_z.element_dofs, whole.basis_z.N, emap, sigma=sigma, vector=False)
+        if frequency is not None:
+            jbeta = []
+            for o in objs:
+                b2 = o.beta2
+                if isinstance(b2, complex):
+                    jbeta.append(1j * cmath.sqrt(b2))
+                else:
+                    jbeta.append(1j * math.sqrt(b2) if b2 >= 0 else math.sqrt(-b2))
+            ET = ut(coeffs=np.column_stack([np.asarray(o.et) for o in objs]))
+            WZ = uz(coeffs=np.column_stack([np.asarray(o.ez) * jb for o, jb in zip(objs, jbeta)]))
+        else:
+            te = [j for j, o in enumerate(objs) if o.field == "TE"]
+            tm = [j for j, o in enumerate(objs) if o.field == "TM"]
+            unf = {}
+            if te:
+                unf.update(zip(te, ut(coeffs=np.column_stack([objs[j].coeffs for j in te])).T))
+            if tm:
+                unf.update(zip(tm, uz(coeffs=np.column_stack([objs[j].coeffs for j in tm])).T))
         for j, o in enumerate(objs):
             if frequency is not None:
                 b2 = o.beta2
-                if isinstance(b2, complex):
-                    jbeta = 1j * cmath.sqrt(b2)
-                else:
-                    jbeta = 1j * math.sqrt(b2) if b2 >= 0 else math.sqrt(-b2)
-                et = ut(coeffs=np.asarray(o.et))
-                w = uz(coeffs=np.asarray(o.ez) * jbeta)
+                et, w = ET[:, j], WZ[:, j]
                 if not isinstance(b2, complex):
-                    w = w.real
+                    et, w = et.real, w.real
                 E = et[whole.interior_t][:, None]
                 W = w[whole.interior_z][:, None]
                 obj = whole._modes(k0, np.array([b2]), E, W)[0]
             else:
-                if o.field == "TE":
-                    c = ut(coeffs=np.asarray(o.coeffs))
-                else:
-                    c = uz(coeffs=np.asarray(o.coeffs))
-                obj = VectorCutoff(o.k0, o.field, c / math.sqrt(2 ** len(axes)), o.residual)
+                obj = VectorCutoff(o.k0, o.field, unf[j] / math.sqrt(2 ** len(axes)), o.residual)
             rows.append((vals[j], err[j], obj, j in keep))
     if frequency is not None:
         rows.sort(key=lambda r: (-complex(r[0]).real, -complex(r[0]).imag))
