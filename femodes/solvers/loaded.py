@@ -83,10 +83,14 @@ def _mesh(section, h, order, k_max=None):
                         all_corners=True)
 
 
-def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0, magnetic=None):
+def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0, magnetic=None, like=None):
     """The VectorProblem of elements ``order`` on ``mesh`` with the section's materials
-    (``magnetic``: the magnetic-wall facets, see VectorProblem)."""
+    (``magnetic``: the magnetic-wall facets; ``like``: a problem of the same mesh and materials
+    whose assembled matrices are reused; see VectorProblem)."""
 
+    if like is not None:
+        return VectorProblem(like.mesh, like.eps_r, like.mu_r, order=order, tan_delta=like.tan_delta,
+                             magnetic=magnetic, assembled=like)
     eps, mu, tand = _material_arrays(section, mesh, eps_r, mu_r, tan_delta)
     return VectorProblem(mesh, eps, mu, order=order, tan_delta=tand, magnetic=magnetic)
 
@@ -170,7 +174,8 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger).
     ``magnetic``: the magnetic-wall facets of a reduced section (VectorProblem; the symmetry
     classes of femodes.solvers.loaded_mirror); ``meshes``: a dict of the meshes made so far by
-    element size, shared by calls on the same section (the classes of one reduced section);
+    element size, each with the first problem assembled on it, shared by calls on the same
+    section (the classes of one reduced section: other walls, the same matrices);
     ``judged``: only the first ``judged`` values must meet ``accuracy`` (the others, asked for
     as a margin, are estimated alike but do not drive the refinement)."""
     p = ORDER if order is None else int(order)
@@ -189,12 +194,12 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     def run(size):
         """(values, mode objects, unknowns, problem, mesh) on the mesh of element size ``size``."""
         key = (round(size / L, 12), p, k_max)
-        mesh = meshes.get(key) if meshes is not None else None
+        mesh, like = meshes.get(key, (None, None)) if meshes is not None else (None, None)
         if mesh is None:
             mesh = _mesh(section, size, p, k_max)
-            if meshes is not None:
-                meshes[key] = mesh
-        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta, magnetic)
+        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta, magnetic, like)
+        if meshes is not None and like is None:
+            meshes[key] = (mesh, prob)
         if frequency is not None:
             got = prob.solve(frequency, modes=modes, evanescent=True)
             return np.array([m.beta2 for m in got]), got, prob.n_dofs, prob, mesh

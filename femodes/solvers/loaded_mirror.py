@@ -191,7 +191,7 @@ def solve_loaded_mirror(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, acc
     classes = mirror_classes(axes)
     nc = len(classes)
     kw = dict(frequency=frequency, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy, order=order, evanescent=True,
-              tan_delta=tan_delta, mesh_size=mesh_size, meshes={})  # the classes share their meshes
+              tan_delta=tan_delta, mesh_size=mesh_size, meshes={})  # the classes share meshes and assembly
     walls = [_wall_test(c, canon.size) for c in classes]
     # each class asked for its share of the modes plus one; the refinement is driven by the
     # share alone (a class's extra mode lies deeper in its spectrum than any wanted one and would
@@ -233,7 +233,8 @@ def solve_loaded_mirror(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, acc
         keep = set(sol.keep)
         objs, vals, prob = sol.objects, np.asarray(sol.values), sol.problem
         if not _same_mesh(sol.mesh, mesh):
-            prob = _problem(red, mesh, eps_r, mu_r, p, tan_delta, walls[ci])
+            like = next((pr for m, pr in kw["meshes"].values() if m is mesh), None)
+            prob = _problem(red, mesh, eps_r, mu_r, p, tan_delta, walls[ci], like)
             if frequency is not None:
                 objs = prob.solve(frequency, modes=counts[ci], evanescent=True)
                 new = np.array([m.beta2 for m in objs])
