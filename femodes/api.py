@@ -32,6 +32,7 @@ from femodes.modes.parents import _parents
 from femodes.solvers.discretise import ELEMENT_ORDERS
 from femodes.solvers.electrostatic import line_parameters
 from femodes.solvers.loaded import ORDER, solve_loaded, solve_loaded_mesh
+from femodes.solvers.loaded_mirror import solve_loaded_mirror
 from femodes.solvers.scalar import DEFAULT_ORDER, solve_scalar, solve_scalar_mesh
 
 __all__ = ["solve", "dispersion", "study", "Study", "LoadedStudy", "DispersionTable", "DEFAULT_ORDER"]
@@ -59,12 +60,13 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     start_size: start the accuracy loop at this element size (m), e.g. the ``mesh_size`` of a
                solve of a similar section (sweeps pass it from point to point); the accuracy
                control is unchanged
-    symmetry : where a homogeneously filled section has mirror planes (in its own frame), solve
-               each symmetry class on the half or quarter section with electric / magnetic walls
-               on the cuts and unfold the modes to the whole section (the same modes, labels and
-               error estimates within the error bars; fewer unknowns per eigensolve).  True (the
-               default): where that pays (:func:`reduction_pays`); 'always': whenever the section
-               has a mirror plane; False: the whole section.
+    symmetry : where a section has mirror planes (in its own frame; material regions must be
+               mirrored too), solve each symmetry class on the half or quarter section with
+               electric / magnetic walls on the cuts and unfold the modes to the whole section
+               (the same modes, labels and error estimates within the error bars; fewer unknowns
+               per eigensolve).  True (the default): where that pays (:func:`reduction_pays`,
+               :func:`loaded_reduction_pays`); 'always': whenever the section has a mirror
+               plane; False: the whole section.
     frequency, evanescent : for sections with material regions only: the modes of largest beta
                at ``frequency`` (evanescent ones too if asked); without a frequency such a
                section gives its lowest cutoffs
@@ -110,9 +112,11 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
     if not isinstance(section, Section):
         raise FemodesError(f"solve() needs a section (e.g. femodes.rectangle(...)) or a mesh, got {type(section).__name__}")
     _check_scale(section)
+    if symmetry not in (True, False, "always"):
+        raise FemodesError(f"symmetry must be True (reduce where it pays), 'always' or False, got {symmetry!r}")
     if section.materials:
         return _loaded_modes(section, n_modes, frequency, eps_r, mu_r, accuracy, order=order,
-                             evanescent=evanescent)[0]
+                             evanescent=evanescent, symmetry=symmetry)[0]
     if frequency is not None:
         raise FemodesError("frequency= is for sections with material regions (hybrid modes); a guide "
                            "filled with one material is solved for its cutoffs: use mode.beta(f) and the "
@@ -143,6 +147,20 @@ def reduction_pays(section, n_modes, accuracy, order=DEFAULT_ORDER):
     smooth = not section.rate_limiting_corners(order) and \
         not any(isinstance(seg, Arc) for loop in section.loops for seg in loop.segments)
     return not smooth and accuracy <= 1e-8 and n_modes >= 10
+
+
+def loaded_reduction_pays(section, n_modes, accuracy, frequency=None):
+    """Whether solving a loaded section class by class on its half or quarter is expected to be
+    faster than solving it whole.  Measured (benchmarks/bench_symmetry.py loaded, and a survey on
+    a busy 2-core machine: WR-90 with a centred slab (two planes), with a slab on the bottom wall
+    (one plane), a rod in a circular guide; 8 and 20 modes at 24 GHz, 12 and 30 cutoffs; accuracy
+    1e-6 and 1e-8): whole / reduced time 0.29-1.08, so never yet: each class runs its own
+    three-mesh accuracy loop, the finest class's final mesh is used for all (the others are
+    solved there once more), and the whole mesh is assembled for the unfolded modes, which eats
+    the smaller factorisations.  ``symmetry='always'`` still reduces (same modes within the error
+    bars).  The arguments are those a future rule will weigh."""
+    del section, n_modes, accuracy, frequency
+    return False
 
 
 #: outlines beyond these sizes (m) get a warning: implausible for a microwave guide
@@ -201,14 +219,23 @@ def _bare_modes(section, count, eps_r, mu_r):
 
 
 def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                  evanescent=False, tan_delta=0.0, parents=True, bare=None):
+                  evanescent=False, tan_delta=0.0, parents=True, bare=None, symmetry=True):
     """(modes, final VectorProblem) of a section with material regions: LoadedModes at
     ``frequency`` or LoadedCutoffs without, each named after the empty-guide mode it grows from
     when ``parents`` (an extra solve of the empty guide on the final mesh; ``bare`` the bare
-    section's labelled scalar modes when the caller has them)."""
-    solver = solve_loaded_mesh if isinstance(section, Mesh) else solve_loaded  # a mesh file: fixed mesh
-    sol = solver(section, modes, frequency, eps_r, mu_r, accuracy, order=order, evanescent=evanescent,
-                 tan_delta=tan_delta)
+    section's labelled scalar modes when the caller has them).  ``symmetry`` as in :func:`solve`:
+    a section with mirror planes (materials included) solved class by class on its half or
+    quarter (:func:`femodes.solvers.loaded_mirror.solve_loaded_mirror`) where that pays
+    (:func:`loaded_reduction_pays`) or always."""
+    sol = None
+    if isinstance(section, Section) and (symmetry == "always" or (
+            symmetry is True and loaded_reduction_pays(section, modes, accuracy, frequency))):
+        sol = solve_loaded_mirror(section, modes, frequency, eps_r, mu_r, accuracy, order=order,
+                                  evanescent=evanescent, tan_delta=tan_delta)
+    if sol is None:
+        solver = solve_loaded_mesh if isinstance(section, Mesh) else solve_loaded  # a mesh file: fixed mesh
+        sol = solver(section, modes, frequency, eps_r, mu_r, accuracy, order=order, evanescent=evanescent,
+                     tan_delta=tan_delta)
     objs, err, vals = sol.objects, sol.errors, sol.values
     # complex modes (members of complex-conjugate pairs of beta^2) grow from no single empty-guide
     # mode: they are named by pair, not by parent
@@ -432,17 +459,19 @@ LoadedStudy = Study
 
 
 def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_delta=0.0,
-          frequency=None, band=None, points=41, family=None):
+          frequency=None, band=None, points=41, family=None, symmetry=True):
     """Cutoffs, modes at ``frequency`` (Hz) and dispersion over ``band`` (f1, f2 Hz, ``points``
     frequencies) of any guide: what a case file asks.  A homogeneous guide is solved once for its
     cutoffs (its dispersion is closed-form); a loaded one (section with material regions, or a mesh file with materials, solved on its fixed mesh) for its
     cutoffs, at the frequency, and along the band (following the modes whose cutoff, of the
     ``modes`` computed, lies below the band top).  ``tan_delta``: the fill's loss tangent (a
     loaded solve takes it into its modes; a homogeneous one leaves it to the quantities).
-    Returns a :class:`Study`."""
+    ``symmetry``: as in :func:`solve` (the cutoffs and the modes at the frequency; the
+    dispersion curves are followed on the whole section).  Returns a :class:`Study`."""
     fs = None if band is None else np.linspace(float(band[0]), float(band[1]), int(points))
     if not section.materials:
-        ms = solve(section, modes=modes, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy, family=family, order=order)
+        ms = solve(section, modes=modes, eps_r=eps_r, mu_r=mu_r, accuracy=accuracy, family=family, order=order,
+                   symmetry=symmetry)
         disp = None if fs is None else _closed_form_dispersion(ms, fs)
         return Study(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), ms.order, ms, ms.n_dofs,
                      frequency=None if frequency is None else float(frequency),
@@ -453,11 +482,11 @@ def study(section, modes=6, accuracy=1e-6, order=None, eps_r=1.0, mu_r=1.0, tan_
     p = _loaded_order(order)
     bare = _bare_modes(section, modes + 8, eps_r, mu_r)  # the labels of every part, solved once
     cuts, prob = _loaded_modes(section, modes, None, eps_r, mu_r, accuracy, order=p, tan_delta=tan_delta,
-                               bare=bare)
+                               bare=bare, symmetry=symmetry)
     out = Study(section, float(eps_r), float(mu_r), float(tan_delta), float(accuracy), p, cuts, prob.n_dofs)
     if frequency is not None:
         ms, prob_f = _loaded_modes(section, modes, frequency, eps_r, mu_r, accuracy, order=p,
-                                   tan_delta=tan_delta, bare=bare)
+                                   tan_delta=tan_delta, bare=bare, symmetry=symmetry)
         out = replace(out, frequency=float(frequency), at_frequency=ms, n_dofs_at_f=prob_f.n_dofs,
                       more_propagate=len(ms) >= modes)
     if fs is not None:

@@ -67,9 +67,11 @@ def test_mirror_planes_and_reduced_areas():
             red = reduce(canonical(s), axes)
             assert red.cuts == axes
             assert red.area == pytest.approx(s.area / parts, rel=1e-12)
-    # a section with material regions is not reduced (homogeneous guides only, for now)
+    # material regions must be mirrored too (femodes.solvers.loaded_mirror solves them)
     loaded = fm.rectangle(*WR90).with_material(fm.rectangle(4e-3, 4e-3), eps_r=4.0)
-    assert mirror_planes(loaded) == ()
+    assert mirror_planes(loaded) == ("x", "y")
+    assert mirror_planes(fm.rectangle(*WR90).with_material(fm.rectangle(4e-3, 4e-3).translated(3e-3, 0),
+                                                           eps_r=4.0)) == ("y",)
 
 
 def test_coax_half_is_one_piece_with_the_inner_conductor_on_its_wall():

@@ -31,6 +31,7 @@ from femodes.case.schema import (
     PLACEMENT,
     SHAPES,
     UNITS,
+    WALL_MARKS,
 )
 from femodes.case.settings import AnalysisSettings, Case, OutputSettings, _check_figures_apply
 from femodes.case.studies import build_seek, build_tolerance
@@ -192,6 +193,10 @@ def _build_case(data, base_dir, path):
         an = _table(data, "analysis")
         analysis = replace(_build_analysis(an, tan_delta), quantity_accuracy=qa)
     _check_figures_apply(out, analysis, "in the case file", loaded)
+    studies = [k for k in ("sweep", "seek", "tolerance") if k in data]
+    if studies and getattr(section, "magnetic", ()):
+        raise FemodesError(f"[{studies[0]}] of a guide with magnetic_walls is not supported yet (the studied "
+                           "shapes are rebuilt without the marks): solve each size as a case of its own")
     sweep = build_sweep(_table(data, "sweep"), guide, base_dir) if "sweep" in data else None
     seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
     tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
@@ -279,7 +284,8 @@ def _build_guide(guide, base_dir):
         raise FemodesError(f"unknown shape {shape!r} in [guide]{_suggest(shape, SHAPES)} "
                            f"(valid shapes: {', '.join(SHAPES)})")
     spec = SHAPES[shape]
-    allowed = COMMON + tuple(k.name for k in spec.keys) + (tuple(k.name for k in PLACEMENT) if spec.placement else ())
+    allowed = COMMON + tuple(k.name for k in spec.keys) + (tuple(k.name for k in PLACEMENT + WALL_MARKS)
+                                                          if spec.placement else ())
     _check_shape_keys(guide, shape, spec, allowed, "[guide]")
     units = guide.get("units", DEFAULT_UNITS)
     if not isinstance(units, str) or units not in UNITS:
@@ -330,6 +336,8 @@ def _shape_from(guide, shape, spec, scale, units, where):
             sec = sec.rotated(moves["rotate_deg"])
         if "offset" in moves:
             sec = sec.translated(*moves["offset"])
+        if where == "[guide]" and "magnetic_walls" in guide:
+            sec = sec.with_walls(magnetic=_convert(WALL_MARKS[0], guide["magnetic_walls"], scale, units, where))
     except FemodesError as exc:
         # the shape speaks SI (metres): say so, since the case file's lengths are in `units`
         raise FemodesError(f"{where} {shape}: {exc} (the shape checks in metres; the case file's lengths are in "

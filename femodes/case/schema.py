@@ -141,6 +141,13 @@ PLACEMENT = (Key("offset", POINT, doc="translation [dx, dy]"),
              Key("mirror", AXIS, doc='"x" maps x -> -x, "y" maps y -> -y'))
 
 
+#: Wall marks of a built-in [guide] shape (not of a [[region]] or a mesh file): points where the
+#: guide lies (after offset / rotate_deg / mirror), each on a straight side of the outer wall
+#: that is a magnetic wall (PMC) instead of an electric one (Section.with_walls).
+WALL_MARKS = (Key("magnetic_walls", POINTS, doc="points on straight outer sides that are magnetic walls "
+                  "(PMC), where the guide lies"),)
+
+
 #: Keys every [guide] takes.
 COMMON = ("shape", "units")
 

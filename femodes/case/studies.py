@@ -119,6 +119,9 @@ def _shape_and_fixed(case, free=()):
         raise FemodesError("design studies of guides with [[region]] tables are not supported yet")
     if not hasattr(case.section, "kind") or case.section.kind not in SHAPES:
         raise FemodesError("design studies need a built-in shape in [guide]")
+    if getattr(case.section, "magnetic", ()):
+        raise FemodesError("design studies of a guide with magnetic_walls are not supported yet (the studied "
+                           "shapes are rebuilt without the marks)")
     fixed = {k: v for k, v in case.section.params.items() if k not in free}
     return SHAPES[case.section.kind].build, fixed
 

@@ -160,6 +160,9 @@ def run_sweep(case, store=None, workers=None, scheduler=None):
     s = case.sweep
     if s is None:
         raise FemodesError("the case file has no [sweep] table: add one naming the [guide] parameters to vary")
+    if getattr(case.section, "magnetic", ()):
+        raise FemodesError("a [sweep] of a guide with magnetic_walls is not supported yet (the swept shapes are "
+                           "rebuilt without the marks): solve each size as a case of its own")
     shape_function = SHAPES[case.section.kind].build
     fixed = {k: v for k, v in case.section.params.items() if k not in s.vary}
     opts = {k: v for k, v in case.solve.items() if k in ("eps_r", "mu_r", "family", "order") and k not in s.vary}

@@ -26,10 +26,10 @@ from dataclasses import replace
 import numpy as np
 
 from femodes.geometry.loops import Line, Loop
-from femodes.geometry.mesh import Mesh, _attach_curves, _mesh_from_connectivity
+from femodes.geometry.mesh import Mesh, _attach_curves, _mesh_from_connectivity, triangle_regions
 from femodes.geometry.section import Section
 
-__all__ = ["mirror_planes", "canonical", "reduce", "unfold_mesh", "to_frame"]
+__all__ = ["mirror_planes", "canonical", "reduce", "unfold_mesh", "copy_mirrors", "to_frame"]
 
 
 def canonical(section):
@@ -39,9 +39,11 @@ def canonical(section):
 
 
 def mirror_planes(section):
-    """The mirror planes ('x': x -> -x, 'y': y -> -y, in the section's own frame) of a
-    homogeneously filled section; () for a section with material regions (not reduced)."""
-    if section.materials:
+    """The mirror planes ('x': x -> -x, 'y': y -> -y, in the section's own frame) of a section,
+    material regions included (every region must map onto a region of the same eps_r and mu_r,
+    :meth:`Section.is_symmetric`); () for a section with walls marked magnetic by the user
+    (:meth:`Section.with_walls`: solved as given, not reduced)."""
+    if section.magnetic:
         return ()
     canon = canonical(section)
     return tuple(a for a in ("x", "y") if canon.is_symmetric(a))
@@ -70,7 +72,28 @@ def reduce(section, axes):
         cuts = cuts + (a,)
     outer = _snap_loop(out.outer, section.size)
     holes = tuple(_snap_loop(h, section.size) for h in out.holes)
-    return Section(outer, holes, "polygon", {"_valid": True}, (0.0, 0.0, 0.0), (), cuts)
+    mats = tuple(replace(m, region=_snap_loop(m.region, section.size),
+                         holes=tuple(_snap_loop(h, section.size) for h in m.holes)) for m in out.materials)
+    return Section(outer, holes, "polygon", {"_valid": True}, (0.0, 0.0, 0.0), mats, cuts)
+
+
+def _clip_materials(section, tol):
+    """The material regions of ``section`` clipped to x >= 0: a region wholly on that side kept,
+    one wholly on the other dropped (its mirror image is kept), one across the plane clipped like
+    the outline; None if a clipped region is not one connected piece."""
+    out = []
+    for m in section.materials:
+        xs = m.region.polyline(64, line_pieces=1)[0]
+        if xs.min() >= -tol:
+            out.append(m)
+        elif xs.max() <= tol:
+            continue
+        else:
+            part = _clip(Section(m.region, tuple(m.holes), "polygon", {"_valid": True}))
+            if part is None:
+                return None
+            out.append(replace(m, region=part.outer, holes=tuple(part.holes)))
+    return tuple(out)
 
 
 def _snap(v, tol):
@@ -191,7 +214,10 @@ def _clip(section):
     if len(outer) != 1:
         return None
     holes = [lp for lp in loops if lp.signed_area() < 0] + closed
-    return Section(outer[0], tuple(holes), "polygon", {"_valid": True}, (0.0, 0.0, 0.0))
+    mats = _clip_materials(section, tol) if section.materials else ()
+    if mats is None:
+        return None
+    return Section(outer[0], tuple(holes), "polygon", {"_valid": True}, (0.0, 0.0, 0.0), mats)
 
 
 def _mirror_mesh(mesh, axis, tol):
@@ -242,12 +268,25 @@ def _mirror_mesh(mesh, axis, tol):
 def unfold_mesh(mesh, axes, section):
     """The mesh of the whole section (in its own frame) from a mesh of its reduced section:
     mirrored across each plane in ``axes``, nodes on the planes shared; the curves of the
-    whole ``section`` (own frame) attached for the exact high-order boundary nodes."""
+    whole ``section`` (own frame) attached for the exact high-order boundary nodes.  The
+    triangles come in copies: the reduced mesh's, then its mirror across the first plane, then
+    (two planes) the mirror of both across the second: triangle i of copy c is the image of
+    reduced triangle i under the mirrors of the bits of c (:func:`copy_mirrors`).  With material
+    regions each triangle's region is that of ``section`` (its centroid, as meshing gives it)."""
     tol = 1e-9 * section.size
     out = mesh
     for a in axes:
         out = _mirror_mesh(out, a, tol)
-    return _attach_curves(out, section)
+    out = _attach_curves(out, section)
+    if section.materials:
+        out = replace(out, regions=triangle_regions(section, out.points, out.triangles))
+    return out
+
+
+def copy_mirrors(copy, axes):
+    """The mirrors (axes) that map the reduced mesh onto copy number ``copy`` of
+    :func:`unfold_mesh`."""
+    return tuple(a for k, a in enumerate(axes) if (copy >> k) & 1)
 
 
 def to_frame(mesh, section):
@@ -260,5 +299,6 @@ def to_frame(mesh, section):
     def move(p):
         return np.array([x0 + c * p[0] - s * p[1], y0 + s * p[0] + c * p[1]])
     moved = Mesh(move(mesh.points), mesh.triangles, mesh.curved_edges,
-                 move(mesh.curved_midpoints) if mesh.is_curved else mesh.curved_midpoints)
+                 move(mesh.curved_midpoints) if mesh.is_curved else mesh.curved_midpoints,
+                 regions=mesh.regions)
     return _attach_curves(moved, section)

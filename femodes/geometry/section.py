@@ -20,6 +20,7 @@ import numpy as np
 from femodes.errors import FemodesError, check_positive, material_number, nonnegative_number
 from femodes.geometry.checks import check_scale, check_section
 from femodes.geometry.loops import Line, Loop, _max_distance, _min_distance, _point_in_polygon, _point_map, _polyline_self_intersects, _polylines_cross
+from femodes.geometry.walls import magnetic_lines, mark_points, resolve_marks, wall_junctions
 
 __all__ = ["Section", "Material", "material_values"]
 
@@ -99,6 +100,9 @@ class Section:
     cuts : the symmetry walls of a reduced section (:func:`femodes.geometry.mirror.reduce`):
                 'x' for a wall on the line x = 0, 'y' for y = 0 (their kind, electric or
                 magnetic, is chosen per symmetry class by the solver); () for a whole section
+    magnetic : points (x, y) in metres, each on a straight side of the outer wall that the user
+                marked a magnetic wall (PMC, :meth:`with_walls`, :mod:`femodes.geometry.walls`);
+                every other wall is electric (PEC)
     """
 
     outer: Loop
@@ -108,6 +112,7 @@ class Section:
     frame: tuple = (0.0, 0.0, 0.0)
     materials: tuple = ()
     cuts: tuple = ()
+    magnetic: tuple = ()
 
     def __post_init__(self):
         trusted = self.params.pop("_valid", False) if isinstance(self.params, dict) else False
@@ -121,6 +126,17 @@ class Section:
         object.__setattr__(self, "holes", holes)
         if not trusted:
             self._validate()
+        if self.magnetic:
+            object.__setattr__(self, "magnetic", mark_points(self.magnetic))
+            if self.materials:
+                raise FemodesError("magnetic walls are solved for homogeneously filled guides only (the scalar "
+                                   "solver): remove the material regions or the magnetic wall marks")
+            if self.holes:
+                raise FemodesError("magnetic walls on a section with inner conductors are not supported (its TEM "
+                                   "statics take every wall as a conductor): mark walls of a hollow guide only")
+            if self.cuts:
+                raise FemodesError("a reduced section (with symmetry cuts) cannot carry magnetic wall marks")
+            resolve_marks(self, self.magnetic)  # every mark on a straight side, not all sides
 
     # -- checks --------------------------------------------------------------
     def _validate(self):
@@ -182,8 +198,14 @@ class Section:
 
     def corners(self):
         """All corners of all loops (see :class:`Corner`); those on a symmetry wall (``cuts``)
-        are ``mixed``: their exponents are those of the Dirichlet-Neumann corner too."""
+        are ``mixed``: their exponents are those of the Dirichlet-Neumann corner too.  So are the
+        junctions of a magnetic side with an electric one (``magnetic``), straight joints
+        (angle pi, exponent 1/2) included."""
         out = [c for l in self.loops for c in l.corners()]
+        if self.magnetic:
+            junctions = wall_junctions(self, magnetic_lines(self))
+            tol = 1e-9 * self.size
+            out = [c for c in out if not any(math.dist(c.point, j.point) <= tol for j in junctions)] + junctions
         if self.cuts:
             tol = 1e-9 * self.size
             on = [c for c in out if any(abs(c.point[0 if a == "x" else 1]) <= tol for a in self.cuts)]
@@ -219,6 +241,11 @@ class Section:
         for a, b in zip(sorted(self.loops, key=_loop_key), sorted(other.loops, key=_loop_key)):
             if not close(a, b):
                 return False
+        if self.magnetic:  # the marked sides must map onto marked sides
+            mids = lambda sec: [((l.start[0] + l.end[0]) / 2, (l.start[1] + l.end[1]) / 2) for l in magnetic_lines(sec)]
+            ours, theirs = mids(self), mids(other)
+            if len(ours) != len(theirs) or any(min(math.dist(p, q) for q in theirs) > 1e-7 * scale for p in ours):
+                return False
         for m in self.materials:  # every region must map onto a region of the same material
             if not any(close(m.region, n.region) and (m.eps_r, m.mu_r) == (n.eps_r, n.mu_r)
                        for n in other.materials):
@@ -239,7 +266,8 @@ class Section:
         # a rigid motion of a valid section is valid: skip the checks
         return Section(self.outer.transformed(kind, arg), tuple(h.transformed(kind, arg) for h in self.holes),
                        self.kind, dict(self.params, _valid=True), (nx, ny, ang),
-                       tuple(m.transformed(kind, arg) for m in self.materials))
+                       tuple(m.transformed(kind, arg) for m in self.materials), (),
+                       tuple(f(p) for p in self.magnetic))
 
     def translated(self, dx, dy):
         """The same section moved by (dx, dy) metres."""
@@ -273,7 +301,8 @@ class Section:
         mats = tuple(replace(m, region=loop(m.region), holes=tuple(loop(h) for h in m.holes))
                      for m in self.materials)
         return Section(loop(self.outer), tuple(loop(h) for h in self.holes),
-                       self.kind, params, (x0 * s, y0 * s, ang), mats)
+                       self.kind, params, (x0 * s, y0 * s, ang), mats, (),
+                       tuple((x * s, y * s) for x, y in self.magnetic))
 
     # -- materials -------------------------------------------------------------
     def with_material(self, shape, eps_r=1.0, mu_r=1.0, tan_delta=0.0, name=""):
@@ -286,6 +315,9 @@ class Section:
             raise FemodesError(f"with_material needs a shape (e.g. femodes.rectangle(...).translated(...)), "
                                f"got {type(shape).__name__}")
         eps, mu, tand, name = material_values(eps_r, mu_r, tan_delta, name)
+        if self.magnetic:
+            raise FemodesError("magnetic walls are solved for homogeneously filled guides only (the scalar "
+                               "solver): a section with magnetic wall marks cannot take material regions")
         mat = Material(shape.outer, tuple(shape.holes), eps, mu, tand, name)
         # the region must reach into the guide: test sample points of both outlines
         guide_pts = np.hstack([l.polyline(32, line_pieces=8) for l in self.loops])
@@ -297,6 +329,40 @@ class Section:
                                "(shapes are centred at the origin; use .translated(dx, dy))")
         return Section(self.outer, self.holes, self.kind, dict(self.params, _valid=True), self.frame,
                        self.materials + (mat,))
+
+    def with_walls(self, magnetic=(), electric=()):
+        """The same section with walls marked magnetic (PMC, n x H = 0) or electric again (PEC,
+        n x E = 0, every wall's default): each mark is a point (x, y) in metres on a straight
+        side of the outer wall and marks that whole side.  Marks add to those already made;
+        ``electric`` marks take a side back.  Used to solve a section cut by hand along a plane of
+        symmetry: the scalar solver puts TM's E_z free (Neumann) and TE's H_z = 0 (Dirichlet) on a
+        magnetic wall (:mod:`femodes.geometry.walls`).  Homogeneously filled hollow guides only.
+
+        Example: ``rectangle(a, b).with_walls(magnetic=[(a / 2, 0)])`` is the half of a guide of
+        width 2a that holds the modes whose E_z is even (H_z odd) about its middle plane."""
+        new = mark_points(magnetic, "magnetic")
+        back = mark_points(electric, "electric")
+        if not new and not back:
+            raise FemodesError("with_walls needs magnetic=[(x, y), ...] (points in metres on the sides to mark "
+                               "magnetic) or electric=[...] (sides to take back)")
+        if self.materials:
+            raise FemodesError("magnetic walls are solved for homogeneously filled guides only (the scalar "
+                               "solver): remove the material regions or the magnetic wall marks")
+        trial = replace(self, params=dict(self.params, _valid=True), magnetic=())
+        sides = lambda pts: set(resolve_marks(trial, pts)) if pts else set()
+        if back:
+            try:
+                drop = set(resolve_marks(trial, back))
+            except FemodesError as e:
+                raise FemodesError(str(e).replace("magnetic wall mark", "electric wall mark")) from None
+        else:
+            drop = set()
+        both = sides(new) & drop
+        if both:
+            raise FemodesError("a side is marked both magnetic and electric in the same call: give each side once")
+        old = [p for p in self.magnetic if not (sides([p]) & drop)]
+        kept = tuple(old) + tuple(p for p in new if not (sides([p]) & sides(old)))
+        return replace(self, params=dict(self.params, _valid=True), magnetic=kept)
 
     def contains(self, x, y):
         """Boolean mask of points (arrays x, y) inside the guide (inside the wall, outside holes)."""
@@ -325,6 +391,9 @@ class Section:
         bits = ", ".join(f"{k}={v * 1e3:.6g} mm" if k not in _ANGLE_KEYS else f"{k}={math.degrees(v):.6g} deg"
                          for k, v in self.params.items() if isinstance(v, (int, float)))
         text = f"{self.kind}({bits})" if bits else self.kind
+        if self.magnetic:
+            n = len(magnetic_lines(self))
+            text += f" with {n} magnetic wall" + ("s" if n > 1 else "")
         if self.materials:
             text += " with " + ", ".join(f"a region of eps_r = {m.eps_r:g}" + (f", mu_r = {m.mu_r:g}" if m.mu_r != 1 else "")
                                          for m in self.materials)

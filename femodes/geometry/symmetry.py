@@ -37,7 +37,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes.errors import FemodesError
-from femodes.geometry.loops import Line
+from femodes.geometry.loops import Line, Loop
+from femodes.geometry.walls import magnetic_lines
 
 __all__ = ["SymmetryGroup", "SymmetryOperation", "SymmetryClass", "symmetry_group", "line_name"]
 
@@ -270,6 +271,8 @@ def _section_sets(sec):
     groups = [("wall", sec.loops)]
     for m in sec.materials:
         groups.append(((m.eps_r, m.mu_r), (m.region,) + tuple(m.holes)))
+    if getattr(sec, "magnetic", ()):  # marked magnetic sides: a symmetry must map them onto each other
+        groups.append(("magnetic", tuple(Loop((seg,)) for seg in magnetic_lines(sec))))
     sets, joints, jkeys = [], [], []
     for key, loops in groups:
         for l in loops:

@@ -303,13 +303,22 @@ def _symmetry_adapt(an, X, split_classes=True):
 SYMMETRY, IDENTITY, TEM_KIND, WITHIN_ERROR = "symmetry", "TE/TM identity", "TEM", "within error bar"
 
 
+def _label_kind(section):
+    """The shape kind the labels follow: a mesh file's 'mesh'; a section with walls marked
+    magnetic is named like any other shape (ordinal and symmetry: its closed forms are not those
+    of its kind's index labels)."""
+    if section is None:
+        return "mesh"
+    return "polygon" if getattr(section, "magnetic", ()) else section.kind
+
+
 def _degeneracy_kind(section, a, b):
     """Why modes a and b share a cutoff: one of the kinds above.  Forced kinds are recognised on
     the shapes whose closed forms show them (rectangle, square, circle, centred coax); anything
     else grouped by the error bars is called accidental."""
     if a.family == "TEM" and b.family == "TEM":
         return TEM_KIND
-    kind = section.kind if section is not None else "mesh"
+    kind = _label_kind(section)
     params = section.params if section is not None else {}
     ia, ib = a.indices, b.indices
     if ia is None or ib is None:
@@ -342,7 +351,7 @@ def build_modes(section, fine, merged, tem, eps_r, mu_r, safety, n_modes, line=N
     'TEM2', ...).  The fields of different TEM modes are orthogonal (int e_k . e_l dA = 0)."""
     disc = fine["disc"]
     an = _Analyser(section, disc)
-    kind = section.kind if section is not None else "mesh"
+    kind = _label_kind(section)
     M = disc.M
     rows = list(merged)
     lam = np.array([r[0] for r in rows])

@@ -11,6 +11,7 @@ import numpy as np
 
 from femodes.constants import MU0, NP_TO_DB
 from femodes.errors import CONDUCTIVITY_RANGE, FemodesError, in_range
+from femodes.geometry.walls import magnetic_lines, on_lines
 from femodes.modes.loaded import LoadedMode
 from femodes.quantities.common import (
     _beta,
@@ -232,10 +233,21 @@ def _normal_flux(mode, rule):
     return np.einsum("iaq,ia->aq", vals, g[edofs])
 
 
+def _electric_walls(rule, mesh, section):
+    """The part of a boundary ``rule`` on electric walls: the facets on sides the user marked
+    magnetic (:meth:`Section.with_walls`) carry no wall current and are left out."""
+    lines = magnetic_lines(section) if section is not None and getattr(section, "magnetic", ()) else ()
+    if not lines:
+        return rule
+    fv = mesh.facets[:, rule["facets"]]
+    keep = ~on_lines(lines, mesh.p[:, fv[0]], mesh.p[:, fv[1]], section.size)
+    return {k: (v[:, keep] if v.ndim == 3 else v[keep]) for k, v in rule.items()}
+
+
 def _wall_data(mode, n=10):
-    """Rule, psi, h_t . t, h_x, h_y at the wall Gauss points of the normalised mode."""
+    """Rule, psi, h_t . t, h_x, h_y at the electric-wall Gauss points of the normalised mode."""
     fld = _field(mode)
-    rule = _boundary_rule(fld.basis, n)
+    rule = _electric_walls(_boundary_rule(fld.basis, n), fld.basis.mesh, getattr(mode, "section", None))
     val, gx, gy = _eval_reference(fld, rule["tind"], rule["X"])
     if mode.family in ("TM", "TEM"):
         # grad psi = (d psi/dn) n_out on the wall: use the recovered flux (see _normal_flux)

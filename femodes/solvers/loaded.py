@@ -94,11 +94,16 @@ def _mesh(section, h, order, k_max=None):
                         all_corners=True)
 
 
-def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0):
-    """The VectorProblem of elements ``order`` on ``mesh`` with the section's materials."""
+def _problem(section, mesh, eps_r, mu_r, order, tan_delta=0.0, magnetic=None, like=None):
+    """The VectorProblem of elements ``order`` on ``mesh`` with the section's materials
+    (``magnetic``: the magnetic-wall facets; ``like``: a problem of the same mesh and materials
+    whose assembled matrices are reused; see VectorProblem)."""
 
+    if like is not None:
+        return VectorProblem(like.mesh, like.eps_r, like.mu_r, order=order, tan_delta=like.tan_delta,
+                             magnetic=magnetic, assembled=like)
     eps, mu, tand = _material_arrays(section, mesh, eps_r, mu_r, tan_delta)
-    return VectorProblem(mesh, eps, mu, order=order, tan_delta=tand)
+    return VectorProblem(mesh, eps, mu, order=order, tan_delta=tand, magnetic=magnetic)
 
 
 def _rate(section, p):
@@ -248,6 +253,7 @@ class LoadedSolution:
               complex pairs judged numerical artefacts never)
     problem : the final VectorProblem;  order : its element order
     lower   : () -> the VectorModes of order p - 1 on the final mesh (cached), or None
+    mesh    : the final femodes Mesh (None for a mesh file's fixed mesh)
     """
 
     values: np.ndarray
@@ -257,16 +263,24 @@ class LoadedSolution:
     problem: object
     order: int
     lower: object = None
+    mesh: object = None
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
-                 evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None):
+                 evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None, magnetic=None,
+                 meshes=None, judged=None):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions, with
     their errors: the accuracy loop (module docstring), unnamed (:class:`LoadedSolution`).
 
     ``eps_r``, ``mu_r``, ``tan_delta``: the background fill (the regions carry their own).
     ``mesh_size``: the element size (m) of the third (finest) of the first three meshes instead
-    of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger)."""
+    of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger).
+    ``magnetic``: the magnetic-wall facets of a reduced section (VectorProblem; the symmetry
+    classes of femodes.solvers.loaded_mirror); ``meshes``: a dict of the meshes made so far by
+    element size, each with the first problem assembled on it, shared by calls on the same
+    section (the classes of one reduced section: other walls, the same matrices);
+    ``judged``: only the first ``judged`` values must meet ``accuracy`` (the others, asked for
+    as a margin, are estimated alike but do not drive the refinement)."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
         raise FemodesError(f"order must be 1, 2 or 3 for loaded guides (edge elements), got {order!r}")
@@ -282,8 +296,13 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
 
     def run(size):
         """(values, mode objects, unknowns, problem, mesh) on the mesh of element size ``size``."""
-        mesh = _mesh(section, size, p, k_max)
-        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta)
+        key = (round(size / L, 12), p, k_max)
+        mesh, like = meshes.get(key, (None, None)) if meshes is not None else (None, None)
+        if mesh is None:
+            mesh = _mesh(section, size, p, k_max)
+        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta, magnetic, like)
+        if meshes is not None and like is None:
+            meshes[key] = (mesh, prob)
         if frequency is not None:
             got = prob.solve(frequency, modes=modes, evanescent=True)
             return np.array([m.beta2 for m in got]), got, prob.n_dofs, prob, mesh
@@ -320,10 +339,11 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
             rel = err / ((2 * math.pi * float(frequency) / C0) ** 2 * eps_max * mu_max)
         else:
             rel = err / (2 * fine[0][:len(err)])
+        rel = rel[:judged] if judged is not None else rel  # a symmetry class: its share only
         # the next mesh planned with the slowest rate observed among the modes that miss the
         # accuracy, but not below half the model's (the scalar solver's rule)
         missing = np.isfinite(rel) & (rel > accuracy)
-        plan = max(rate / 2, float(np.min(qs[missing]))) if np.any(missing) else rate
+        plan = max(rate / 2, float(np.min(qs[:len(rel)][missing]))) if np.any(missing) else rate
         rel = rel[np.isfinite(rel)]  # complex pairs not on every mesh: judged at the end
         worst = float(rel.max()) if len(rel) else 0.0
         if worst <= accuracy:
@@ -368,11 +388,11 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     def lower_modes(mesh=fine[4]):
         """The modes with elements of order p - 1 on the final mesh, for the error of field-based
         quantities."""
-        prob = _problem(section, mesh, eps_r, mu_r, p - 1, tan_delta)
+        prob = _problem(section, mesh, eps_r, mu_r, p - 1, tan_delta, magnetic)
         return prob.solve(frequency, modes=len(objs) + 2, evanescent=False)
 
     lower = functools.lru_cache(maxsize=1)(lower_modes) if frequency is not None and p > 1 else None
-    return LoadedSolution(vals, err, tuple(objs), tuple(keep), fine[3], p, lower)
+    return LoadedSolution(vals, err, tuple(objs), tuple(keep), fine[3], p, lower, fine[4])
 
 
 # ---------------------------------------------------------------------------- fixed meshes

@@ -41,6 +41,7 @@ from femodes.geometry.checks import check_unknowns, lagrange_unknowns, predicted
 from femodes.geometry.mesh import mesh_section
 from femodes.geometry.mirror import canonical, mirror_planes, reduce, to_frame, unfold_mesh
 from femodes.geometry.section import Section
+from femodes.geometry.walls import magnetic_lines, on_lines
 from femodes.solvers.budget import Progress, available_memory, fitting_unknowns, predicted_memory, predicted_time
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
@@ -138,6 +139,10 @@ def solve_scalar(section, n_modes, accuracy, family, p, mesh_size=None, max_iter
         if not h > 0:
             raise FemodesError(f"mesh_size must be positive (m), got {mesh_size!r}")
     shifts = _initial_shifts(A, section.perimeter)
+    if section.magnetic:
+        # TM is Neumann on a magnetic wall: no Faber-Krahn bound holds (a quarter of a 2a x 2b
+        # guide has TM11 at (pi / 2a)^2 + (pi / 2b)^2, far below pi j01^2 / ab); start below zero
+        shifts["TM"] = shifts["TE"]
     # at most half of the lowest modes are TM: the k-th Dirichlet eigenvalue lies above the first
     # k + 1 Neumann ones (Friedlander, Arch. Rational Mech. Anal. 116, 1991)
     counts = {f: (want // 2 + 1 if (f == "TM" and family is None) else want + 1) for f in fams}
@@ -468,14 +473,17 @@ def _discrete_solve(geometry, h, p, fams, counts, shifts, radius=None):
            "singular": bool(corners), "corners": corners}
     out["classes"] = tuple(fams)
     cuts = geometry.cuts if isinstance(geometry, Section) else ()
-    walls = _cut_dofs(disc, cuts, geometry.size) if cuts else None
+    magnetic = magnetic_lines(geometry) if isinstance(geometry, Section) else ()
+    walls = _cut_dofs(disc, cuts, geometry.size, magnetic) if (cuts or magnetic) else None
     found = {}  # the eigenvalues of each family over its classes: the next mesh's shift
     for f in fams:
         fam, odd = _class_of(f)
         if walls is None:
             dirichlet = disc.boundary if fam == "TM" else np.zeros(0, dtype=np.int64)
         else:
-            parts = [walls[a] for a in odd] + ([walls["wall"]] if fam == "TM" else [])
+            # electric walls: TM Dirichlet; magnetic walls (user marks): TE Dirichlet (H_z = 0)
+            parts = [walls[a] for a in odd] + ([walls["wall"]] if fam == "TM" else
+                                                [walls["magnetic"]] if "magnetic" in walls else [])
             dirichlet = np.unique(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.int64)
         constant = dirichlet.size == 0  # all Neumann: the constant mode comes too
         if dirichlet.size:
@@ -514,9 +522,11 @@ def _class_of(key):
     return parts[0], tuple(parts[i] for i in range(1, len(parts) - 1, 2) if parts[i + 1] == "odd")
 
 
-def _cut_dofs(disc, cuts, size):
+def _cut_dofs(disc, cuts, size, magnetic=()):
     """Boundary dofs of a reduced section: {'wall': dofs of the PEC wall facets, axis: dofs of
-    the facets on that symmetry wall} (a dof where a cut meets a wall is in both)."""
+    the facets on that symmetry wall} (a dof where a cut meets a wall is in both); with
+    ``magnetic`` (the sides a user marked magnetic, :func:`femodes.geometry.walls.magnetic_lines`)
+    also 'magnetic': the dofs of the facets on them, which are then not in 'wall'."""
     mesh = disc.basis.mesh
     bf = mesh.boundary_facets()
     xy = mesh.p[:, mesh.facets[:, bf]]  # (2, 2, nb)
@@ -527,6 +537,10 @@ def _cut_dofs(disc, cuts, size):
         on = np.all(np.abs(xy[k]) <= tol, axis=0)
         on_any |= on
         out[a] = np.asarray(disc.basis.get_dofs(facets=bf[on]).all(), dtype=np.int64)
+    if magnetic:
+        on = on_lines(magnetic, xy[:, 0], xy[:, 1], size)
+        on_any |= on
+        out["magnetic"] = np.asarray(disc.basis.get_dofs(facets=bf[on]).all(), dtype=np.int64)
     out["wall"] = np.asarray(disc.basis.get_dofs(facets=bf[~on_any]).all(), dtype=np.int64)
     return out
 

@@ -154,6 +154,9 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
     if not isinstance(section, Section):
         raise FemodesError(f"shape must return a Section (e.g. femodes.double_ridge), {_name(shape)} returned "
                            f"{type(section).__name__}")
+    if section.magnetic:
+        raise FemodesError("sensitivity() takes every wall as electric; this section has walls marked magnetic "
+                           "(with_walls): solve it at perturbed parameters instead")
     if section.materials:
         raise FemodesError("sensitivity() handles homogeneously filled guides (the scalar TE / TM problems) for now; "
                            "this section has material regions: solve it at perturbed parameters instead")

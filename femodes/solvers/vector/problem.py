@@ -23,6 +23,9 @@ from femodes.solvers.vector.tracking import TrackingMixin
 
 __all__ = ["VectorProblem"]
 
+#: the full-size matrices of a mesh, before the wall dofs are removed (shared by ``assembled=``)
+_FULL = ("S_tt", "T_eps", "T_mu", "T_t1", "G_mu", "G_eps", "S_zz", "T_zz", "T_z1", "L_tt", "L_zz")
+
 
 # ---------------------------------------------------------------------------- problem
 @dataclass(frozen=True, eq=False)
@@ -35,6 +38,18 @@ class VectorProblem(FieldsMixin, TrackingMixin):
     dielectric loss tangent, a number or one value per triangle (the modes are solved lossless; the
     loss is a first-order perturbation, :meth:`VectorMode.dielectric_attenuation`).  Assembly happens once,
     here; :meth:`solve`, :meth:`cutoffs` and :meth:`dispersion` only recombine the matrices.
+
+    ``magnetic``: None (every wall PEC), or a function of boundary-facet end points ``(a, b)``
+    (each (2, m), in the mesh's coordinates) returning True for the facets that are magnetic walls
+    (PMC, n x H = 0; a symmetry plane of :func:`femodes.solvers.loaded_mirror.solve_loaded_mirror`).
+    There n x H = 0 is the natural condition of the curl-curl form (its boundary term is
+    int (n x mu_r^-1 curl E) . v dl, i.e. n x H) and n . eps E = 0 that of the Gauss law, so the
+    edge and nodal dofs of those facets stay free; on the PEC facets they are removed as before
+    (a dof where the two meet is a PEC dof: E_z and the tangential E vanish on the PEC side).
+    ``assembled``: a VectorProblem of the same mesh, materials and order whose bases and
+    full-size matrices are taken instead of assembling them again (another wall set: the
+    symmetry classes of one reduced mesh); ``mesh``, ``eps_r``, ``mu_r``, ``tan_delta`` are then
+    its.
     """
 
     mesh: object = field(repr=False)
@@ -42,6 +57,8 @@ class VectorProblem(FieldsMixin, TrackingMixin):
     mu_r: object = field(default=1.0, repr=False)
     order: int = 2
     tan_delta: object = field(default=0.0, repr=False)
+    magnetic: object = field(default=None, repr=False)
+    assembled: object = field(default=None, repr=False)
     # assembled data (set in __post_init__)
     basis_t: object = field(init=False, repr=False)
     basis_z: object = field(init=False, repr=False)
@@ -50,7 +67,8 @@ class VectorProblem(FieldsMixin, TrackingMixin):
     interior_z: np.ndarray = field(init=False, repr=False)
     emu_max: float = field(init=False)
 
-    def __post_init__(self):
+    def _assemble(self):
+        """Bases and full-size matrices of the mesh (before any wall dofs are removed)."""
         from skfem import Basis
 
         elem_t, elem_z, p = _elements(self.order)
@@ -89,8 +107,26 @@ class VectorProblem(FieldsMixin, TrackingMixin):
             dxl = dxe * tand[:, None]
             mats["L_tt"] = _coo(dt, dt, ein("ikeq,jkeq,eq->ije", phi, phi, dxl), (Nt, Nt))
             mats["L_zz"] = _coo(dz, dz, ein("ieq,jeq,eq->ije", lz, lz, dxl), (Nz, Nz))
-        it = np.setdiff1d(np.arange(Nt), np.unique(bt.get_dofs().flatten()))
-        iz = np.setdiff1d(np.arange(Nz), np.unique(bz.get_dofs().flatten()))
+        return skm, bt, bz, p, eps, mu, tand, mats
+
+    def __post_init__(self):
+        if self.assembled is not None:  # the same mesh, materials and order: no assembly
+            src = self.assembled
+            if src.order != int(self.order):
+                raise AssertionError("assembled= must be a VectorProblem of the same element order")
+            skm, bt, bz, p = src.mesh, src.basis_t, src.basis_z, src.order
+            eps, mu, tand = src.eps_r, src.mu_r, src.tan_delta
+            mats = {k: v for k, v in src.mats.items() if k in _FULL}
+            Nt, Nz = bt.N, bz.N
+        else:
+            skm, bt, bz, p, eps, mu, tand, mats = self._assemble()
+            Nt, Nz = bt.N, bz.N
+        pec = skm.boundary_facets()
+        if self.magnetic is not None:  # PMC facets: their dofs stay free (natural conditions)
+            fv = skm.facets[:, pec]
+            pec = pec[~np.asarray(self.magnetic(skm.p[:, fv[0]], skm.p[:, fv[1]]), dtype=bool)]
+        it = np.setdiff1d(np.arange(Nt), np.unique(bt.get_dofs(facets=pec).flatten()))
+        iz = np.setdiff1d(np.arange(Nz), np.unique(bz.get_dofs(facets=pec).flatten()))
         if it.size < 2:
             raise FemodesError("the mesh is too coarse: no interior edge unknowns; refine it")
         # interior blocks, used by every solve
