@@ -35,7 +35,7 @@ from femodes import quantities as Q
 from femodes.api import solve
 from femodes.errors import FemodesError
 from femodes.studies.pointwise import homogeneous_partner, quantities_at
-from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _shape_function
+from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _regions, _shape_function, solve_point
 
 __all__ = ["seek", "SeekResult"]
 
@@ -119,12 +119,28 @@ def _quantities(ms, names, at=None):
 
 
 def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, frequency=None, conductivity=5.8e7,
-         roughness=0.0, tan_delta=0.0, **options):
+         roughness=0.0, tan_delta=0.0, regions=None, **options):
     """The values of the parameters in ``vary`` (name -> (low, high) bounds, SI) at which the
     ``targets`` are met (see the module docstring); the other parameters fixed at
     ``parameters``.  As many free parameters as targets (one or two).  ``modes`` defaults to
     what the targets need plus two; ``options`` go to :func:`femodes.solve` (eps_r, mu_r,
-    family, order).  Returns a :class:`SeekResult`."""
+    family, order).
+
+    ``regions``: dielectric regions put into the guide at every evaluation, as for
+    :func:`femodes.sweep` (a list of dicts {"name", "shape" (a Section, placed), "eps_r", "mu_r",
+    "tan_delta"}); the guide is then solved full-vector, and a free parameter may also be a
+    region's material, ``region.NAME.eps_r`` or ``region.NAME.mu_r`` (``region.NAME.tan_delta``
+    with the target alpha), or the fill's ``eps_r`` / ``mu_r``.  The regions stay where they are
+    placed when a shape parameter changes (a region reaching outside the guide is cut at the
+    wall).  The targets are those of a homogeneous guide: fcN the N-th cutoff of the loaded
+    guide, f_high and ratio from its first two cutoffs (a loaded guide's cutoffs are not
+    degenerate in general), z_pv and alpha of the mode of largest beta at ``frequency``.
+    Returns a :class:`SeekResult`."""
+    regions = _regions(regions)
+    if regions is not None:
+        return _seek_loaded(shape, parameters, vary, targets, regions, modes=modes, accuracy=accuracy,
+                            frequency=frequency, conductivity=conductivity, roughness=roughness,
+                            tan_delta=tan_delta, **options)
     allowed = _shape_function(shape)
     goals = _target_names(targets)
     if not isinstance(vary, dict) or not vary:
@@ -180,6 +196,124 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, frequen
     if len(names) == 1:
         return _seek_one(names[0], bounds[names[0]], goals, evaluate, count)
     return _seek_two(names, bounds, goals, evaluate, count)
+
+
+def _bounds(vary, goals, allowed, parameters, shape_name, extra_note=""):
+    """{name: (low, high)} of ``vary`` checked (as many as the targets, names among ``allowed``)."""
+    if not isinstance(vary, dict) or not vary:
+        raise FemodesError("vary must map each free parameter to its (low, high) bounds")
+    if len(vary) != len(goals) or len(vary) > 2:
+        raise FemodesError(f"give as many free parameters as targets (one or two): {len(vary)} parameter(s) for "
+                           f"{len(goals)} target(s)")
+    bounds = {}
+    for name, b in vary.items():
+        if name not in allowed:
+            raise FemodesError(f"{shape_name} has no parameter {name!r}; its parameters: {', '.join(allowed)}"
+                               + extra_note)
+        if name in parameters:
+            raise FemodesError(f"{name} is both fixed (parameters) and free (vary): give it in one only")
+        try:
+            lo, hi = (_number(f"a bound of {name!r}", v) for v in b)
+        except (TypeError, ValueError):
+            raise FemodesError(f"the bounds of {name!r} must be a pair (low, high), got {b!r}") from None
+        if not lo < hi:
+            raise FemodesError(f"the bounds of {name!r} must be (low, high) with low < high, got {b!r}")
+        bounds[name] = (lo, hi)
+    return bounds
+
+
+#: what a loaded guide's seek may vary besides the shape's parameters (per region: region.NAME.*)
+_LOADED_MATERIALS = ("eps_r", "mu_r", "tan_delta")
+
+
+def _seek_loaded(shape, parameters, vary, targets, regions, *, modes, accuracy, frequency, conductivity, roughness,
+                 tan_delta, **options):
+    """:func:`seek` of a guide with dielectric ``regions`` (checked by sweeps._regions): each
+    evaluation is one point of a loaded sweep (:func:`femodes.studies.sweeps.solve_point`)."""
+    allowed = _shape_function(shape)
+    goals = _target_names(targets)
+    unknown = sorted(set(options) - set(SWEEP_OPTIONS))
+    if unknown:
+        raise FemodesError(f"unknown option(s) {', '.join(unknown)}; seek passes on {', '.join(SWEEP_OPTIONS)}")
+    if "family" in options:
+        raise FemodesError("family= does not apply to a guide with regions: its modes are hybrid (leave family out)")
+    materials = ["eps_r", "mu_r"] + [f"region.{r['name']}.{k}" for r in regions for k in _LOADED_MATERIALS]
+    bounds = _bounds(vary, goals, list(allowed) + materials, parameters, shape.__name__,
+                     "; with regions also " + ", ".join(materials))
+    for name, (lo, hi) in bounds.items():
+        if name in options:
+            raise FemodesError(f"{name} is both an option and free (vary): give it in one only")
+        prop = name.split(".")[-1]
+        if name in materials and prop in ("eps_r", "mu_r") and lo <= 0:
+            raise FemodesError(f"the bounds of {name} must be positive (a relative {prop[:-2]}), got ({lo:.6g}, {hi:.6g})")
+        if prop == "tan_delta" and name in materials:
+            if "alpha" not in goals:
+                raise FemodesError(f"{name} changes no cutoff and no impedance: vary it only for the target alpha")
+            if lo < 0:
+                raise FemodesError(f"the bounds of {name} must be >= 0, got ({lo:.6g}, {hi:.6g})")
+    for k in parameters:
+        if k not in allowed:
+            raise FemodesError(f"{shape.__name__} has no parameter {k!r}; its parameters: {', '.join(allowed)}")
+    opts = dict(options, regions=regions)
+    if any(k in FREQUENCY_TARGETS for k in goals):
+        if frequency is None:
+            raise FemodesError("targets z_pv and alpha are values at a frequency: give frequency= (Hz)")
+        opts["analysis"] = {"frequency": _number("frequency", frequency),
+                            "conductivity": Q.conductivity_of(conductivity),
+                            "roughness": _number("roughness", roughness), "tan_delta": _number("tan_delta", tan_delta)}
+    need = max([int(k[2:]) for k in goals if k.startswith("fc")] + [2])
+    n_modes = need + 2 if modes is None else modes
+    accuracy = _number("accuracy", accuracy)
+    count = [0]
+    fixed = dict(parameters)
+
+    def evaluate(point):
+        count[0] += 1
+        r = solve_point(shape, fixed, point, n_modes, accuracy, opts)
+        if r["status"] != "ok":
+            raise FemodesError(f"the guide refuses {', '.join(f'{k} = {v:.6g}' for k, v in point.items())} inside "
+                               f"the bounds: {r['message']}; narrow the bounds")
+        return _loaded_quantities(r, goals)
+
+    names = list(bounds)
+    if len(names) == 1:
+        return _seek_one(names[0], bounds[names[0]], goals, evaluate, count)
+    return _seek_two(names, bounds, goals, evaluate, count)
+
+
+def _loaded_quantities(r, names):
+    """{target: (value, error)} of one loaded sweep point's result dict (fcN the N-th cutoff;
+    f_high and ratio from the first two cutoffs; z_pv and alpha of the mode of largest beta at
+    the analysis frequency)."""
+    out = {}
+    fc, err = r["fc"], r["fc_error"]
+    for name in names:
+        if name in FREQUENCY_TARGETS:
+            q = r.get("at_frequency") or {}
+            if name == "z_pv":
+                v, e = (q.get("z_pv") or [math.nan])[0], (q.get("z_pv_error") or [math.nan])[0]
+            else:
+                v = (q.get("alpha_c") or [math.nan])[0] + (q.get("alpha_d") or [math.nan])[0]
+                e = (q.get("alpha_c_error") or [math.nan])[0] + (q.get("alpha_d_error") or [0.0])[0]
+            if not math.isfinite(v):
+                raise FemodesError(f"target {name} is not defined for the dominant mode at the analysis frequency "
+                                   "(no mode propagates there, or its voltage cancels): change the frequency or the "
+                                   "bounds")
+            out[name] = (float(v), float(e) if math.isfinite(e) else math.inf)
+        elif name.startswith("fc"):
+            n = int(name[2:])
+            if n > len(fc):
+                raise FemodesError(f"target {name} needs at least {n} modes: raise modes=")
+            out[name] = (fc[n - 1], err[n - 1])
+        else:
+            if len(fc) < 2:
+                raise FemodesError(f"target {name} needs the second cutoff: raise modes=")
+            if name == "f_high":
+                out[name] = (fc[1], err[1])
+            else:
+                ratio = fc[1] / fc[0]
+                out[name] = (ratio, ratio * (err[1] / fc[1] + err[0] / fc[0]))
+    return out
 
 
 def _seek_one(name, bound, goals, evaluate, count):

@@ -1,0 +1,65 @@
+"""Design studies of dielectric-loaded guides: seek, sensitivity and tolerance against the
+slab-loaded rectangle's transverse-resonance cutoffs.
+
+Outside reference: a rectangular guide a x b filled to height d by a slab (full width) has LSE /
+LSM modes whose cutoffs solve the transverse-resonance equations (Collin, Field Theory of Guided
+Waves, 2nd ed., ch. 6; Pozar, Microwave Engineering, 4th ed., sec. 3.6 for the LSE case),
+solved by root finding in femodes.reference.layered without the finite elements.  Derivatives
+of the reference are central differences of those roots with a step of 1e-5 relative (the
+roots are found to about 1e-14, so the difference is exact to about 1e-8 relative, far below
+the error bars checked).
+"""
+
+
+import pytest
+
+import femodes as fm
+from femodes import FemodesError
+from femodes import reference as ref
+
+A90, B90 = 22.86e-3, 10.16e-3  # WR-90 inner size (EIA)
+# a slab filling the lower half; wider than the guide, so that it still fills the full width
+# when the width changes (a region reaching outside the guide is cut at the wall)
+SLAB = fm.rectangle(2 * A90, B90 / 2).translated(0, -B90 / 4)
+
+
+def _regions(eps=2.25):
+    return [{"name": "slab", "shape": SLAB, "eps_r": eps}]
+
+
+def _cutoffs(eps, n=3, a=A90, b=B90):
+    """LSE / LSM cutoffs (Hz) of the half-filled a x b guide (transverse resonance, Collin ch. 6)."""
+    return [c.frequency for c in ref.layered_guide_cutoffs(a, b, [(b / 2, eps, 1.0), (b / 2, 1.0, 1.0)], n)]
+
+
+# ----------------------------------------------------------------------------- seek
+
+def test_seek_the_slab_permittivity_for_a_target_cutoff():
+    # the target is the reference fc1 at eps_r = 2.5: seek must find 2.5 within its uncertainty
+    want = _cutoffs(2.5)[0]
+    r = fm.seek(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.eps_r": (2.0, 3.0)}, {"fc1": want},
+                modes=2, accuracy=1e-5, regions=_regions())
+    got, err = r.values["region.slab.eps_r"], r.errors["region.slab.eps_r"]
+    assert abs(got - 2.5) <= err <= 1e-5
+    assert abs(r.achieved["fc1"] - want) <= 3 * r.achieved_error["fc1"]
+    print(f"seek eps_r: {got:.10g} +- {err:.2g}, true / reported {abs(got - 2.5) / err:.2g}, {r.solves} solves")
+
+
+def test_seek_the_width_of_a_loaded_guide_for_a_target_ratio():
+    # a shape parameter free, the slab fixed: the width at which fc2 / fc1 of the half-filled
+    # guide (eps_r 2.25) is the reference ratio at a = 22.86 mm
+    f = _cutoffs(2.25, 2)
+    r = fm.seek(fm.rectangle, {"height": B90}, {"width": (20e-3, 26e-3)}, {"ratio": f[1] / f[0]}, modes=2,
+                accuracy=1e-5, regions=_regions())
+    assert abs(r.values["width"] - A90) <= r.errors["width"] <= 1e-3 * A90
+    print(f"seek width: true / reported {abs(r.values['width'] - A90) / r.errors['width']:.2g}, {r.solves} solves")
+
+
+def test_loaded_seek_refusals():
+    base = dict(modes=2, accuracy=1e-3, regions=_regions())
+    with pytest.raises(FemodesError, match="region.slab.eps_r"):
+        fm.seek(fm.rectangle, {"width": A90, "height": B90}, {"region.other.eps_r": (2, 3)}, {"fc1": 6e9}, **base)
+    with pytest.raises(FemodesError, match="must be positive"):
+        fm.seek(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.eps_r": (0, 3)}, {"fc1": 6e9}, **base)
+    with pytest.raises(FemodesError, match="only for the target alpha"):
+        fm.seek(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.tan_delta": (0, 1e-3)}, {"fc1": 6e9}, **base)
