@@ -11,6 +11,7 @@ the error bars checked).
 """
 
 
+import numpy as np
 import pytest
 
 import femodes as fm
@@ -63,3 +64,73 @@ def test_loaded_seek_refusals():
         fm.seek(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.eps_r": (0, 3)}, {"fc1": 6e9}, **base)
     with pytest.raises(FemodesError, match="only for the target alpha"):
         fm.seek(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.tan_delta": (0, 1e-3)}, {"fc1": 6e9}, **base)
+
+
+# ----------------------------------------------------------------------------- sensitivity
+
+def _layers_cutoffs(layers, n=3, a=A90, b=B90):
+    return np.array([c.frequency for c in ref.layered_guide_cutoffs(a, b, layers, n)])
+
+
+def _ref_derivative(f, x, rel=1e-5):
+    """Central difference of the reference with a tiny step (exact to ~1e-8 relative)."""
+    d = rel * x
+    return (f(x + d) - f(x - d)) / (2 * d)
+
+
+@pytest.fixture(scope="module")
+def slab_sensitivity():
+    return fm.sensitivity(fm.rectangle, {"width": A90, "height": B90}, modes=3, accuracy=1e-5, regions=_regions())
+
+
+def test_material_sensitivities_against_the_transverse_resonance_roots(slab_sensitivity):
+    s = slab_sensitivity
+    e = 2.25
+    want = {
+        "region.slab.eps_r": _ref_derivative(lambda x: _layers_cutoffs([(B90 / 2, x, 1.0), (B90 / 2, 1.0, 1.0)]), e),
+        "region.slab.mu_r": _ref_derivative(lambda x: _layers_cutoffs([(B90 / 2, e, x), (B90 / 2, 1.0, 1.0)]), 1.0),
+        "eps_r": _ref_derivative(lambda x: _layers_cutoffs([(B90 / 2, e, 1.0), (B90 / 2, x, 1.0)]), 1.0),
+        "mu_r": _ref_derivative(lambda x: _layers_cutoffs([(B90 / 2, e, 1.0), (B90 / 2, 1.0, x)]), 1.0),
+    }
+    for name, w in want.items():
+        got, err = s.dfc[name], s.dfc_error[name]
+        assert np.all(np.abs(got - w) <= err), (name, got, w, err)
+        assert np.all(err <= 1e-4 * np.abs(w)), (name, err / np.abs(w))
+        assert s.method[name].startswith("first-order perturbation")
+        print(name, "true / reported", np.array2string(np.abs(got - w) / err, precision=2))
+    # the energy shares of the slab and the fill add up: sum_R eps_R d fc / d eps_R = -fc / 2
+    total = e * s.dfc["region.slab.eps_r"] + s.dfc["eps_r"]
+    assert np.allclose(total, -s.fc / 2, rtol=1e-9)
+    assert "region.slab.tan_delta" in s.skipped
+
+
+def test_shape_sensitivities_by_differences_of_solves(slab_sensitivity):
+    s = slab_sensitivity
+    e = 2.25
+    # the width: the slab (wider than the guide) fills every width, so the reference is the
+    # layered guide of width a
+    w = _ref_derivative(lambda a: _layers_cutoffs([(B90 / 2, e, 1.0), (B90 / 2, 1.0, 1.0)], a=a), A90)
+    got, err = s.dfc["width"], s.dfc_error["width"]
+    assert np.all(np.abs(got - w) <= err)
+    assert np.all(err <= 1e-3 * s.fc / A90)
+    assert s.method["width"].startswith("central difference") and "kink" not in s.method["width"]
+    print("width: true / reported", np.array2string(np.abs(got - w) / err, precision=2))
+
+    # the height: the guide centred, the slab fixed on the old floor.  A taller guide leaves an
+    # air gap under the slab, a lower one cuts the slab: fc(height) has a kink, and the two
+    # one-sided derivatives (reference: three and two layers) must both lie within the error bar
+    def taller(b):
+        g = (b - B90) / 2
+        return _layers_cutoffs([(g, 1.0, 1.0), (B90 / 2, e, 1.0), (B90 / 2 + g, 1.0, 1.0)], b=b)
+
+    def lower(b):
+        g = (b - B90) / 2
+        return _layers_cutoffs([(B90 / 2 + g, e, 1.0), (B90 / 2 + g, 1.0, 1.0)], b=b)
+
+    f0, step = _layers_cutoffs([(B90 / 2, e, 1.0), (B90 / 2, 1.0, 1.0)]), 1e-6 * B90
+    up, down = (taller(B90 + step) - f0) / step, (f0 - lower(B90 - step)) / step
+    got, err = s.dfc["height"], s.dfc_error["height"]
+    assert np.all(np.abs(got - up) <= err) and np.all(np.abs(got - down) <= err)
+    assert "kink" in s.method["height"]
+    print("height: true / reported (above, below)", np.array2string(np.abs(got - up) / err, precision=2),
+          np.array2string(np.abs(got - down) / err, precision=2))

@@ -68,6 +68,8 @@ from femodes.geometry.section import Section
 from femodes.modes.model import ModeSet
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
+from femodes.studies.loaded_sensitivity import loaded_sensitivities
+from femodes.studies.sweeps import _regions
 
 __all__ = ["sensitivity", "Sensitivity", "DISCRETE_PARAMETERS"]
 
@@ -103,6 +105,9 @@ class Sensitivity:
     groups     : the degenerate groups (tuples of mode indices, one family each) whose members
                  carry the branch derivatives of the group (module docstring)
     n_dofs, order : of the nominal (and derivative) discretisation
+    method     : parameter name -> how its derivative was found (loaded guides:
+                 :mod:`femodes.studies.loaded_sensitivity`; empty for a homogeneous guide, whose
+                 derivatives are all the shape derivative of the module docstring)
     """
 
     dfc: dict
@@ -116,6 +121,7 @@ class Sensitivity:
     groups: tuple = ()
     n_dofs: int = 0
     order: int = 0
+    method: dict = field(default_factory=dict)
 
     def relative(self, name):
         """Normalised sensitivity (p / fc) d fc / d p of each mode to parameter ``name``
@@ -132,7 +138,7 @@ class Sensitivity:
                 for i, lab in enumerate(self.labels)]
 
 
-def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
+def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, **options):
     """d fc / d p of the ``modes`` lowest modes of ``shape(**parameters)`` for every numeric
     parameter p of the shape, from one nominal solve (:func:`femodes.solve` with ``accuracy``
     and ``options``: eps_r, mu_r, family, order, mesh_size, max_iterations).
@@ -142,11 +148,29 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
     parameter whose value (given or default) is a real number gets a sensitivity, except counts
     (``ridges``) and parameters whose change alters the outline's pieces (a corner radius of 0:
     a fillet appears) or leaves the valid range; those are listed in ``.skipped`` with the reason.
-    Offsets (pairs) are not differentiated.  Homogeneously filled guides only (the scalar solver).
+    Offsets (pairs) are not differentiated.
+
+    ``regions``: dielectric regions put into the guide, as for :func:`femodes.sweep` (dicts
+    {"name", "shape" (a Section, placed), "eps_r", "mu_r", "tan_delta"}): the guide is solved
+    full-vector and the sensitivities are those of
+    :mod:`femodes.studies.loaded_sensitivity`: to each region's ``region.NAME.eps_r`` and
+    ``region.NAME.mu_r`` and the fill's ``eps_r``, ``mu_r`` by first-order perturbation, to the
+    shape's parameters by central differences of whole solves (``.method`` says which).
 
     Returns a :class:`Sensitivity`; see the module docstring for the physics and the error.
     """
     values, names = _check_inputs(shape, parameters)
+    regions = _regions(regions)
+    if regions is not None:
+        if "frequency" in options:
+            raise FemodesError("frequency= does not apply: the sensitivities are of the loaded guide's cutoffs")
+        try:
+            accuracy = float(accuracy)
+        except (TypeError, ValueError):
+            raise FemodesError(f"accuracy must be a number, got {accuracy!r}") from None
+        acc = accuracy / NOMINAL_MARGIN if 1e-11 * NOMINAL_MARGIN <= accuracy < 0.1 else accuracy
+        return Sensitivity(**loaded_sensitivities(shape, values, names, regions, modes, acc, options,
+                                                  DISCRETE_PARAMETERS))
     try:
         section = shape(**values)
     except TypeError as exc:
@@ -155,8 +179,8 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
         raise FemodesError(f"shape must return a Section (e.g. femodes.double_ridge), {_name(shape)} returned "
                            f"{type(section).__name__}")
     if section.materials:
-        raise FemodesError("sensitivity() handles homogeneously filled guides (the scalar TE / TM problems) for now; "
-                           "this section has material regions: solve it at perturbed parameters instead")
+        raise FemodesError("the shape must return a homogeneously filled section; this one has material regions of "
+                           "its own: give the regions as regions=[{'name': ..., 'shape': ..., 'eps_r': ...}]")
     if "frequency" in options:
         raise FemodesError("frequency= does not apply: a homogeneously filled guide's sensitivities are of its cutoffs")
     try:
