@@ -134,3 +134,42 @@ def test_shape_sensitivities_by_differences_of_solves(slab_sensitivity):
     assert "kink" in s.method["height"]
     print("height: true / reported (above, below)", np.array2string(np.abs(got - up) / err, precision=2),
           np.array2string(np.abs(got - down) / err, precision=2))
+
+
+# ----------------------------------------------------------------------------- tolerance
+
+def test_tolerance_of_a_loaded_guide_against_the_reference_linearisation():
+    # eps_r of the slab +- 0.05 and the width +- 0.05 mm: the worst case and the Monte Carlo
+    # spread of fc1, fc2 from the reference's derivatives (tiny-step differences of the
+    # transverse-resonance roots), and the reference at the four corners within the worst case
+    # plus its own second-order part
+    e, te, ta = 2.25, 0.05, 0.05e-3
+    t = fm.tolerance(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.eps_r": te, "width": ta}, modes=3,
+                     accuracy=1e-5, samples=20000, regions=_regions(e))
+    assert set(t.sensitivity.dfc) == {"region.slab.eps_r", "width"}   # only what has a tolerance
+
+    def f(x, a):
+        return _layers_cutoffs([(B90 / 2, x, 1.0), (B90 / 2, 1.0, 1.0)], 2, a=a)
+
+    de = _ref_derivative(lambda x: f(x, A90), e)
+    da = _ref_derivative(lambda a: f(e, a), A90)
+    linear = np.abs(de) * te + np.abs(da) * ta
+    bound = (np.abs(t.sensitivity.dfc_error["region.slab.eps_r"][:2]) * te
+             + np.abs(t.sensitivity.dfc_error["width"][:2]) * ta)
+    worst = np.array([t.of("fc1")[1], t.of("fc2")[1]])
+    assert np.all(worst - 2 * bound <= linear) and np.all(linear <= worst)
+    # uniform and independent: std = sqrt(sum (d t)^2 / 3); 20000 draws: within 2 %
+    std = np.sqrt(((de * te) ** 2 + (da * ta) ** 2) / 3)
+    assert np.allclose([t.of("fc1")[2], t.of("fc2")[2]], std, rtol=0.02)
+    f0 = f(e, A90)
+    corners = np.array([np.abs(f(e + se * te, A90 + sa * ta) - f0) for se in (-1, 1) for sa in (-1, 1)]).max(axis=0)
+    second = np.abs(f(e + te, A90) - 2 * f0 + f(e - te, A90)) / 2 + np.abs(f(e, A90 + ta) - 2 * f0 + f(e, A90 - ta)) / 2
+    assert np.all(corners <= worst + 2 * second)
+    assert t.contributions["fc1"][0][0] == "region.slab.eps_r"   # the permittivity moves fc1 most here
+    print("tolerance fc1, fc2: worst", worst, "reference linear", linear, "corners", corners)
+
+
+def test_tolerance_refuses_a_loss_tangent():
+    with pytest.raises(FemodesError, match="no sensitivity to region.slab.tan_delta.*loss tangent"):
+        fm.tolerance(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.tan_delta": 1e-4}, modes=2,
+                     accuracy=1e-3, regions=_regions())

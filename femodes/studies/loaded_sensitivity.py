@@ -138,11 +138,12 @@ class _Cut:
         self.frequency, self.error, self.field = float(frequency), float(error), field
 
 
-def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options, discrete=()):
+def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options, discrete=(), only=None):
     """The parts of a :class:`femodes.studies.Sensitivity` of ``shape(**values)`` with
     ``regions``: dict(dfc, dfc_error, modes, labels, fc, fc_error, parameters, skipped, method,
     n_dofs, order).  ``names``: the shape's numeric parameters; ``options``: eps_r, mu_r, order of
-    the solve (the fill's eps_r, mu_r); ``accuracy`` that of every solve."""
+    the solve (the fill's eps_r, mu_r); ``accuracy`` that of every solve; ``only`` a set of the
+    parameter names to differentiate (None: all)."""
     if "family" in options:
         raise FemodesError("family= does not apply to a guide with regions: its modes are hybrid (leave family out)")
     unknown = sorted(set(options) - {"eps_r", "mu_r", "order"})
@@ -168,12 +169,18 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
         materials[f"region.{r['name']}.eps_r"] = ("eps_r", i, r["eps_r"])
         materials[f"region.{r['name']}.mu_r"] = ("mu_r", i, r["mu_r"])
     skipped = {f"region.{r['name']}.tan_delta": "a loss tangent does not move a cutoff" for r in regions}
-    derivs = _material_derivatives(section, problem, nominal, materials)
+    params = dict(values)
+    params.update({k: spec[2] for k, spec in materials.items()})
+    if only is not None:
+        materials = {k: v for k, v in materials.items() if k in only}
+        skipped = {k: v for k, v in skipped.items() if k in only}
+        names = [k for k in names if k in only]
+    derivs = _material_derivatives(section, problem, nominal, materials) if materials else {}
     method = {name: PERTURBATION for name in materials}
 
     # shape parameters: central differences of whole solves at p +- h and p +- h / 2
     skipped.update({k: "an offset or other pair: not differentiated" for k, v in values.items()
-                    if isinstance(v, (tuple, list, np.ndarray))})
+                    if isinstance(v, (tuple, list, np.ndarray)) and (only is None or k in only)})
     n = len(nominal)
     for name in names:
         v = values[name]
@@ -217,8 +224,6 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
         method[name] = DIFFERENCE.format(h) + (f"; {', '.join(kinks)}: the slopes on the two sides differ (a kink, "
                                                 "e.g. a region meeting the wall): their mean, with their whole "
                                                 "difference in the error" if kinks else "")
-    params = dict(values)
-    params.update({k: spec[2] for k, spec in materials.items()})
     return dict(dfc={k: v[0] for k, v in derivs.items()}, dfc_error={k: v[1] for k, v in derivs.items()},
                 modes=tuple(nominal), labels=tuple(m.label for m in nominal),
                 fc=np.array([m.fc for m in nominal]), fc_error=np.array([m.fc_error for m in nominal]),

@@ -138,7 +138,7 @@ class Sensitivity:
                 for i, lab in enumerate(self.labels)]
 
 
-def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, **options):
+def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only=None, **options):
     """d fc / d p of the ``modes`` lowest modes of ``shape(**parameters)`` for every numeric
     parameter p of the shape, from one nominal solve (:func:`femodes.solve` with ``accuracy``
     and ``options``: eps_r, mu_r, family, order, mesh_size, max_iterations).
@@ -157,10 +157,24 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, **op
     ``region.NAME.mu_r`` and the fill's ``eps_r``, ``mu_r`` by first-order perturbation, to the
     shape's parameters by central differences of whole solves (``.method`` says which).
 
+    ``only``: the names of the parameters to differentiate (default: all); a loaded guide's
+    shape parameters cost four solves each, so :func:`femodes.tolerance` asks for its own only.
+
     Returns a :class:`Sensitivity`; see the module docstring for the physics and the error.
     """
     values, names = _check_inputs(shape, parameters)
     regions = _regions(regions)
+    wanted = None
+    if only is not None:
+        if isinstance(only, str) or not hasattr(only, "__iter__"):
+            raise FemodesError(f"only must be a list of parameter names, got {only!r}")
+        wanted = set(only)
+        extra = ({"eps_r", "mu_r"} | {f"region.{r['name']}.{k}" for r in regions for k in ("eps_r", "mu_r", "tan_delta")}
+                 if regions is not None else set())
+        unknown = sorted(wanted - set(values) - extra)
+        if unknown:
+            raise FemodesError(f"no sensitivity to {', '.join(unknown)}: not a parameter of {_name(shape)} here; the "
+                               "parameters: " + ", ".join(list(values) + sorted(extra)))
     if regions is not None:
         if "frequency" in options:
             raise FemodesError("frequency= does not apply: the sensitivities are of the loaded guide's cutoffs")
@@ -170,7 +184,7 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, **op
             raise FemodesError(f"accuracy must be a number, got {accuracy!r}") from None
         acc = accuracy / NOMINAL_MARGIN if 1e-11 * NOMINAL_MARGIN <= accuracy < 0.1 else accuracy
         return Sensitivity(**loaded_sensitivities(shape, values, names, regions, modes, acc, options,
-                                                  DISCRETE_PARAMETERS))
+                                                  DISCRETE_PARAMETERS, wanted))
     try:
         section = shape(**values)
     except TypeError as exc:
@@ -201,6 +215,8 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, **op
     skipped = {k: "an offset or other pair: not differentiated" for k, v in values.items()
                if isinstance(v, (tuple, list, np.ndarray))}
     for n in names:
+        if wanted is not None and n not in wanted:
+            continue
         v = values[n]
         if n in DISCRETE_PARAMETERS:
             skipped[n] = "a count, not a dimension"
