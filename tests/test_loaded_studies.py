@@ -173,3 +173,66 @@ def test_tolerance_refuses_a_loss_tangent():
     with pytest.raises(FemodesError, match="no sensitivity to region.slab.tan_delta.*loss tangent"):
         fm.tolerance(fm.rectangle, {"width": A90, "height": B90}, {"region.slab.tan_delta": 1e-4}, modes=2,
                      accuracy=1e-3, regions=_regions())
+
+
+# ----------------------------------------------------------------------------- case files and CLI
+
+CASE = """title = "half-filled WR-90"
+[guide]
+shape = "rectangle"
+width = 22.86
+height = 10.16
+[[region]]
+name = "slab"
+shape = "rectangle"
+width = 45.72
+height = 5.08
+offset = [0, -2.54]
+eps_r = 2.25
+[solve]
+modes = 2
+accuracy = 1e-5
+"""
+
+
+def _run(tmp_path, capsys, text, *argv):
+    from femodes.cli import main
+
+    case = tmp_path / "case.toml"
+    case.write_text(text, encoding="utf-8")
+    code = main([argv[0], str(case)] + list(argv[1:]))
+    out = capsys.readouterr()
+    return code, out.out, out.err
+
+
+def test_seek_and_tolerance_tables_of_a_loaded_case(tmp_path, capsys):
+    want = _cutoffs(2.5, 1)[0]
+    code, out, _ = _run(tmp_path, capsys, CASE + f"[seek]\nregion.slab.eps_r = [2.0, 3.0]\nfc1 = {want / 1e9!r}\n",
+                        "seek")
+    assert code == 0
+    line = next(x for x in out.splitlines() if x.strip().startswith("region.slab.eps_r ="))
+    value, error = (float(w) for w in line.split("=")[1].split("±"))   # a permittivity has no unit
+    assert abs(value - 2.5) <= error
+    code, out, _ = _run(tmp_path, capsys, CASE + "[tolerance]\nregion.slab.eps_r = 0.05\nsamples = 1000\n", "tolerance")
+    assert code == 0 and "region.slab.eps_r ± 0.05" in out and "fc1" in out
+    # the same worst case as the reference's linearisation (tiny-step difference of the roots)
+    de = _ref_derivative(lambda x: _layers_cutoffs([(B90 / 2, x, 1.0), (B90 / 2, 1.0, 1.0)], 1), 2.25)[0]
+    row = next(line for line in out.splitlines() if line.strip().startswith("fc1"))
+    assert f"{abs(de) * 0.05 / 1e6:.3g}"[:4] in row
+
+
+def test_sensitivity_verb_of_a_loaded_case(tmp_path, capsys):
+    code, out, _ = _run(tmp_path, capsys, CASE, "sensitivity")
+    assert code == 0
+    assert "d fc / d region.slab.eps_r [MHz]" in out and "d fc / d width [MHz/mm]" in out
+    assert "first-order perturbation" in out and "central difference" in out
+
+
+def test_refusals_in_loaded_case_files(tmp_path, capsys):
+    code, _, err = _run(tmp_path, capsys, CASE + "[seek]\nregion.lid.eps_r = [2.0, 3.0]\nfc1 = 6\n", "seek")
+    assert code == 2 and "region.lid.eps_r in [seek] names no [[region]]" in err and len(err.strip().splitlines()) == 1
+    code, _, err = _run(tmp_path, capsys, CASE + "[tolerance]\nregion.slab.loss = 0.1\n", "tolerance")
+    assert code == 2 and "region.slab.loss in [tolerance]" in err
+    plain = CASE.split("[[region]]")[0] + "[solve]\nmodes = 2\n"
+    code, _, err = _run(tmp_path, capsys, plain + "[tolerance]\nregion.slab.eps_r = 0.1\n", "tolerance")
+    assert code == 2 and "no [[region]] tables" in err

@@ -147,7 +147,8 @@ def seek_table(result, labels=None, title=None) -> str:
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""), "goal seeking:"]
     for name, v in result.values.items():
         unit, s = _unit(name)
-        lines.append(f"  {labels.get(name, name)} = {v * s:.9g} {unit} ± {result.errors[name] * s:.1g} {unit}")
+        u = "" if unit == "1" else f" {unit}"
+        lines.append(f"  {labels.get(name, name)} = {v * s:.9g}{u} ± {result.errors[name] * s:.1g}{u}")
     for name, v in result.achieved.items():
         lines.append(f"  reached {name} = {_q_text(name, v, result.achieved_error[name])}")
     lines.append(f"  ({result.solves} solves; the uncertainty of a value is the error bar of its target quantity "
