@@ -205,14 +205,40 @@ def _run(tmp_path, capsys, text, *argv):
     return code, out.out, out.err
 
 
+SIDE_CASE = """[guide]
+shape = "rectangle"
+width = 22.86
+height = 10.16
+[[region]]
+name = "slab"
+shape = "rectangle"
+width = 4.0
+height = 10.16
+offset = [-9.43, 0]
+eps_r = 2.2
+[solve]
+modes = 1
+accuracy = 1e-4
+[analysis]
+frequency = 9
+[seek]
+region.slab.eps_r = [2.0, 3.0]
+"""
+
+
 def test_seek_and_tolerance_tables_of_a_loaded_case(tmp_path, capsys):
-    want = _cutoffs(2.5, 1)[0]
-    code, out, _ = _run(tmp_path, capsys, CASE + f"[seek]\nregion.slab.eps_r = [2.0, 3.0]\nfc1 = {want / 1e9!r}\n",
-                        "seek")
+    # a 4 mm full-height slab against the side wall of WR-90 at 9 GHz: the slab eps_r whose
+    # TE10-like mode has the Z_PV of the exact piecewise-sine field at eps_r = 2.56 (transverse
+    # resonance, Collin ch. 6; voltage on the centre line; femodes.reference.layered)
+    a, b, t, f = A90, B90, 4e-3, 9e9
+    beta2 = ref.layered_guide_modes(a, b, [(t, 2.56, 1.0), (a - t, 1.0, 1.0)], f, count=1, axis="x")[0].beta2
+    want = ref.side_slab_te_m0_peak_and_voltage(a, b, t, 2.56, f, beta2, a / 2).z_pv
+    code, out, _ = _run(tmp_path, capsys, SIDE_CASE + f"z_pv = {want!r}\n", "seek")
     assert code == 0
     line = next(x for x in out.splitlines() if x.strip().startswith("region.slab.eps_r ="))
     value, error = (float(w) for w in line.split("=")[1].split("±"))   # a permittivity has no unit
-    assert abs(value - 2.5) <= error
+    assert abs(value - 2.56) <= error <= 0.1
+    print(f"seek z_pv: eps_r {value:.6g} +- {error:.2g}, true / reported {abs(value - 2.56) / error:.2g}")
     code, out, _ = _run(tmp_path, capsys, CASE + "[tolerance]\nregion.slab.eps_r = 0.05\nsamples = 1000\n", "tolerance")
     assert code == 0 and "region.slab.eps_r ± 0.05" in out and "fc1" in out
     # the same worst case as the reference's linearisation (tiny-step difference of the roots)

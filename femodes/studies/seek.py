@@ -17,7 +17,8 @@ parameters for two targets: a bounded least-squares solve (scipy.optimize.least_
 two residuals scaled by their targets.
 
 The answer's uncertainty: (the error of the quantity at the solution + its residual |reached -
-target|) divided by its slope (from the evaluation nearest the answer: a secant), i.e. how far the
+target|) divided by its slope (a secant to the nearest evaluation whose quantity differs by more
+than ten times both error bars, else the smallest secant), i.e. how far the
 parameter may be off because the quantity itself is only known to within its error bar and the
 iteration stopped short of the exact root; for two parameters, the same through the inverse
 Jacobian.
@@ -319,12 +320,12 @@ def _loaded_quantities(r, names):
 def _seek_one(name, bound, goals, evaluate, count):
     (goal, want), = goals.items()
     lo, hi = bound
-    q_lo, q_hi = evaluate({name: lo})[goal][0], evaluate({name: hi})[goal][0]
+    cache = {lo: evaluate({name: lo})[goal], hi: evaluate({name: hi})[goal]}  # brentq starts from these
+    q_lo, q_hi = cache[lo][0], cache[hi][0]
     if not min(q_lo, q_hi) <= want <= max(q_lo, q_hi):
         unit, scale = {"ratio": ("", 1.0), "z_pv": (" ohm", 1.0), "alpha": (" Np/m", 1.0)}.get(goal, (" GHz", 1e-9))
         raise FemodesError(f"target {goal} = {want * scale:.6g}{unit} cannot be met for {name} in [{lo:.6g}, {hi:.6g}]: "
                            f"{goal} runs from {q_lo * scale:.6g} to {q_hi * scale:.6g}{unit} there; widen the bounds")
-    cache = {}
 
     def f(x):
         if x not in cache:
@@ -333,15 +334,22 @@ def _seek_one(name, bound, goals, evaluate, count):
 
     # stop when the parameter step moves the quantity by less than about its own error bar
     slope = abs(q_hi - q_lo) / (hi - lo)
-    err0 = evaluate({name: 0.5 * (lo + hi)})[goal][1]
+    mid = 0.5 * (lo + hi)
+    cache[mid] = evaluate({name: mid})[goal]
+    err0 = cache[mid][1]
     xtol = max(err0 / slope if slope > 0 else 0.0, 1e-12 * abs(hi))
     x = optimize.brentq(f, lo, hi, xtol=xtol, rtol=4 * np.finfo(float).eps)
     value, error = (cache[x] if x in cache else evaluate({name: x})[goal])
-    # the local slope from the two evaluations nearest the answer (a secant)
-    near = sorted((abs(k - x), k) for k in cache if k != x)
-    if near:
-        x2 = near[0][1]
-        slope = abs(cache[x2][0] - value) / abs(x2 - x) if x2 != x else slope
+    # the local slope: a secant from the answer to the nearest evaluation whose quantity differs
+    # by well over both error bars (brentq's last steps are within the error bars, and a secant
+    # over them is mostly noise); failing that the smallest secant (a larger uncertainty)
+    secants = [(abs(k - x), abs(q - value) / abs(k - x), abs(q - value) >= 10 * (e + error))
+               for k, (q, e) in cache.items() if k != x]
+    clear = sorted(t for t in secants if t[2])
+    if clear:
+        slope = clear[0][1]
+    elif secants:
+        slope = min(t[1] for t in secants)
     spread = error + abs(value - want)
     return SeekResult({name: float(x)}, {name: float(spread / slope) if slope > 0 else math.inf},
                       {goal: float(value)}, {goal: float(error)}, count[0])
