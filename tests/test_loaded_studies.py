@@ -56,6 +56,17 @@ def test_seek_the_width_of_a_loaded_guide_for_a_target_ratio():
     print(f"seek width: true / reported {abs(r.values['width'] - A90) / r.errors['width']:.2g}, {r.solves} solves")
 
 
+def test_seek_two_parameters_of_a_loaded_guide_for_two_cutoffs():
+    # the slab eps_r and the width at which fc1 and fc2 are the reference's at (2.5, 22.86 mm)
+    f = _cutoffs(2.5, 2)
+    r = fm.seek(fm.rectangle, {"height": B90}, {"region.slab.eps_r": (2.0, 3.0), "width": (20e-3, 26e-3)},
+                {"fc1": f[0], "fc2": f[1]}, modes=2, accuracy=1e-6, regions=_regions())
+    assert abs(r.values["region.slab.eps_r"] - 2.5) <= r.errors["region.slab.eps_r"] <= 1e-4
+    assert abs(r.values["width"] - A90) <= r.errors["width"] <= 1e-6 * A90
+    print(f"two-parameter seek: true / reported {abs(r.values['region.slab.eps_r'] - 2.5) / r.errors['region.slab.eps_r']:.2g}"
+          f", {abs(r.values['width'] - A90) / r.errors['width']:.2g}, {r.solves} solves")
+
+
 def test_loaded_seek_refusals():
     base = dict(modes=2, accuracy=1e-3, regions=_regions())
     with pytest.raises(FemodesError, match="region.slab.eps_r"):
@@ -248,7 +259,7 @@ def test_seek_and_tolerance_tables_of_a_loaded_case(tmp_path, capsys):
 
 
 def test_sensitivity_verb_of_a_loaded_case(tmp_path, capsys):
-    code, out, _ = _run(tmp_path, capsys, CASE, "sensitivity")
+    code, out, _ = _run(tmp_path, capsys, CASE, "sensitivity", "--modes", "1", "--accuracy", "1e-4")
     assert code == 0
     assert "d fc / d region.slab.eps_r [MHz]" in out and "d fc / d width [MHz/mm]" in out
     assert "first-order perturbation" in out and "central difference" in out

@@ -33,11 +33,11 @@ import numpy as np
 from scipy import optimize
 
 from femodes import quantities as Q
-from femodes.api import solve
+from femodes.api import _loaded_modes, solve
 from femodes.errors import FemodesError
 from femodes.studies.loaded_sensitivity import _build, _raw_cutoffs
 from femodes.studies.pointwise import homogeneous_partner, quantities_at
-from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _regions, _shape_function, _split, solve_point
+from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _regions, _shape_function, _split
 
 __all__ = ["seek", "SeekResult"]
 
@@ -231,9 +231,10 @@ _LOADED_MATERIALS = ("eps_r", "mu_r", "tan_delta")
 def _seek_loaded(shape, parameters, vary, targets, regions, *, modes, accuracy, frequency, conductivity, roughness,
                  tan_delta, **options):
     """:func:`seek` of a guide with dielectric ``regions`` (checked by sweeps._regions): each
-    evaluation is one point of a loaded sweep (:func:`femodes.studies.sweeps.solve_point`) for
-    targets at a frequency, else one solve of the cutoffs (:func:`femodes.solvers.loaded.solve_loaded`,
-    the same values and errors without naming the modes, about a third of the time)."""
+    evaluation solves the cutoffs (:func:`femodes.solvers.loaded.solve_loaded`) and, for z_pv or
+    alpha, the mode of largest beta at the frequency, with the values and errors of a loaded
+    sweep point (:mod:`femodes.studies.pointwise`) but without naming the modes (about a third
+    of the time)."""
     allowed = _shape_function(shape)
     goals = _target_names(targets)
     unknown = sorted(set(options) - set(SWEEP_OPTIONS))
@@ -272,20 +273,25 @@ def _seek_loaded(shape, parameters, vary, targets, regions, *, modes, accuracy, 
     fixed = dict(parameters)
 
     at_frequency = any(k in FREQUENCY_TARGETS for k in goals)
+    cutoffs = any(k not in FREQUENCY_TARGETS for k in goals)
 
     def evaluate(point):
         count[0] += 1
-        if at_frequency:
-            r = solve_point(shape, fixed, point, n_modes, accuracy, opts)
-        else:  # cutoffs only: the solver's values and errors, without the modes' names
-            shape_kw, solve_opts, regs, _, _ = _split(point, opts)
-            try:
-                section = _build(shape, dict(fixed, **shape_kw), regs)
-            except FemodesError as exc:
-                r = {"status": "invalid", "message": str(exc)}
-            else:
+        shape_kw, solve_opts, regs, f, analysis = _split(point, opts)
+        try:
+            section = _build(shape, dict(fixed, **shape_kw), regs)
+        except FemodesError as exc:
+            r = {"status": "invalid", "message": str(exc)}
+        else:
+            r = {"status": "ok", "fc": [], "fc_error": []}
+            if cutoffs:  # the solver's values and errors, without naming the modes
                 cuts = _raw_cutoffs(section, n_modes, accuracy, solve_opts)
-                r = {"status": "ok", "fc": [c.frequency for c in cuts], "fc_error": [c.error for c in cuts]}
+                r.update(fc=[c.frequency for c in cuts], fc_error=[c.error for c in cuts])
+            if at_frequency:  # the mode of largest beta at f, unnamed, and its quantities
+                ms, _ = _loaded_modes(section, 1, f, solve_opts.get("eps_r", 1.0), solve_opts.get("mu_r", 1.0),
+                                      accuracy, order=solve_opts.get("order"),
+                                      tan_delta=analysis.get("tan_delta", 0.0), parents=False)
+                r["at_frequency"] = quantities_at(list(ms), f, section=section, **analysis)
         if r["status"] != "ok":
             raise FemodesError(f"the guide refuses {', '.join(f'{k} = {v:.6g}' for k, v in point.items())} inside "
                                f"the bounds: {r['message']}; narrow the bounds")
