@@ -11,6 +11,9 @@ the error bars checked).
 """
 
 
+import json
+import math
+
 import numpy as np
 import pytest
 
@@ -273,3 +276,23 @@ def test_refusals_in_loaded_case_files(tmp_path, capsys):
     plain = CASE.split("[[region]]")[0] + "[solve]\nmodes = 2\n"
     code, _, err = _run(tmp_path, capsys, plain + "[tolerance]\nregion.slab.eps_r = 0.1\n", "tolerance")
     assert code == 2 and "no [[region]] tables" in err
+
+
+def test_a_tolerance_on_the_fill_permittivity_homogeneous_and_loaded(tmp_path, capsys):
+    # homogeneous: fc_10 = c0 / (2 a sqrt(eps_r)) (Pozar sec. 3.3), so the worst case of fc1 under
+    # eps_r +- t is fc1 t / (2 eps_r) to first order
+    eps, t = 2.2, 0.02
+    r = fm.tolerance(fm.rectangle, {"width": A90, "height": B90}, {"eps_r": t}, modes=2, accuracy=1e-6, eps_r=eps,
+                     samples=1000)
+    fc1 = 299792458.0 / (2 * A90 * math.sqrt(eps))
+    nominal, worst, _ = r.of("fc1")
+    assert abs(nominal - fc1) <= r.sensitivity.fc_error[0]
+    assert worst == pytest.approx(fc1 * t / (2 * eps), rel=1e-5)
+    assert r.sensitivity.method["eps_r"].startswith("exact")
+    # loaded, from a case file: the fill is the air above the slab (reference: its layer's eps_r)
+    code, out, _ = _run(tmp_path, capsys, CASE + "[tolerance]\neps_r = 0.01\nsamples = 1000\n", "tolerance", "--json")
+    assert code == 0
+    doc = json.loads(out)
+    d = _ref_derivative(lambda x: _layers_cutoffs([(B90 / 2, 2.25, 1.0), (B90 / 2, x, 1.0)], 2), 1.0)
+    got = np.array(doc["worst"][:2])
+    assert np.all(np.abs(d) * 0.01 <= got) and np.all(got <= np.abs(d) * 0.01 * (1 + 1e-3))

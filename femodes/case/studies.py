@@ -22,6 +22,7 @@ by its name (an unnamed region by its number, region.1.eps_r), as in [sweep]:
     [tolerance]
     region.slab.eps_r = 0.05       # +- 0.05 (no unit)
     width = 0.02
+    eps_r = 0.01                   # the fill's (the [solve] eps_r), for any guide
 
 and ``femodes sensitivity`` gives d fc / d (each region's eps_r and mu_r, the fill's, each [guide]
 dimension): the materials by first-order perturbation, the dimensions by differences of whole
@@ -138,12 +139,18 @@ def build_seek(table, guide):
 def build_tolerance(table, guide):
     """ToleranceSettings from the [tolerance] table and the [guide] table."""
     keys, scale = _shape_keys(guide, "tolerance")
-    _check_keys(table, tuple(keys) + _TOLERANCE_KEYS + ("region",), "[tolerance]",
+    _check_keys(table, tuple(keys) + _TOLERANCE_KEYS + ("region",) + _REGION_PROPS, "[tolerance]",
                 shown=[f"{k} (a [guide] key)" for k in keys] + list(_TOLERANCE_KEYS)
-                + ["region.NAME.eps_r / .mu_r (a [[region]]'s)"])
+                + ["eps_r / mu_r (the fill's)", "region.NAME.eps_r / .mu_r (a [[region]]'s)"])
     tol, labels = {}, {}
     for name, value in table.items():
         if name in _TOLERANCE_KEYS:
+            continue
+        if name in _REGION_PROPS:  # the fill's material: no unit
+            t = _number(f"{name} in [tolerance]", value)
+            if t < 0:
+                raise FemodesError(f"{name} in [tolerance] is a +- tolerance and must be >= 0, got {_show(value)}")
+            tol[name], labels[name] = t, name
             continue
         if name == "region":
             for key, target, v in _region_entries(value, "tolerance"):

@@ -159,6 +159,8 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
 
     ``only``: the names of the parameters to differentiate (default: all); a loaded guide's
     shape parameters cost four solves each, so :func:`femodes.tolerance` asks for its own only.
+    A homogeneously filled guide gives the fill's ``eps_r`` and ``mu_r`` too when ``only`` names
+    them (d fc / d eps_r = -fc / (2 eps_r), exact), so that a tolerance may be a material's.
 
     Returns a :class:`Sensitivity`; see the module docstring for the physics and the error.
     """
@@ -169,8 +171,8 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
         if isinstance(only, str) or not hasattr(only, "__iter__"):
             raise FemodesError(f"only must be a list of parameter names, got {only!r}")
         wanted = set(only)
-        extra = ({"eps_r", "mu_r"} | {f"region.{r['name']}.{k}" for r in regions for k in ("eps_r", "mu_r", "tan_delta")}
-                 if regions is not None else set())
+        extra = {"eps_r", "mu_r"} | ({f"region.{r['name']}.{k}" for r in regions for k in ("eps_r", "mu_r", "tan_delta")}
+                                     if regions is not None else set())
         unknown = sorted(wanted - set(values) - extra)
         if unknown:
             raise FemodesError(f"no sensitivity to {', '.join(unknown)}: not a parameter of {_name(shape)} here; the "
@@ -262,10 +264,20 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
                         dfc[n][k] = scale * dl / (2 * kc[i])
                         err[n][k] = max(SAFETY * scale * max(diff, floor) / (2 * kc[i]),
                                         CUTOFF_FLOOR * ms[k].fc_error / (abs(values[n]) or section.size))
+    params = {n: values[n] for n in names}
+    method = {}
+    # the fill's material, when asked for (only=): fc = c0 kc / (2 pi sqrt(eps_r mu_r)) with kc
+    # fixed by the shape, so d fc / d eps_r = -fc / (2 eps_r) exactly (mu_r alike); the error is
+    # the cutoff's own, fc_error / (2 eps_r)
+    fcs, fc_errs = np.array([m.fc for m in ms]), np.array([m.fc_error for m in ms])
+    for n, value in (("eps_r", float(ms.eps_r)), ("mu_r", float(ms.mu_r))):
+        if wanted is not None and n in wanted:
+            dfc[n], err[n] = -fcs / (2 * value), fc_errs / (2 * value)
+            params[n] = value
+            method[n] = "exact: fc ~ 1 / sqrt(eps_r mu_r) in a homogeneously filled guide"
     return Sensitivity(dfc=dfc, dfc_error=err, modes=ms, labels=tuple(m.label for m in ms),
-                       fc=np.array([m.fc for m in ms]), fc_error=np.array([m.fc_error for m in ms]),
-                       parameters={n: values[n] for n in names}, skipped=skipped,
-                       groups=tuple(group_list), n_dofs=int(ms.n_dofs), order=p)
+                       fc=fcs, fc_error=fc_errs, parameters=params, skipped=skipped,
+                       groups=tuple(group_list), n_dofs=int(ms.n_dofs), order=p, method=method)
 
 
 def _name(shape):
