@@ -296,3 +296,17 @@ def test_a_tolerance_on_the_fill_permittivity_homogeneous_and_loaded(tmp_path, c
     d = _ref_derivative(lambda x: _layers_cutoffs([(B90 / 2, 2.25, 1.0), (B90 / 2, x, 1.0)], 2), 1.0)
     got = np.array(doc["worst"][:2])
     assert np.all(np.abs(d) * 0.01 <= got) and np.all(got <= np.abs(d) * 0.01 * (1 + 1e-3))
+
+
+def test_loaded_study_inputs_are_checked_before_any_solve():
+    base = {"width": A90, "height": B90}
+    with pytest.raises(FemodesError, match="accuracy must lie between"):
+        fm.sensitivity(fm.rectangle, base, accuracy=1.0, regions=_regions())
+    with pytest.raises(FemodesError, match="modes must be a whole number"):
+        fm.sensitivity(fm.rectangle, base, modes=0, regions=_regions())
+    with pytest.raises(FemodesError, match="accuracy must lie between"):
+        fm.seek(fm.rectangle, base, {"region.slab.eps_r": (2, 3)}, {"fc1": 6e9}, accuracy=0.5, regions=_regions())
+    with pytest.raises(FemodesError, match="order of a loaded guide"):
+        fm.seek(fm.rectangle, base, {"region.slab.eps_r": (2, 3)}, {"fc1": 6e9}, order=4, regions=_regions())
+    with pytest.raises(FemodesError, match="family= does not apply"):
+        fm.sensitivity(fm.rectangle, base, family="TE", regions=_regions())

@@ -46,8 +46,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from femodes.api import _loaded_modes
-from femodes.errors import FemodesError
+from femodes.api import _check_count, _loaded_modes
+from femodes.errors import FemodesError, material_number
 from femodes.geometry.mesh import triangle_regions
 from femodes.solvers.loaded import solve_loaded
 from femodes.solvers.vector import VectorProblem
@@ -154,7 +154,8 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
         section = _build(shape, values, regions)
     except FemodesError as exc:
         raise FemodesError(f"the guide with its regions is not valid at the nominal parameters: {exc}") from None
-    eps_r, mu_r = float(options.get("eps_r", 1.0)), float(options.get("mu_r", 1.0))
+    eps_r, mu_r = material_number("eps_r", options.get("eps_r", 1.0)), material_number("mu_r", options.get("mu_r", 1.0))
+    modes = _check_count(modes)
     order = options.get("order")
     if order is not None and order not in (2, 3):
         raise FemodesError(f"order of a loaded guide's sensitivity must be 2 or 3 (its error compares order p with "

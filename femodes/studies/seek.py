@@ -33,8 +33,8 @@ import numpy as np
 from scipy import optimize
 
 from femodes import quantities as Q
-from femodes.api import _loaded_modes, solve
-from femodes.errors import FemodesError
+from femodes.api import _check_count, _loaded_modes, solve
+from femodes.errors import FemodesError, material_number
 from femodes.studies.loaded_sensitivity import _build, _raw_cutoffs
 from femodes.studies.pointwise import homogeneous_partner, quantities_at
 from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _regions, _shape_function, _split
@@ -267,8 +267,15 @@ def _seek_loaded(shape, parameters, vary, targets, regions, *, modes, accuracy, 
                             "conductivity": Q.conductivity_of(conductivity),
                             "roughness": _number("roughness", roughness), "tan_delta": _number("tan_delta", tan_delta)}
     need = max([int(k[2:]) for k in goals if k.startswith("fc")] + [2])
-    n_modes = need + 2 if modes is None else modes
+    n_modes = need + 2 if modes is None else _check_count(modes)
     accuracy = _number("accuracy", accuracy)
+    if not 1e-11 <= accuracy < 0.1:
+        raise FemodesError(f"accuracy must lie between 1e-11 and 0.1 (relative error on each cutoff), got {accuracy!r}")
+    for k in ("eps_r", "mu_r"):
+        if k in options:
+            material_number(k, options[k])
+    if options.get("order") not in (None, 1, 2, 3) or isinstance(options.get("order"), bool):
+        raise FemodesError(f"order of a loaded guide's edge elements must be 1, 2 or 3, got {options['order']!r}")
     count = [0]
     fixed = dict(parameters)
 

@@ -184,7 +184,10 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
             accuracy = float(accuracy)
         except (TypeError, ValueError):
             raise FemodesError(f"accuracy must be a number, got {accuracy!r}") from None
-        acc = accuracy / NOMINAL_MARGIN if 1e-11 * NOMINAL_MARGIN <= accuracy < 0.1 else accuracy
+        if not 1e-11 <= accuracy < 0.1:
+            raise FemodesError(f"accuracy must lie between 1e-11 and 0.1 (relative error on each cutoff), got "
+                               f"{accuracy!r}")
+        acc = accuracy / NOMINAL_MARGIN if 1e-11 * NOMINAL_MARGIN <= accuracy else accuracy
         return Sensitivity(**loaded_sensitivities(shape, values, names, regions, modes, acc, options,
                                                   DISCRETE_PARAMETERS, wanted))
     try:
