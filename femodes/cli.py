@@ -104,7 +104,7 @@ def _parser():
     w.add_argument("--figure", metavar="PATH", help="write the design curves (one parameter) or the map of the "
                    "dominant cutoff (two) to PATH (.png, .svg, .pdf)")
     for verb, what in (("seek", "find the [seek] table's free parameters that meet its targets"),
-                       ("sensitivity", "d fc / d parameter of every mode for every [guide] dimension"),
+                       ("sensitivity", "d fc / d parameter of every mode for every [guide] dimension (and [[region]] eps_r, mu_r)"),
                        ("tolerance", "the spread of the cutoffs and band under the [tolerance] table's tolerances")):
         v = sub.add_parser(verb, help=what, description=what[0].upper() + what[1:] + ", for the guide of a case "
                            "file (its [solve] modes and accuracy).")

@@ -12,6 +12,23 @@
     samples = 20000                # optional: Monte Carlo draws (default 20000)
     distribution = "uniform"       # optional: "uniform" (default) or "normal" (tolerance = 3 sigma)
 
+A guide with [[region]] tables (a loaded guide) takes the same tables, and a region's material
+by its name (an unnamed region by its number, region.1.eps_r), as in [sweep]:
+
+    [seek]                         # the slab's eps_r that puts fc1 at 6 GHz
+    region.slab.eps_r = [2.0, 3.0]
+    fc1 = 6.0
+
+    [tolerance]
+    region.slab.eps_r = 0.05       # +- 0.05 (no unit)
+    width = 0.02
+    eps_r = 0.01                   # the fill's (the [solve] eps_r), for any guide
+
+and ``femodes sensitivity`` gives d fc / d (each region's eps_r and mu_r, the fill's, each [guide]
+dimension): the materials by first-order perturbation, the dimensions by differences of whole
+solves (:mod:`femodes.studies.loaded_sensitivity`).  The regions stay where the case file puts
+them when a [guide] dimension changes (a region reaching outside the guide is cut at the wall).
+
 The fixed parameters are the [guide] table's; the guide's placement does not change a cutoff.
 """
 
@@ -21,7 +38,8 @@ import math
 from dataclasses import dataclass
 
 from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
-from femodes.case.values import _check_keys, _count, _number, _show
+from femodes.case.sweep import _case_regions
+from femodes.case.values import _check_keys, _count, _number, _show, _suggest
 from femodes.errors import FemodesError
 from femodes.studies import seek, sensitivity, tolerance
 
@@ -63,6 +81,25 @@ def _factor(key, scale):
     return math.pi / 180.0 if key.kind == ANGLE else scale
 
 
+#: what a region's material offers to [seek] and [tolerance]
+_REGION_PROPS = ("eps_r", "mu_r")
+
+
+def _region_entries(value, table, props=_REGION_PROPS):
+    """(case key, femodes name, value) of ``region.NAME.PROP = ...`` in [seek] or [tolerance]."""
+    if not isinstance(value, dict) or not value:
+        raise FemodesError(f"region in [{table}] names a [[region]] and its property, e.g. region.slab.eps_r")
+    for reg, entry in value.items():
+        if not isinstance(entry, dict) or not entry:
+            raise FemodesError(f"region.{reg} in [{table}] must name a property: region.{reg}.eps_r (or "
+                               f"{', '.join('.' + p for p in props[1:])})")
+        for prop, v in entry.items():
+            if prop not in props:
+                raise FemodesError(f"region.{reg}.{prop} in [{table}]: a region's {' or '.join(props)} can be used here"
+                                   + _suggest(prop, props))
+            yield f"region.{reg}.{prop}", f"region.{reg}.{prop}", v
+
+
 def _is_target(name):
     return name in ("f_high", "ratio", "z_pv", "alpha") or (name.startswith("fc") and name[2:].isdigit())
 
@@ -73,6 +110,13 @@ def build_seek(table, guide):
     bounds, targets, labels = {}, {}, {}
     for name, value in table.items():
         where = f"{name} in [seek]"
+        if name == "region":
+            for key, target, v in _region_entries(value, "seek", _REGION_PROPS + ("tan_delta",)):
+                if not isinstance(v, list) or len(v) != 2:
+                    raise FemodesError(f"{key} in [seek] must be its bounds [low, high], got {_show(v)}")
+                bounds[target] = tuple(_number(f"{key} in [seek]", x) for x in v)
+                labels[target] = key
+            continue
         if _is_target(name):
             v = _number(where, value)
             targets[name] = v if name in ("ratio", "z_pv", "alpha") else v * 1e9
@@ -84,7 +128,8 @@ def build_seek(table, guide):
             bounds[key.target] = (lo, hi)
             labels[key.target] = name
         else:
-            _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio", "z_pv", "alpha"), "[seek]")
+            _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio", "z_pv", "alpha", "region"),
+                        "[seek]")
     if not bounds or not targets:
         raise FemodesError("[seek] needs the free parameters with their bounds (e.g. ridge_width = [4, 14]) and "
                            "the targets (e.g. fc1 = 1.7, GHz)")
@@ -94,11 +139,25 @@ def build_seek(table, guide):
 def build_tolerance(table, guide):
     """ToleranceSettings from the [tolerance] table and the [guide] table."""
     keys, scale = _shape_keys(guide, "tolerance")
-    _check_keys(table, tuple(keys) + _TOLERANCE_KEYS, "[tolerance]",
-                shown=[f"{k} (a [guide] key)" for k in keys] + list(_TOLERANCE_KEYS))
+    _check_keys(table, tuple(keys) + _TOLERANCE_KEYS + ("region",) + _REGION_PROPS, "[tolerance]",
+                shown=[f"{k} (a [guide] key)" for k in keys] + list(_TOLERANCE_KEYS)
+                + ["eps_r / mu_r (the fill's)", "region.NAME.eps_r / .mu_r (a [[region]]'s)"])
     tol, labels = {}, {}
     for name, value in table.items():
         if name in _TOLERANCE_KEYS:
+            continue
+        if name in _REGION_PROPS:  # the fill's material: no unit
+            t = _number(f"{name} in [tolerance]", value)
+            if t < 0:
+                raise FemodesError(f"{name} in [tolerance] is a +- tolerance and must be >= 0, got {_show(value)}")
+            tol[name], labels[name] = t, name
+            continue
+        if name == "region":
+            for key, target, v in _region_entries(value, "tolerance"):
+                t = _number(f"{key} in [tolerance]", v)
+                if t < 0:
+                    raise FemodesError(f"{key} in [tolerance] is a +- tolerance and must be >= 0, got {_show(v)}")
+                tol[target], labels[target] = t, key
             continue
         v = _number(f"{name} in [tolerance]", value)
         if v < 0:
@@ -114,16 +173,29 @@ def build_tolerance(table, guide):
     return ToleranceSettings(tol, labels, samples, dist)
 
 
-def _shape_and_fixed(case, free=()):
-    if case.loaded:
-        raise FemodesError("design studies of guides with [[region]] tables are not supported yet")
-    if not hasattr(case.section, "kind") or case.section.kind not in SHAPES:
-        raise FemodesError("design studies need a built-in shape in [guide]")
+def _shape_and_fixed(case, free=(), table=None):
+    """(shape function, fixed parameters, extra keyword arguments: the regions of a loaded guide)."""
+    if not hasattr(case.section, "kind") or case.section.kind not in SHAPES or SHAPES[case.section.kind].build is None:
+        raise FemodesError("design studies need a built-in shape in [guide] (a mesh file has no parameters)")
     if getattr(case.section, "magnetic", ()):
         raise FemodesError("design studies of a guide with magnetic_walls are not supported yet (the studied "
                            "shapes are rebuilt without the marks)")
     fixed = {k: v for k, v in case.section.params.items() if k not in free}
-    return SHAPES[case.section.kind].build, fixed
+    extra = {}
+    if case.loaded:
+        regions = _case_regions(case)
+        extra["regions"] = regions
+        names = {r["name"] for r in regions}
+        for name in free:
+            if name.startswith("region.") and name.split(".")[1] not in names:
+                raise FemodesError(f"{name} in [{table}] names no [[region]] of this case; its regions: "
+                                   + ", ".join(sorted(names)) + " (an unnamed region by its number)")
+    else:
+        bad = [n for n in free if n.startswith("region.")]
+        if bad:
+            raise FemodesError(f"{bad[0]} in [{table}]: this guide has no [[region]] tables; add one, or vary a "
+                               "[guide] dimension")
+    return SHAPES[case.section.kind].build, fixed, extra
 
 
 def _options(case):
@@ -138,8 +210,8 @@ def run_seek(case):
     if case.seek is None:
         raise FemodesError("the case file has no [seek] table: add one with the free parameters' bounds and the "
                            "targets")
-    shape, fixed = _shape_and_fixed(case, case.seek.bounds)
-    kw = _options(case)
+    shape, fixed, extra = _shape_and_fixed(case, case.seek.bounds, "seek")
+    kw = dict(_options(case), **extra)
     if "modes" in case.solve:
         kw["modes"] = case.solve["modes"]
     if any(k in ("z_pv", "alpha") for k in case.seek.targets):
@@ -154,8 +226,8 @@ def run_seek(case):
 
 def run_sensitivity(case):
     """:func:`femodes.sensitivity` of the case's guide."""
-    shape, fixed = _shape_and_fixed(case)
-    kw = _options(case)
+    shape, fixed, extra = _shape_and_fixed(case)
+    kw = dict(_options(case), **extra)
     kw["modes"] = case.solve.get("modes", 6)
     return sensitivity(shape, fixed, **kw)
 
@@ -164,8 +236,9 @@ def run_tolerance(case):
     """:func:`femodes.tolerance` of the case's [tolerance] table."""
     if case.tolerance is None:
         raise FemodesError("the case file has no [tolerance] table: add one with the +- tolerance of each dimension")
-    shape, fixed = _shape_and_fixed(case)
-    kw = _options(case)
+    shape, fixed, extra = _shape_and_fixed(case, tuple(case.tolerance.tolerances), "tolerance")
+    fixed = dict(case.section.params)  # every dimension at its nominal value
+    kw = dict(_options(case), **extra)
     kw["modes"] = case.solve.get("modes", 6)
     t = case.tolerance
     return tolerance(shape, fixed, t.tolerances, samples=t.samples, distribution=t.distribution, **kw)

@@ -126,6 +126,8 @@ def sweep_document(result, title=None, labels=None) -> dict:
 
 
 def _unit(name):
+    if name.split(".")[-1] in ("eps_r", "mu_r", "tan_delta"):
+        return ("1", 1.0)  # a material property: no unit
     return ("deg", 180.0 / math.pi) if name == "angle" else ("mm", 1e3)
 
 
@@ -145,7 +147,8 @@ def seek_table(result, labels=None, title=None) -> str:
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""), "goal seeking:"]
     for name, v in result.values.items():
         unit, s = _unit(name)
-        lines.append(f"  {labels.get(name, name)} = {v * s:.9g} {unit} ± {result.errors[name] * s:.1g} {unit}")
+        u = "" if unit == "1" else f" {unit}"
+        lines.append(f"  {labels.get(name, name)} = {v * s:.9g}{u} ± {result.errors[name] * s:.1g}{u}")
     for name, v in result.achieved.items():
         lines.append(f"  reached {name} = {_q_text(name, v, result.achieved_error[name])}")
     lines.append(f"  ({result.solves} solves; the uncertainty of a value is the error bar of its target quantity "
@@ -157,7 +160,8 @@ def sensitivity_table(sens, labels=None, title=None) -> str:
     """d fc / d p of every mode (MHz per mm, or per degree) with its error, one column a parameter."""
     labels = labels or {}
     names = list(sens.dfc)
-    head = ["#", "label", "fc [GHz]"] + [f"d fc / d {labels.get(n, n)} [MHz/{_unit(n)[0]}]" for n in names]
+    head = ["#", "label", "fc [GHz]"] + [f"d fc / d {labels.get(n, n)} [MHz" + ("" if _unit(n)[0] == "1" else f"/{_unit(n)[0]}")
+                                         + "]" for n in names]
     rows = []
     for i, lab in enumerate(sens.labels):
         row = [str(i + 1), lab, f"{sens.fc[i] / 1e9:.9g}"]
@@ -169,6 +173,8 @@ def sensitivity_table(sens, labels=None, title=None) -> str:
     lines += _grid(head, rows, set(range(2, len(head))) | {0})
     for n, why in sens.skipped.items():
         lines.append(f"  {labels.get(n, n)}: no sensitivity ({why})")
+    for n, how in (getattr(sens, "method", {}) or {}).items():
+        lines.append(f"  {labels.get(n, n)}: {how}")
     return "\n".join(lines) + "\n"
 
 
@@ -176,7 +182,8 @@ def tolerance_table(tol, labels=None, title=None) -> str:
     """Worst case and Monte Carlo spread of each quantity, and the dimension contributing most."""
     labels = labels or {}
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""),
-             "tolerances: " + ", ".join(f"{labels.get(n, n)} ± {v * _unit(n)[1]:.4g} {_unit(n)[0]}"
+             "tolerances: " + ", ".join(f"{labels.get(n, n)} ± {v * _unit(n)[1]:.4g}"
+                                        + ("" if _unit(n)[0] == "1" else f" {_unit(n)[0]}")
                                         for n, v in tol.tolerances.items())]
     head = ["quantity", "nominal", "worst case ±", "std", "1 % .. 99 %", "most from"]
     rows = []
@@ -203,18 +210,20 @@ def study_document(kind, result, labels=None, title=None) -> dict:
     if kind == "seek":
         doc.update(values=result.values, errors=result.errors, achieved=result.achieved,
                    achieved_error=result.achieved_error, solves=result.solves,
-                   units={"values": "m (rad for an angle)",
+                   units={"values": "m (rad for an angle, 1 for a material's eps_r / mu_r)",
                           "achieved": "Hz (ratio: 1, z_pv: ohm, alpha: Np/m)"})
     elif kind == "sensitivity":
         doc.update(labels=list(result.labels), fc=[_finite(v) for v in result.fc],
                    dfc={k: [_finite(x) for x in v] for k, v in result.dfc.items()},
                    dfc_error={k: [_finite(x) for x in v] for k, v in result.dfc_error.items()},
-                   skipped=dict(result.skipped), units={"fc": "Hz", "dfc": "Hz per m (per rad for an angle)"})
+                   skipped=dict(result.skipped), method=dict(getattr(result, "method", {}) or {}),
+                   units={"fc": "Hz", "dfc": "Hz per m (per rad for an angle, per 1 for eps_r / mu_r)"})
     else:
         doc.update(quantities=list(result.names), nominal=[_finite(v) for v in result.nominal],
                    worst=[_finite(v) for v in result.worst], std=[_finite(v) for v in result.std],
                    p01=[_finite(v) for v in result.p01], p99=[_finite(v) for v in result.p99],
                    contributions={q: [list(c) for c in v] for q, v in result.contributions.items()},
-                   tolerances=result.tolerances, units={"frequencies": "Hz", "ratio": "1", "tolerances": "m"})
+                   tolerances=result.tolerances, units={"frequencies": "Hz", "ratio": "1",
+                                                        "tolerances": "m (rad for an angle, 1 for eps_r / mu_r)"})
     doc["case_keys"] = labels
     return doc

@@ -68,6 +68,8 @@ from femodes.geometry.section import Section
 from femodes.modes.model import ModeSet
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
+from femodes.studies.loaded_sensitivity import loaded_sensitivities
+from femodes.studies.sweeps import _regions
 
 __all__ = ["sensitivity", "Sensitivity", "DISCRETE_PARAMETERS"]
 
@@ -103,6 +105,9 @@ class Sensitivity:
     groups     : the degenerate groups (tuples of mode indices, one family each) whose members
                  carry the branch derivatives of the group (module docstring)
     n_dofs, order : of the nominal (and derivative) discretisation
+    method     : parameter name -> how its derivative was found (loaded guides:
+                 :mod:`femodes.studies.loaded_sensitivity`; empty for a homogeneous guide, whose
+                 derivatives are all the shape derivative of the module docstring)
     """
 
     dfc: dict
@@ -116,6 +121,7 @@ class Sensitivity:
     groups: tuple = ()
     n_dofs: int = 0
     order: int = 0
+    method: dict = field(default_factory=dict)
 
     def relative(self, name):
         """Normalised sensitivity (p / fc) d fc / d p of each mode to parameter ``name``
@@ -132,7 +138,7 @@ class Sensitivity:
                 for i, lab in enumerate(self.labels)]
 
 
-def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
+def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only=None, **options):
     """d fc / d p of the ``modes`` lowest modes of ``shape(**parameters)`` for every numeric
     parameter p of the shape, from one nominal solve (:func:`femodes.solve` with ``accuracy``
     and ``options``: eps_r, mu_r, family, order, mesh_size, max_iterations).
@@ -142,11 +148,48 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
     parameter whose value (given or default) is a real number gets a sensitivity, except counts
     (``ridges``) and parameters whose change alters the outline's pieces (a corner radius of 0:
     a fillet appears) or leaves the valid range; those are listed in ``.skipped`` with the reason.
-    Offsets (pairs) are not differentiated.  Homogeneously filled guides only (the scalar solver).
+    Offsets (pairs) are not differentiated.
+
+    ``regions``: dielectric regions put into the guide, as for :func:`femodes.sweep` (dicts
+    {"name", "shape" (a Section, placed), "eps_r", "mu_r", "tan_delta"}): the guide is solved
+    full-vector and the sensitivities are those of
+    :mod:`femodes.studies.loaded_sensitivity`: to each region's ``region.NAME.eps_r`` and
+    ``region.NAME.mu_r`` and the fill's ``eps_r``, ``mu_r`` by first-order perturbation, to the
+    shape's parameters by central differences of whole solves (``.method`` says which).
+
+    ``only``: the names of the parameters to differentiate (default: all); a loaded guide's
+    shape parameters cost four solves each, so :func:`femodes.tolerance` asks for its own only.
+    A homogeneously filled guide gives the fill's ``eps_r`` and ``mu_r`` too when ``only`` names
+    them (d fc / d eps_r = -fc / (2 eps_r), exact), so that a tolerance may be a material's.
 
     Returns a :class:`Sensitivity`; see the module docstring for the physics and the error.
     """
     values, names = _check_inputs(shape, parameters)
+    regions = _regions(regions)
+    wanted = None
+    if only is not None:
+        if isinstance(only, str) or not hasattr(only, "__iter__"):
+            raise FemodesError(f"only must be a list of parameter names, got {only!r}")
+        wanted = set(only)
+        extra = {"eps_r", "mu_r"} | ({f"region.{r['name']}.{k}" for r in regions for k in ("eps_r", "mu_r", "tan_delta")}
+                                     if regions is not None else set())
+        unknown = sorted(wanted - set(values) - extra)
+        if unknown:
+            raise FemodesError(f"no sensitivity to {', '.join(unknown)}: not a parameter of {_name(shape)} here; the "
+                               "parameters: " + ", ".join(list(values) + sorted(extra)))
+    if regions is not None:
+        if "frequency" in options:
+            raise FemodesError("frequency= does not apply: the sensitivities are of the loaded guide's cutoffs")
+        try:
+            accuracy = float(accuracy)
+        except (TypeError, ValueError):
+            raise FemodesError(f"accuracy must be a number, got {accuracy!r}") from None
+        if not 1e-11 <= accuracy < 0.1:
+            raise FemodesError(f"accuracy must lie between 1e-11 and 0.1 (relative error on each cutoff), got "
+                               f"{accuracy!r}")
+        acc = accuracy / NOMINAL_MARGIN if 1e-11 * NOMINAL_MARGIN <= accuracy else accuracy
+        return Sensitivity(**loaded_sensitivities(shape, values, names, regions, modes, acc, options,
+                                                  DISCRETE_PARAMETERS, wanted))
     try:
         section = shape(**values)
     except TypeError as exc:
@@ -158,8 +201,8 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
         raise FemodesError("sensitivity() takes every wall as electric; this section has walls marked magnetic "
                            "(with_walls): solve it at perturbed parameters instead")
     if section.materials:
-        raise FemodesError("sensitivity() handles homogeneously filled guides (the scalar TE / TM problems) for now; "
-                           "this section has material regions: solve it at perturbed parameters instead")
+        raise FemodesError("the shape must return a homogeneously filled section; this one has material regions of "
+                           "its own: give the regions as regions=[{'name': ..., 'shape': ..., 'eps_r': ...}]")
     if "frequency" in options:
         raise FemodesError("frequency= does not apply: a homogeneously filled guide's sensitivities are of its cutoffs")
     try:
@@ -180,6 +223,8 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
     skipped = {k: "an offset or other pair: not differentiated" for k, v in values.items()
                if isinstance(v, (tuple, list, np.ndarray))}
     for n in names:
+        if wanted is not None and n not in wanted:
+            continue
         v = values[n]
         if n in DISCRETE_PARAMETERS:
             skipped[n] = "a count, not a dimension"
@@ -225,10 +270,20 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, **options):
                         dfc[n][k] = scale * dl / (2 * kc[i])
                         err[n][k] = max(SAFETY * scale * max(diff, floor) / (2 * kc[i]),
                                         CUTOFF_FLOOR * ms[k].fc_error / (abs(values[n]) or section.size))
+    params = {n: values[n] for n in names}
+    method = {}
+    # the fill's material, when asked for (only=): fc = c0 kc / (2 pi sqrt(eps_r mu_r)) with kc
+    # fixed by the shape, so d fc / d eps_r = -fc / (2 eps_r) exactly (mu_r alike); the error is
+    # the cutoff's own, fc_error / (2 eps_r)
+    fcs, fc_errs = np.array([m.fc for m in ms]), np.array([m.fc_error for m in ms])
+    for n, value in (("eps_r", float(ms.eps_r)), ("mu_r", float(ms.mu_r))):
+        if wanted is not None and n in wanted:
+            dfc[n], err[n] = -fcs / (2 * value), fc_errs / (2 * value)
+            params[n] = value
+            method[n] = "exact: fc ~ 1 / sqrt(eps_r mu_r) in a homogeneously filled guide"
     return Sensitivity(dfc=dfc, dfc_error=err, modes=ms, labels=tuple(m.label for m in ms),
-                       fc=np.array([m.fc for m in ms]), fc_error=np.array([m.fc_error for m in ms]),
-                       parameters={n: values[n] for n in names}, skipped=skipped,
-                       groups=tuple(group_list), n_dofs=int(ms.n_dofs), order=p)
+                       fc=fcs, fc_error=fc_errs, parameters=params, skipped=skipped,
+                       groups=tuple(group_list), n_dofs=int(ms.n_dofs), order=p, method=method)
 
 
 def _name(shape):

@@ -14,6 +14,12 @@ sensitivities are; it holds while the tolerances are small against the dimension
 Each dimension's share of the worst case is listed, the largest first: the dimension to hold
 tighter.  The sensitivities' own errors (``dfc_error``) are carried into the worst case as a
 bound: the reported worst case is sum_p (|dq/dp| + error) t_p.
+
+Dielectric-loaded guides (``regions=``, as for :func:`femodes.sweep`): the sensitivities of
+:mod:`femodes.studies.loaded_sensitivity`, so a tolerance may also be a material's,
+``region.NAME.eps_r`` (or ``.mu_r``, or the fill's ``eps_r`` / ``mu_r``) +- t, next to the
+dimensions'; only the parameters given a tolerance are differentiated.  The band edges of a
+loaded guide are its first two cutoffs.
 """
 
 from __future__ import annotations
@@ -74,7 +80,9 @@ def tolerance(shape, parameters, tolerances, *, modes=6, accuracy=1e-6, samples=
     """The spread of the cutoffs, band edges and single-mode ratio of ``shape(**parameters)``
     when each dimension in ``tolerances`` (name -> +- tolerance, SI) varies within it (see the
     module docstring).  ``samples`` Monte Carlo draws (linearised, so cheap), reproducible with
-    ``seed``.  Returns a :class:`Tolerance`."""
+    ``seed``.  ``options`` go to :func:`femodes.sensitivity` (``regions`` for a loaded guide:
+    then also material tolerances such as {'region.slab.eps_r': 0.05}).  Returns a
+    :class:`Tolerance`."""
     if not isinstance(tolerances, dict) or not tolerances:
         raise FemodesError("tolerances must map each dimension to its +- tolerance (SI), e.g. {'gap': 20e-6}")
     if distribution not in ("uniform", "normal"):
@@ -85,7 +93,7 @@ def tolerance(shape, parameters, tolerances, *, modes=6, accuracy=1e-6, samples=
         if v < 0:
             raise FemodesError(f"the tolerance of {name!r} must be >= 0 (a +- value), got {t!r}")
         tol[name] = v
-    sens = sensitivity(shape, parameters, modes=modes, accuracy=accuracy, **options)
+    sens = sensitivity(shape, parameters, modes=modes, accuracy=accuracy, only=list(tol), **options)
     missing = [n for n in tol if n not in sens.dfc]
     if missing:
         why = "; ".join(f"{n}: {sens.skipped.get(n, 'not a parameter of the shape')}" for n in missing)

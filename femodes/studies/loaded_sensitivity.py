@@ -1,0 +1,232 @@
+"""Sensitivities of the cutoffs of a dielectric-loaded guide (a shape with material regions):
+d fc / d (a region's eps_r or mu_r, the fill's, or a shape parameter).
+
+Materials: first-order perturbation (no re-solve).  At cutoff (beta = 0) the full-vector
+problem splits in two (:meth:`femodes.solvers.vector.VectorProblem.cutoffs`):
+
+    TE-type (E_t only, with H_z):  curl_t ((1 / mu_r) curl_t E_t) = k0^2 eps_r E_t
+    TM-type (E_z only):           -div_t ((1 / mu_r) grad_t E_z)  = k0^2 eps_r E_z
+
+with E = 0 tangential on the wall.  In both k0^2 is the Rayleigh quotient W_m / W_e of
+W_m = int (1 / mu_r) |curl_t E_t|^2 dA (|grad_t E_z|^2 for TM-type) and W_e = int eps_r |E|^2 dA,
+stationary at the mode's field.  Changing eps_r of a region R by d eps changes W_e by
+d eps int_R |E|^2 dA = d eps W_e,R / eps_R and, to first order, not the field (stationarity), so
+
+    d (k0^2) / d eps_R = - k0^2 s_e,R / eps_R,     d (k0^2) / d mu_R = - k0^2 s_m,R / mu_R,
+
+s_e,R = W_e,R / W_e the share of the electric energy (at cutoff) in R, s_m,R = W_m,R / W_m the
+magnetic one (W_m,R = int_R (1 / mu_r) |curl E|^2: d (1 / mu) = - d mu / mu^2).  As fc = c0 k0
+/ (2 pi):
+
+    d fc / d eps_R = - fc s_e,R / (2 eps_R),       d fc / d mu_R = - fc s_m,R / (2 mu_R)
+
+(a homogeneous fill: s = 1 and d fc / d eps = - fc / (2 eps), as fc ~ 1 / sqrt(eps mu)
+requires).  Computed with the discrete fields on the final mesh of the nominal solve, this is
+exactly the derivative of the discrete eigenvalue (Hellmann-Feynman for S x = k0^2 T x, T linear
+in the per-triangle eps_r); its error is the discretisation error of the energy shares.  Error
+estimate: the same derivative with elements one order lower on the same mesh, the difference
+times SAFETY, plus the part the cutoff's own error carries (|d fc / d p| fc_error / fc).
+
+Shape parameters: central differences of whole solves (no shape derivative across the material
+interfaces yet).  The guide is rebuilt at p +- h and p +- h / 2 (h = FD_STEP |p|; the regions
+stay where they are placed), each solved to the nominal accuracy; D(h) and D(h / 2) are the two
+central differences; |D(h) - D(h / 2)| is three times the truncation error of D(h / 2) on a
+smooth fc(p), and (e(p + h / 2) + e(p - h / 2)) / h is
+what the solves' own error bars e can do to the difference; then the Richardson value
+(4 D(h / 2) - D(h)) / 3 is reported (the h^2 term removed), with the error |D(h) - D(h / 2)|
++ (4 n(h / 2) + n(h)) / 3, n the solves' part above.  A kink (a region meeting a wall that
+moves with the parameter: the slab-loaded guide's height with the slab on the floor) makes
+the one-sided slopes differ by about the same amount at h and h / 2 instead of by half as
+much; there D(h / 2), the mean of the two sides, is reported with their whole difference
+added to the error, and ``method`` names the modes.  Modes are matched across the solves by
+field type (TE / TM at cutoff) and nearest cutoff.  ``method`` says which a parameter got.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from femodes.api import _check_count, _loaded_modes
+from femodes.errors import FemodesError, material_number
+from femodes.geometry.mesh import triangle_regions
+from femodes.solvers.loaded import solve_loaded
+from femodes.solvers.vector import VectorProblem
+
+__all__ = ["loaded_sensitivities", "FD_STEP", "PERTURBATION", "DIFFERENCE"]
+
+#: relative step h of the shape parameters' central differences (the second one is h / 2)
+FD_STEP = 0.02
+#: reported error of a material derivative = SAFETY x |order p - order p - 1| + the cutoff's part
+SAFETY = 3.0
+PERTURBATION = "first-order perturbation (energy share in the region, order p - 1 for the error)"
+DIFFERENCE = "central difference of whole solves (steps h and h/2, h = {:.3g}; error from both and the solves' error bars)"
+
+
+def _build(shape, values, regions):
+    """The section of ``shape(**values)`` with ``regions`` (dicts name, shape, eps_r, mu_r, tan_delta)."""
+    section = shape(**values)
+    for r in regions:
+        section = section.with_material(r["shape"], eps_r=r["eps_r"], mu_r=r["mu_r"], tan_delta=r["tan_delta"],
+                                        name=r["name"])
+    return section
+
+
+def _shares(problem, cut, region_index, n_regions):
+    """(electric, magnetic) energy shares of each region 0..n_regions (0 the fill) of a cutoff field."""
+    if cut.field == "TE":
+        basis = problem.basis_t
+        f = basis.interpolate(cut.coeffs)
+        e, m = np.sum(f.value ** 2, axis=0), f.curl ** 2
+    else:
+        basis = problem.basis_z
+        f = basis.interpolate(cut.coeffs)
+        e, m = f.value ** 2, np.sum(f.grad ** 2, axis=0)
+    we = problem.eps_r * np.sum(e * basis.dx, axis=1)
+    wm = np.sum(m * basis.dx, axis=1) / problem.mu_r
+    se = np.array([we[region_index == r].sum() for r in range(n_regions + 1)]) / we.sum()
+    sm = np.array([wm[region_index == r].sum() for r in range(n_regions + 1)]) / wm.sum()
+    return se, sm
+
+
+def _nearest(cuts, fc, field):
+    """Index of the cutoff among ``cuts`` (objects with .frequency and .field) of the same field
+    type nearest to ``fc``, or None."""
+    same = [i for i, c in enumerate(cuts) if c.field == field]
+    return min(same, key=lambda i: abs(cuts[i].frequency - fc)) if same else None
+
+
+def _material_derivatives(section, problem, nominal, materials):
+    """{name: (dfc array, error array)} of the material parameters, from the energy shares at
+    order p and p - 1 on the final mesh."""
+    n_reg = len(section.materials)
+    index = triangle_regions(section, problem.mesh.p, problem.mesh.t[:3])
+    count = len(nominal) + 2
+    high = problem.cutoffs(modes=count)
+    lower = VectorProblem(problem.mesh, problem.eps_r, problem.mu_r, order=problem.order - 1)
+    low = lower.cutoffs(modes=count + 2)
+    n = len(nominal)
+    out = {name: (np.zeros(n), np.zeros(n)) for name in materials}
+    for k, m in enumerate(nominal):
+        i, j = _nearest(high, m.fc, m.field), _nearest(low, m.fc, m.field)
+        if i is None or j is None:
+            raise RuntimeError(f"mode {m.label} not found again on the final mesh")
+        sh, sl = _shares(problem, high[i], index, n_reg), _shares(lower, low[j], index, n_reg)
+        for name, (kind, reg, value) in materials.items():
+            col = 0 if kind == "eps_r" else 1
+            d_high = -m.fc * sh[col][reg] / (2 * value)
+            d_low = -low[j].frequency * sl[col][reg] / (2 * value)
+            out[name][0][k] = d_high
+            out[name][1][k] = SAFETY * abs(d_high - d_low) + abs(d_high) * m.fc_error / m.fc
+    return out
+
+
+def _raw_cutoffs(section, n, accuracy, opts):
+    """[(fc, fc_error, field)] of the ``n`` lowest cutoffs of a loaded section (no labels)."""
+    sol = solve_loaded(section, n, None, opts.get("eps_r", 1.0), opts.get("mu_r", 1.0), accuracy,
+                       order=opts.get("order"))
+    out = []
+    for i in sol.keep:
+        c = sol.objects[i]
+        out.append(_Cut(c.frequency, c.frequency * float(sol.errors[i]) / (2 * float(sol.values[i])), c.field))
+    return out
+
+
+class _Cut:
+    __slots__ = ("frequency", "error", "field")
+
+    def __init__(self, frequency, error, field):
+        self.frequency, self.error, self.field = float(frequency), float(error), field
+
+
+def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options, discrete=(), only=None):
+    """The parts of a :class:`femodes.studies.Sensitivity` of ``shape(**values)`` with
+    ``regions``: dict(dfc, dfc_error, modes, labels, fc, fc_error, parameters, skipped, method,
+    n_dofs, order).  ``names``: the shape's numeric parameters; ``options``: eps_r, mu_r, order of
+    the solve (the fill's eps_r, mu_r); ``accuracy`` that of every solve; ``only`` a set of the
+    parameter names to differentiate (None: all)."""
+    if "family" in options:
+        raise FemodesError("family= does not apply to a guide with regions: its modes are hybrid (leave family out)")
+    unknown = sorted(set(options) - {"eps_r", "mu_r", "order"})
+    if unknown:
+        raise FemodesError(f"unknown option(s) {', '.join(unknown)} for a loaded guide's sensitivity; give eps_r, mu_r, "
+                           "order")
+    try:
+        section = _build(shape, values, regions)
+    except FemodesError as exc:
+        raise FemodesError(f"the guide with its regions is not valid at the nominal parameters: {exc}") from None
+    eps_r, mu_r = material_number("eps_r", options.get("eps_r", 1.0)), material_number("mu_r", options.get("mu_r", 1.0))
+    modes = _check_count(modes)
+    order = options.get("order")
+    if order is not None and order not in (2, 3):
+        raise FemodesError(f"order of a loaded guide's sensitivity must be 2 or 3 (its error compares order p with "
+                           f"p - 1), got {order!r}")
+    nominal, problem = _loaded_modes(section, modes, None, eps_r, mu_r, accuracy, order=order)
+    nominal = list(nominal)
+    if not nominal:
+        raise FemodesError("no cutoff found: raise modes=")
+    # material parameters: the fill (region 0) and each region
+    materials = {"eps_r": ("eps_r", 0, eps_r), "mu_r": ("mu_r", 0, mu_r)}
+    for i, r in enumerate(regions, start=1):
+        materials[f"region.{r['name']}.eps_r"] = ("eps_r", i, r["eps_r"])
+        materials[f"region.{r['name']}.mu_r"] = ("mu_r", i, r["mu_r"])
+    skipped = {f"region.{r['name']}.tan_delta": "a loss tangent does not move a cutoff" for r in regions}
+    params = dict(values)
+    params.update({k: spec[2] for k, spec in materials.items()})
+    if only is not None:
+        materials = {k: v for k, v in materials.items() if k in only}
+        skipped = {k: v for k, v in skipped.items() if k in only}
+        names = [k for k in names if k in only]
+    derivs = _material_derivatives(section, problem, nominal, materials) if materials else {}
+    method = {name: PERTURBATION for name in materials}
+
+    # shape parameters: central differences of whole solves at p +- h and p +- h / 2
+    skipped.update({k: "an offset or other pair: not differentiated" for k, v in values.items()
+                    if isinstance(v, (tuple, list, np.ndarray)) and (only is None or k in only)})
+    n = len(nominal)
+    for name in names:
+        v = values[name]
+        if name in discrete:
+            skipped[name] = "a count, not a dimension"
+            continue
+        h = FD_STEP * max(abs(v), 1e-3 * section.size)
+        try:
+            built = {s: _build(shape, {**values, name: v + s}, regions) for s in (h, -h, h / 2, -h / 2)}
+        except FemodesError as exc:
+            skipped[name] = f"the guide is not valid within +-{h:.3g} of {name} = {v!r}: {exc}"
+            continue
+        got = {s: _raw_cutoffs(sec, n + 2, accuracy, options) for s, sec in built.items()}
+        d = np.full(n, np.nan)
+        e = np.full(n, np.inf)
+        kinks = []
+        for k, m in enumerate(nominal):
+            at = {}
+            for s, cuts in got.items():
+                j = _nearest(cuts, m.fc, m.field)
+                at[s] = cuts[j] if j is not None else None
+            if any(c is None for c in at.values()):
+                continue
+            f0, e0 = m.fc, m.fc_error
+            d1 = (at[h].frequency - at[-h].frequency) / (2 * h)
+            d2 = (at[h / 2].frequency - at[-h / 2].frequency) / h
+            n1 = (at[h].error + at[-h].error) / (2 * h)
+            n2 = (at[h / 2].error + at[-h / 2].error) / h
+            # one-sided slopes: their difference falls like h on a smooth fc(p), not at a kink
+            a1 = (at[h].frequency - 2 * f0 + at[-h].frequency) / h
+            a2 = (at[h / 2].frequency - 2 * f0 + at[-h / 2].frequency) / (h / 2)
+            na2 = (at[h / 2].error + 2 * e0 + at[-h / 2].error) / (h / 2)
+            if abs(a2) > 0.75 * abs(a1) and abs(a2) > 2 * na2:
+                kinks.append(m.label)
+                d[k] = d2
+                e[k] = abs(d1 - d2) + n2 + na2 + abs(a2)
+            else:
+                d[k] = (4 * d2 - d1) / 3  # Richardson: the h^2 term of the central difference removed
+                e[k] = abs(d1 - d2) + 4 * n2 / 3 + n1 / 3
+        derivs[name] = (d, e)
+        method[name] = DIFFERENCE.format(h) + (f"; {', '.join(kinks)}: the slopes on the two sides differ (a kink, "
+                                                "e.g. a region meeting the wall): their mean, with their whole "
+                                                "difference in the error" if kinks else "")
+    return dict(dfc={k: v[0] for k, v in derivs.items()}, dfc_error={k: v[1] for k, v in derivs.items()},
+                modes=tuple(nominal), labels=tuple(m.label for m in nominal),
+                fc=np.array([m.fc for m in nominal]), fc_error=np.array([m.fc_error for m in nominal]),
+                parameters=params, skipped=skipped, method=method, n_dofs=int(problem.n_dofs),
+                order=int(problem.order))
