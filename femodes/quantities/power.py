@@ -312,7 +312,9 @@ class LoadedPowerHandling:
     regions                  : (RegionPeak, ...): every region, gas and dielectric, with its own peak
     corners                  : (CornerField, ...): singular corners, excluded from every peak by
                                discs of radius ``corner_exclusion`` (m), their field reported apart
-    order                    : element order of the mode (errors: from order - 1 on the same mesh)
+    order                    : element order of the mode (errors: from order - 1 on the same mesh,
+                               or from re-solves: femodes.quantities.loaded_derived_quantities)
+    rated_power_error        : the rated power's error where the re-solves set it, else NaN
     warnings                 : what limits the figures;  cautions : :data:`CAUTIONS`, to be shown
     """
 
@@ -331,6 +333,7 @@ class LoadedPowerHandling:
     order: int
     warnings: tuple
     cautions: tuple = CAUTIONS
+    rated_power_error: float = math.nan  # set where the peak's error bar comes from re-solves
 
     def lines(self):
         """Text lines of a report, cautions included."""
