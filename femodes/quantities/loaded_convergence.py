@@ -12,8 +12,8 @@ the conservative choice the mesher grades for): then about h^(2 lambda).  The ea
 (order p against p - 1 on the same mesh) was once found 2x below the true error.
 
 :func:`loaded_derived_quantities` meshes the section at element sizes h_k = h0 r^(2-k) (r = 1.5;
-h0 the typical element size of the solve it is given: the median edge of its final mesh),
-solves each at the frequency with the same elements, follows every mode of the solve onto each
+h0 the typical element size of the solve it is given: the median edge of its final mesh, which
+is the h0 rung itself), solves each at the frequency with the same elements, follows every mode of the solve onto each
 mesh (largest overlap of the transverse E sampled at the same points, at least
 :data:`MATCH_OVERLAP`; a member of a degenerate group by the nearest beta^2) and evaluates each
 quantity there.  The estimate is the homogeneous guides' (:func:`femodes.quantities.convergence`):
@@ -83,7 +83,7 @@ def _median_edge(mesh):
     return float(np.median(np.hypot(*(mesh.p[:, f[0]] - mesh.p[:, f[1]]))))
 
 
-def _sample_points(section, n=24):
+def _sample_points(section, n=18):
     """About n^2 points of a grid over the section's bounding box, kept where the section is
     (fields are NaN outside a mesh and are ignored there)."""
     pts = np.hstack([l.polyline(64, line_pieces=1) for l in section.loops])
@@ -106,15 +106,14 @@ def _overlap(a, b):
     return float(abs(np.vdot(a, b)) / (na * nb)) if na > 0 and nb > 0 else 0.0
 
 
-def _follow(targets, candidates, pts, degenerate):
-    """For each target VectorMode the index of the same mode among ``candidates`` (VectorModes of
-    another mesh), or -1: the largest transverse-E overlap if at least MATCH_OVERLAP, else for a
+def _follow(targets, target_fields, candidates, pts, degenerate):
+    """For each target VectorMode (its transverse E at ``pts``: ``target_fields``) the index of the
+    same mode among ``candidates`` (VectorModes of another mesh), or -1: the largest transverse-E overlap if at least MATCH_OVERLAP, else for a
     member of a degenerate group (``degenerate[i]``) the nearest beta^2; each candidate once."""
     cand = [c for c in candidates if c.propagating]
     fields = [_et(c, pts) for c in cand]
     out, used = [], set()
-    for t, deg in zip(targets, degenerate):
-        ft = _et(t, pts)
+    for t, ft, deg in zip(targets, target_fields, degenerate):
         ov = [(-1.0 if j in used else _overlap(ft, fc)) for j, fc in enumerate(fields)]
         j = int(np.argmax(ov)) if ov else -1
         if j >= 0 and ov[j] < MATCH_OVERLAP:
@@ -213,32 +212,30 @@ def loaded_derived_quantities(study, conductivity=5.8e7, roughness=0.0, breakdow
     first = study.at_frequency[0]
     count = len(study.at_frequency) + 2
 
+    target_fields = [_et(t, pts) for t in targets]
+
     def at(h):
-        mesh = _mesh(section, h, p, math.sqrt(k2max))
-        prob = _problem(section, mesh, study.eps_r, study.mu_r, p, study.tan_delta)
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            got = prob.solve(f, modes=count, evanescent=False)
-        idx = _follow(targets, list(got), pts, degenerate)
-        modes = {g.index: _as_mode(got[j], g) for g, j in zip(given, idx) if j >= 0}
+        if h is None:  # the study's own mesh: its modes as they are
+            modes = {g.index: _as_mode(g.vector, g) for g in given}
+            n = int(given[0].vector.problem.n_dofs)
+        else:
+            mesh = _mesh(section, h, p, math.sqrt(k2max))
+            prob = _problem(section, mesh, study.eps_r, study.mu_r, p, study.tan_delta)
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                got = prob.solve(f, modes=count, evanescent=False)
+            idx = _follow(targets, target_fields, list(got), pts, degenerate)
+            modes = {g.index: _as_mode(got[j], g) for g, j in zip(given, idx) if j >= 0}
+            n = int(prob.n_dofs)
         # impedances of the first mode and TEM modes, as the report shows them; not of a member of
         # a degenerate group, whose voltage along a fixed path depends on how the solver turned it
         vals = {i: _evaluate(m, f, section, conductivity, roughness, breakdown_field,
                              (i == first.index or m.family == "TEM") and not deg_of[i], lossy)
                 for i, m in modes.items()}
-        return modes, vals, int(prob.n_dofs)
+        return modes, vals, n
 
     h0 = _median_edge(given[0].vector.problem.mesh)
-    ladder = []  # (nominal size, modes, values, unknowns), coarsest first
-
-    def add(h, front=False):
-        modes, vals, n = at(h)
-        if front:
-            ladder.insert(0, (h, modes, vals, n))
-        else:
-            ladder.append((h, modes, vals, n))
-
-    add(h0)
+    ladder = [(h0, *at(None))]  # (nominal size, modes, values, unknowns), coarsest first
     for k in (1, 2):
         h = h0 * RATIO ** k
         modes, vals, n = at(h)
