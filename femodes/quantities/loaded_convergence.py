@@ -12,9 +12,10 @@ the conservative choice the mesher grades for): then about h^(2 lambda).  The ea
 (order p against p - 1 on the same mesh) was once found 2x below the true error.
 
 :func:`loaded_derived_quantities` meshes the section at element sizes h_k = h0 r^(2-k) (r = 1.5;
-h0 the typical element size of the solve it is given: the median edge of its final mesh, which
-is the h0 rung itself), solves each at the frequency with the same elements, follows every mode of the solve onto each
-mesh (largest overlap of the transverse E sampled at the same points, at least
+h0 the typical element size of the solve it is given: the 90th percentile of its final mesh's
+edges; that mesh is the h0 rung itself; a size the mesher turns into a mesh less than 1.3 times
+coarser or finer than its neighbour is stretched by 1.3 until it does), solves each at the
+frequency with the same elements, follows every mode of the solve onto each mesh (largest overlap of the transverse E sampled at the same points, at least
 :data:`MATCH_OVERLAP`; a member of a degenerate group by the nearest beta^2) and evaluates each
 quantity there.  The estimate is the homogeneous guides' (:func:`femodes.quantities.convergence`):
 Richardson on the last three meshes with the observed rate, never above the cap (p, or
@@ -57,6 +58,9 @@ __all__ = ["loaded_derived_quantities", "loaded_rate_cap", "MATCH_OVERLAP"]
 #: smallest overlap |<E_t, E_t'>| / (|E_t| |E_t'|) (sampled at the same points) for a mode of
 #: another mesh to be taken for the same mode
 MATCH_OVERLAP = 0.9
+#: the coarsest mesh of the ladder has at least this many triangles (a circle meshed with 8 was
+#: far from the asymptotic range: its peak field's bar was 2 % on the next meshes)
+MIN_TRIANGLES = 32
 #: two modes whose beta^2 differ by less than this times k0^2 eps_max mu_max are taken for a
 #: degenerate group: the solver may turn them anyhow, they are followed by beta^2
 DEGENERATE = 1e-5
@@ -76,11 +80,12 @@ def loaded_rate_cap(section, order):
     return cap
 
 
-def _median_edge(mesh):
-    """Median edge length of a scikit-fem mesh (m): the size its mesher was asked for, nearly
-    (the grading near corners shrinks only a few elements)."""
+def _typical_edge(mesh):
+    """The 90th percentile of the edge lengths of a scikit-fem mesh (m): about the size its mesher
+    was asked for away from the corners (graded corners crowd many small edges, which pull the
+    median far below it)."""
     f = mesh.facets
-    return float(np.median(np.hypot(*(mesh.p[:, f[0]] - mesh.p[:, f[1]]))))
+    return float(np.percentile(np.hypot(*(mesh.p[:, f[0]] - mesh.p[:, f[1]])), 90))
 
 
 def _sample_points(section, n=18):
@@ -214,12 +219,11 @@ def loaded_derived_quantities(study, conductivity=5.8e7, roughness=0.0, breakdow
 
     target_fields = [_et(t, pts) for t in targets]
 
-    def at(h):
-        if h is None:  # the study's own mesh: its modes as they are
+    def at(mesh):
+        if mesh is None:  # the study's own mesh: its modes as they are
             modes = {g.index: _as_mode(g.vector, g) for g in given}
             n = int(given[0].vector.problem.n_dofs)
         else:
-            mesh = _mesh(section, h, p, math.sqrt(k2max))
             prob = _problem(section, mesh, study.eps_r, study.mu_r, p, study.tan_delta)
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
@@ -234,23 +238,41 @@ def loaded_derived_quantities(study, conductivity=5.8e7, roughness=0.0, breakdow
                 for i, m in modes.items()}
         return modes, vals, n
 
-    h0 = _median_edge(given[0].vector.problem.mesh)
-    ladder = [(h0, *at(None))]  # (nominal size, modes, values, unknowns), coarsest first
-    for k in (1, 2):
-        h = h0 * RATIO ** k
-        modes, vals, n = at(h)
-        if n >= ladder[0][3] / 1.3:  # clamped by the section's size: the same mesh again
+    def sized(h, n_tri, coarser):
+        """(h, mesh) of a mesh at least 1.3 times coarser (finer) than one of ``n_tri`` triangles,
+        from the size h, enlarged (reduced) by 1.3 while the mesher gives too near a mesh; None if
+        the size is clamped (the mesh stops changing), a coarser mesh would have fewer than
+        MIN_TRIANGLES, or six steps do not do it."""
+        last = None
+        for _ in range(6):
+            mesh = _mesh(section, h, p, math.sqrt(k2max))
+            t = mesh.n_triangles
+            if coarser and t < MIN_TRIANGLES:
+                return None  # too few elements to be in the asymptotic range
+            if (t * 1.3 <= n_tri) if coarser else (t >= 1.3 * n_tri):
+                return h, mesh
+            if last is not None and t == last:
+                return None
+            last = t
+            h = h * 1.3 if coarser else h / 1.3
+        return None
+
+    study_mesh = given[0].vector.problem.mesh
+    h0 = _typical_edge(study_mesh)
+    ladder = [(h0, *at(None), study_mesh.t.shape[1])]  # (size, modes, values, unknowns, triangles), coarsest first
+    for _ in (1, 2):
+        got = sized(ladder[0][0] * RATIO, ladder[0][4], True)
+        if got is None:  # clamped by the section's size: the ladder goes finer instead
             break
-        ladder.insert(0, (h, modes, vals, n))
+        h, mesh = got
+        ladder.insert(0, (h, *at(mesh), mesh.n_triangles))
 
     def finer():
-        h = ladder[-1][0] / RATIO
-        for _ in range(4):  # a size the mesher rounds to nearly the same mesh: one more step
-            modes, vals, n = at(h)
-            if n >= 1.3 * ladder[-1][3]:
-                break
-            h /= RATIO
-        ladder.append((h, modes, vals, n))
+        got = sized(ladder[-1][0] / RATIO, ladder[-1][4], False)
+        if got is None:
+            raise FemodesError("the mesher gives no finer mesh of this section for the quantities' error estimate")
+        h, mesh = got
+        ladder.append((h, *at(mesh), mesh.n_triangles))
 
     while len(ladder) < 3:
         finer()
@@ -288,7 +310,7 @@ def loaded_derived_quantities(study, conductivity=5.8e7, roughness=0.0, breakdow
                     "order p against p - 1 on one mesh): " + ", ".join(missing))
     for w in msgs:
         warnings.warn("femodes: " + w, UserWarning, stacklevel=2)
-    return DerivedErrors(tuple(out), f, accuracy, tuple(h for h, *_ in ladder), tuple(n for *_, n in ladder),
+    return DerivedErrors(tuple(out), f, accuracy, tuple(r[0] for r in ladder), tuple(r[3] for r in ladder),
                          cap, table, not msgs, tuple(msgs))
 
 
@@ -296,12 +318,12 @@ def _table(ladder, cap):
     """{mode index: {name: QuantityError}} from the last three meshes, and the worst relative error
     (impedances judged against the mode's largest impedance)."""
     last = ladder[-3:]
-    sizes = [1.0 / math.sqrt(n) for *_, n in last]  # effective sizes: refinement ratio from the unknowns
+    sizes = [1.0 / math.sqrt(r[3]) for r in last]  # effective sizes: refinement ratio from the unknowns
     table, worst = {}, 0.0
     for i, v in last[-1][2].items():
         row = {}
         for name in v:
-            seq = [vals.get(i, {}).get(name) for _, _, vals, _ in last]
+            seq = [r[2].get(i, {}).get(name) for r in last]
             if any(x is None for x in seq):
                 continue
             q = _estimate(seq, sizes, cap)
