@@ -38,8 +38,8 @@ gives |d beta| = kc |d kc| / beta, and from it the guide wavelength, phase and g
 and the wave impedance by their derivatives.
 
 Homogeneous guides (a :class:`femodes.geometry.Section` without material regions) only: a loaded
-guide's quantities carry the error of order p against p - 1 on the same mesh
-(:func:`femodes.quantities.lower_order_partner`); a mesh file cannot be re-meshed.
+guide's are :func:`femodes.quantities.loaded_derived_quantities` (the same estimate); a mesh file
+cannot be re-meshed (its loaded modes keep order p against p - 1 on the one mesh).
 """
 
 from __future__ import annotations
