@@ -84,10 +84,11 @@ takes a shape of the list below except mesh, with its keys and placement, in the
     accuracy    relative error on each cutoff the solver aims for (default 1e-6)
     family      "TE" or "TM" to solve one family only (default: all)
     order       finite-element order 1..4 (default: the solver's choice)
-    quantity_accuracy  relative error asked of the wall loss, impedances and peak field of a
-                guide without [[region]] tables (default 1e-3): the guide is re-solved on finer
-                meshes until they meet it, or a warning says what was reached; 0 for no re-solves
-                (and no error bars on those quantities)
+    quantity_accuracy  relative error asked of the wall loss, impedances and peak field (and, with
+                [[region]] tables, the dielectric loss and group velocity) at the analysis
+                frequency (default 1e-3): the guide is re-solved on finer meshes until they meet
+                it, or a warning says what was reached; 0 for no re-solves (a loaded guide then
+                keeps the estimate of order p against p - 1 on its mesh)
 
 ``[output]`` (optional):
 

@@ -46,8 +46,9 @@ class AnalysisSettings:
     breakdown_field, safety_factor : for power handling (V/m; divisor of the power)
     impedance      'PV', 'PI' or 'VI': the impedance shown first
     quantity_accuracy  relative accuracy asked of the field-derived quantities (wall loss,
-                   impedances, peak field) of a homogeneous guide, from [solve]; 0 turns the
-                   re-solves off (no error bars on them)
+                   impedances, peak field; loaded guides also the dielectric loss and group
+                   velocity), from [solve]; 0 turns the re-solves off (homogeneous guides: no
+                   error bars on them; loaded: order p against p - 1 on the one mesh)
     """
 
     frequency: float | None = None

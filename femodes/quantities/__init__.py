@@ -40,7 +40,9 @@ element order lower on the same mesh (:func:`lower_order_partner`).
 
 A homogeneous guide's field-derived quantities (wall loss, impedances, peak field) get their
 error bars from re-solves on a ladder of meshes (:func:`derived_quantities`, :mod:`.convergence`),
-its wave quantities from the cutoff's error (:func:`wave_errors`).
+its wave quantities from the cutoff's error (:func:`wave_errors`); a loaded guide's (wall and
+dielectric loss, group velocity, impedances, peak fields) from re-solves at its frequency
+(:func:`loaded_derived_quantities`, :mod:`.loaded_convergence`).
 """
 
 from femodes.constants import ETA0, NP_TO_DB
@@ -61,6 +63,7 @@ from femodes.quantities.impedance import (
                                        wall_current,
 )
 from femodes.quantities.lines import LineParameters, ModalImpedances, PairImpedances, line_of, modal_impedances, pair_impedances
+from femodes.quantities.loaded_convergence import loaded_derived_quantities
 from femodes.quantities.losses import (
                                        METALS,
                                        Losses,
@@ -76,7 +79,7 @@ from femodes.quantities.losses import (
                                        skin_depth,
                                        surface_resistance,
                                        to_db,
-    vector_mode_attenuation,
+                                       vector_mode_attenuation,
                                        wall_integrals,
 )
 from femodes.quantities.power import (
@@ -114,5 +117,6 @@ __all__ = [
     "GAS_MAX_EPS_R", "LoadedImpedances", "LoadedPowerHandling", "RegionPeak", "CornerField",
     "loaded_impedances", "loaded_power_handling", "lower_order_partner",
     "DEFAULT_QUANTITY_ACCURACY", "DerivedErrors", "QuantityError", "derived_quantities", "wave_errors",
+    "loaded_derived_quantities",
     "LineParameters", "ModalImpedances", "PairImpedances", "line_of", "modal_impedances", "pair_impedances",
 ]

@@ -312,7 +312,9 @@ class LoadedPowerHandling:
     regions                  : (RegionPeak, ...): every region, gas and dielectric, with its own peak
     corners                  : (CornerField, ...): singular corners, excluded from every peak by
                                discs of radius ``corner_exclusion`` (m), their field reported apart
-    order                    : element order of the mode (errors: from order - 1 on the same mesh)
+    order                    : element order of the mode (errors: from order - 1 on the same mesh,
+                               or from re-solves: femodes.quantities.loaded_derived_quantities)
+    rated_power_error        : the rated power's error where the re-solves set it, else NaN
     warnings                 : what limits the figures;  cautions : :data:`CAUTIONS`, to be shown
     """
 
@@ -331,6 +333,7 @@ class LoadedPowerHandling:
     order: int
     warnings: tuple
     cautions: tuple = CAUTIONS
+    rated_power_error: float = math.nan  # set where the peak's error bar comes from re-solves
 
     def lines(self):
         """Text lines of a report, cautions included."""
@@ -465,24 +468,35 @@ def _vector_peaks(vm, lab, n_regions, corners, r_ex, subdivisions):
         els = np.flatnonzero(lab == r)
         emax = per[els].max(axis=1)
         best = (-np.inf, None)
+        # the best (up to) four elements, searched side by side: one field evaluation per step
+        state = []  # [element, X0, v0, xy0]
         for e in els[np.argsort(emax)[::-1][:4]]:
             if not np.isfinite(per[e].max()):
                 continue
             X0 = ref_pts[:, int(np.argmax(per[e]))]
-            v0 = per[e].max()
-            xy0 = basis.mapping.F(X0[:, None, None], tind=np.array([e]))[:, 0, 0]
-            w = 1.0 / n
-            for _ in range(7):
+            state.append([e, X0, per[e].max(), basis.mapping.F(X0[:, None, None], tind=np.array([e]))[:, 0, 0]])
+        w = 1.0 / n
+        for _ in range(7 if state else 0):
+            Rs, XYs = [], []
+            for e, X0, _, _ in state:
                 U, V = np.meshgrid(X0[0] + w * g, X0[1] + w * g)
                 R = np.array([U.ravel(), V.ravel()])
                 R = R[:, (R[0] >= 0) & (R[1] >= 0) & (R[0] + R[1] <= 1)]
-                xy = basis.mapping.F(R[:, None, :], tind=np.array([e]))[:, 0, :]
-                Fr = prob.fields_at_reference(vm, np.full(R.shape[1], e), R)
-                pv = np.where(allowed(xy[0], xy[1]), _instantaneous_peak(Fr) * scale, -np.inf)
+                Rs.append(R)
+                XYs.append(basis.mapping.F(R[:, None, :], tind=np.array([e]))[:, 0, :])
+            cells = np.concatenate([np.full(R.shape[1], st[0]) for R, st in zip(Rs, state)])
+            Fr = prob.fields_at_reference(vm, cells, np.hstack(Rs))
+            xy = np.hstack(XYs)
+            pv_all = np.where(allowed(xy[0], xy[1]), _instantaneous_peak(Fr) * scale, -np.inf)
+            start = 0
+            for st, R, XY in zip(state, Rs, XYs):
+                pv = pv_all[start:start + R.shape[1]]
+                start += R.shape[1]
                 j = int(np.argmax(pv))
-                if pv[j] >= v0:
-                    v0, X0, xy0 = pv[j], R[:, j], xy[:, j]
-                w /= 4.0
+                if pv[j] >= st[2]:
+                    st[1], st[2], st[3] = R[:, j], pv[j], XY[:, j]
+            w /= 4.0
+        for _, _, v0, xy0 in state:
             if v0 > best[0]:
                 best = (float(v0), (float(xy0[0]), float(xy0[1])))
         peaks.append(best)

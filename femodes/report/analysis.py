@@ -16,6 +16,7 @@ from femodes.errors import FemodesError
 from femodes.geometry.section import Section
 from femodes.modes import ModeSet
 from femodes.quantities.convergence import derived_quantities, wave_errors
+from femodes.quantities.loaded_convergence import loaded_derived_quantities
 
 #: units of the numbers in the "analysis" object of :func:`analysis_document`
 ANALYSIS_UNITS = {
@@ -61,10 +62,12 @@ class ModeQuantities:
     impedance_errors  their estimated errors (ohm) where computed, else None
     power      :class:`~femodes.quantities.PowerHandling` (propagating modes only, else None)
     notes      what limits the numbers of this mode
-    errors     error bars (SI) of the other quantities where estimated (homogeneous guides):
-               'beta', 'guide_wavelength', 'phase_velocity', 'group_velocity', 'wave_impedance'
-               (from the cutoff's error), 'conductor', 'total' (Np/m), 'peak', 'breakdown_power',
-               'rated_power' (from the re-solves of :func:`femodes.quantities.derived_quantities`)
+    errors     error bars (SI) of the other quantities where estimated: 'beta', 'guide_wavelength',
+               'phase_velocity', 'group_velocity', 'wave_impedance' (homogeneous guides: from the
+               cutoff's error; loaded: from beta's, v_g from the re-solves), 'conductor',
+               'dielectric' (loaded), 'total' (Np/m), 'peak', 'breakdown_power', 'rated_power'
+               (from the re-solves of :func:`femodes.quantities.derived_quantities` or
+               :func:`femodes.quantities.loaded_derived_quantities`)
     """
 
     mode: object
@@ -108,7 +111,7 @@ class Analysis:
     top_cutoff: float
     cautions: tuple
     loaded: bool = False
-    derived: object = None  # femodes.quantities.DerivedErrors of a homogeneous guide, or None
+    derived: object = None  # femodes.quantities.DerivedErrors (either kind of guide), or None
 
     @property
     def propagating(self):
@@ -300,8 +303,17 @@ def _analyse_loaded(study, settings):
                            "pass the same frequency to femodes.study()")
     sigma, rough = settings.conductivity, settings.roughness
     section = study.section if isinstance(study.section, Section) else None  # a mesh file: found on the mesh
+    derived, fine = None, {}
+    qa = getattr(settings, "quantity_accuracy", 0.0)
+    if qa and section is not None and any(m.family != "complex" and m.propagating for m in study.at_frequency):
+        # error bars of the field-derived quantities: re-solves at the frequency on a ladder of
+        # meshes, refined until they meet quantity_accuracy; the values reported are those of the
+        # finest mesh (a mesh file keeps the estimate of order p against p - 1 on its one mesh)
+        derived = loaded_derived_quantities(study, sigma, rough, settings.breakdown_field, accuracy=qa)
+        fine = {m.index: m for m in derived.modes}
     rows = []
     for m in study.at_frequency:
+        m = fine.get(m.index, m)
         wq = Q.wave_quantities(m, f)
         if not wq.propagates:
             rows.append(ModeQuantities(m, wq))
@@ -313,7 +325,7 @@ def _analyse_loaded(study, settings):
             notes.append(f"loss is not small against beta (alpha / beta = {float(ls.total) / beta:.2g}): too close to "
                          "cutoff for the power-loss method; the loss figure is not reliable")
         z, z_err, path = None, None, None
-        if m is study.at_frequency[0] or m.family == "TEM":
+        if m.index == study.at_frequency[0].index or m.family == "TEM":
             try:
                 li = Q.loaded_impedances(m, f, section=section)
             except FemodesError as exc:
@@ -324,7 +336,13 @@ def _analyse_loaded(study, settings):
                 path = tuple(tuple(p) for p in li.path) if li.path is not None and len(li.path) == 2 else None
                 notes.append(f"impedances: V along the path given, I on {li.wall}")
         ph = Q.power_handling(m, f, settings.breakdown_field, settings.safety_factor, section=section)
-        rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes), z_err))
+        errs = None
+        if derived is not None and m.index in derived.quantities:
+            ls, z_err, ph, errs = _with_loaded_errors(derived, m, wq, ls, z, ph)
+            if z is not None and not any(k.startswith("Z_") for k in derived.quantities[m.index]):
+                notes.append("one member of a degenerate group: its impedances depend on the orientation the solver "
+                             "gave it (not estimated)")
+        rows.append(ModeQuantities(m, wq, ls, z, path, ph, tuple(notes), z_err, errs))
     sweep = None
     disp = study.dispersion
     if settings.band is not None and disp is not None and disp.solved is not None:
@@ -349,7 +367,57 @@ def _analyse_loaded(study, settings):
         lo, hi = Q.RECOMMENDED_LOW * f1, Q.RECOMMENDED_HIGH * f2
         band = Q.Band(f1, f2, f2 / f1, lo if lo < hi else None, hi if lo < hi else None, cuts[0].label, cuts[1].label)
     return Analysis(settings=settings, frequency=f, modes=tuple(rows), band=band, sweep=sweep, family=None,
-                    top_cutoff=math.nan, cautions=tuple(Q.CAUTIONS), loaded=True)
+                    top_cutoff=math.nan, cautions=tuple(Q.CAUTIONS), loaded=True, derived=derived)
+
+
+def _with_loaded_errors(derived, m, wq, ls, z, ph):
+    """(losses, impedance errors, power handling, errors) of the loaded mode ``m`` (the finest
+    mesh's of :func:`loaded_derived_quantities`) with the ladder's error bars: wall and dielectric
+    loss, group velocity, impedances, the peak in the gas and in each region.  beta's bar is the
+    mode's own (``beta_error``); guide wavelength 2 pi / beta and phase velocity omega / beta carry
+    its relative error, and so does the wave impedance omega mu / beta of a TE mode.  Breakdown and
+    rated power (E_bd / peak)^2: (1 / (1 - e))^2 - 1 relative, e the peak's relative error."""
+    qs = derived.quantities.get(m.index, {})
+
+    def err(name):
+        q = qs.get(name)
+        return None if q is None or not math.isfinite(q.error) else float(q.error)
+
+    beta = float(wq.beta)
+    rel = float(m.beta_error) / beta if beta > 0 else math.nan
+    errs = {"beta": float(m.beta_error), "guide_wavelength": rel * float(wq.guide_wavelength),
+            "phase_velocity": rel * float(wq.phase_velocity)}
+    zw = float(np.real(wq.wave_impedance))
+    if math.isfinite(zw):
+        errs["wave_impedance"] = rel * zw
+    if err("group_velocity") is not None:
+        errs["group_velocity"] = err("group_velocity")
+    ce, de = err("conductor"), err("dielectric")
+    if de is None and not float(ls.dielectric) > 0:
+        de = 0.0  # lossless fill and regions: exactly 0
+    if ce is not None:
+        ls = replace(ls, conductor_error=ce)
+        errs["conductor"] = ce
+    if de is not None:
+        errs["dielectric"] = de
+    if ce is not None and de is not None:
+        errs["total"] = ce + de
+    z_err = None
+    if z is not None:
+        z_err = {k: (err("Z_" + k) if z.get(k) is not None else None) for k in ("PV", "PI", "VI")}
+    if ph is not None:
+        regions = tuple(replace(r, peak_error=err("peak:" + r.name)) if err("peak:" + r.name) is not None else r
+                        for r in ph.regions)
+        ph = replace(ph, regions=regions)
+        pe = err("peak")
+        if pe is not None and math.isfinite(ph.peak_field_per_sqrt_watt):
+            # (E_bd / (peak - e))^2 - (E_bd / peak)^2: the larger side of the power's interval
+            x = pe / ph.peak_field_per_sqrt_watt
+            rel_p = (1.0 / (1.0 - x)) ** 2 - 1.0 if x < 1 else math.inf
+            ph = replace(ph, peak_error=pe, breakdown_power_error=rel_p * ph.breakdown_power,
+                         rated_power_error=rel_p * ph.rated_power)
+            errs.update(peak=pe, breakdown_power=ph.breakdown_power_error, rated_power=ph.rated_power_error)
+    return ls, z_err, ph, errs
 
 
 def _or_none(x):

@@ -33,7 +33,8 @@ AT_FREQUENCY_COLUMNS = ("index", "label", "family", "parent", "frequency_Hz", "p
                         "peak_E_per_sqrt_W_V_per_m", "breakdown_power_W", "rated_power_W",
                         "guide_wavelength_error_m", "phase_velocity_error_m_per_s", "group_velocity_error_m_per_s",
                         "wave_impedance_error_ohm", "alpha_total_error_Np_per_m", "Z_PV_error_ohm", "Z_PI_error_ohm",
-                        "Z_VI_error_ohm", "peak_E_error_V_per_m", "breakdown_power_error_W", "rated_power_error_W")
+                        "Z_VI_error_ohm", "peak_E_error_V_per_m", "breakdown_power_error_W", "rated_power_error_W",
+                        "alpha_dielectric_error_Np_per_m")
 
 #: columns of the dispersion over the band (``<name>.dispersion.csv``): one row per frequency and mode
 DISPERSION_COLUMNS = ("frequency_Hz", "mode", "label", "family", "beta_rad_per_m", "alpha_Np_per_m",
@@ -56,7 +57,8 @@ def _error_cells(q):
     return (*(_num(e.get(k)) for k in ("guide_wavelength", "phase_velocity", "group_velocity", "wave_impedance",
                                        "total")),
             *(_num(ze.get(k)) for k in ("PV", "PI", "VI")),
-            *(_num(getattr(ph, k, None)) for k in ("peak_error", "breakdown_power_error", "rated_power_error")))
+            *(_num(getattr(ph, k, None)) for k in ("peak_error", "breakdown_power_error", "rated_power_error")),
+            _num(e.get("dielectric")))
 
 
 def _sibling(path, part):

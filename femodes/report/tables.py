@@ -171,13 +171,18 @@ def analysis_table(an, study=None) -> str:
             if loaded:
                 sig = _sig_digits(float(w.beta), float(w.beta_error))
                 e_sh, h_sh = m.longitudinal_shares()
+                e = q.errors or {}
                 ce = float(ls.conductor_error)
+                te = e.get("total", math.nan)
+                vg_e = e.get("group_velocity", math.nan)
                 rows.append([str(m.index + 1), m.label, m.family, _significant(float(w.beta), sig),
                              f"{float(w.beta_error):.0e}" if w.beta_error > 0 else "-", _g(w.guide_wavelength * 1e3),
                              f"{m.effective_permittivity:.5f}", f"{w.phase_velocity / C0:.4f}",
-                             f"{w.group_velocity / C0:.4f}", _share(e_sh), _share(h_sh),
+                             f"{w.group_velocity / C0:.4f}", f"{vg_e / C0:.0e}" if math.isfinite(vg_e) else "?",
+                             _share(e_sh), _share(h_sh),
                              _g(ls.conductor_db, 4), f"{ce * NP_TO_DB:.0e}" if math.isfinite(ce) else "?",
-                             _g(ls.dielectric_db, 4) if ls.dielectric > 0 else "0", _g(ls.total_db, 4)])
+                             _g(ls.dielectric_db, 4) if ls.dielectric > 0 else "0", _g(ls.total_db, 4),
+                             f"{te * NP_TO_DB:.0e}" if math.isfinite(te) else "?"])
             else:
                 e = q.errors or {}
                 ce = float(ls.conductor_error)
@@ -191,12 +196,20 @@ def analysis_table(an, study=None) -> str:
                              ("0" if vg_e == 0 else f"{vg_e / C0:.0e}") if vg_e is not None and math.isfinite(vg_e) else "?"])
         if loaded:
             lines += _grid(["#", "label", "family", "beta [rad/m]", "± [rad/m]", "guide wl [mm]", "eps_eff", "v_p/c",
-                            "v_g/c", "Ez share", "Hz share", "walls [dB/m]", "± [dB/m]", "fill [dB/m]", "loss [dB/m]"],
-                           rows, set(range(3, 15)) | {0})
+                            "v_g/c", "± v_g/c", "Ez share", "Hz share", "walls [dB/m]", "± [dB/m]", "fill [dB/m]",
+                            "loss [dB/m]", "± [dB/m]"],
+                           rows, set(range(3, 17)) | {0})
             lines += _wrap("(label: the empty-guide mode it grows from, where its transverse E is mostly that "
                            "mode's; Ez / Hz share: the longitudinal share of the electric / magnetic energy, 0 "
                            "for TE / TM; eps_eff = (beta/k0)^2; fill: the loss tangents of the fill and regions)",
                            "  ", "  ")
+            if an.derived is not None:
+                d = an.derived
+                lines += _wrap(f"(±: error bars; walls, fill, v_g, impedances and peak fields from re-solves at "
+                               f"{fg} GHz on {len(d.unknowns)} meshes ({d.unknowns[0]} .. {d.unknowns[-1]} unknowns) "
+                               f"at quantity accuracy {d.accuracy:g}" + ("" if d.met else ": not met, see the warnings")
+                               + "; '?': not estimated; the second ± [dB/m] is of the total loss; beta's from "
+                               "its own solve; power ± from the peak's)", "  ", "  ")
             if study is not None and study.more_propagate:
                 lines.append(f"  every one of the {len(study.at_frequency)} modes asked for propagates: more may; "
                              "ask for more modes ([solve] modes or --modes) to see them all")
