@@ -4,8 +4,8 @@
 
 from __future__ import annotations
 
-import math
 import os
+import re
 import warnings
 from dataclasses import replace
 
@@ -45,6 +45,7 @@ from femodes.case.values import (
     _count,
     _decimal_scale,
     _frequency_value,
+    _material_range,
     _number,
     _show,
     _suggest,
@@ -320,10 +321,15 @@ def _check_shape_keys(table, shape, spec, allowed, where):
 
 def _shape_from(guide, shape, spec, scale, units, where):
     """The Section of a checked shape table (lengths converted with ``scale``), placed."""
-    kwargs = {k.target: _convert(k, guide[k.name], scale, units, where) for k in spec.keys if k.name in guide}
+    kwargs = {k.target: _convert(k, guide[k.name], scale, units, where, required=k in spec.required)
+              for k in spec.keys if k.name in guide}
     moves = {k.name: _convert(k, guide[k.name], scale, units, where) for k in PLACEMENT if k.name in guide}
+    renamed = {k.target: k.name for k in spec.keys if k.target != k.name}  # the shape function's names
     try:
         sec = spec.build(**kwargs)
+    except FemodesError as exc:
+        raise FemodesError(f"{where} {shape}: {_in_file_units(str(exc), units, scale, renamed)}") from None
+    try:
         if "mirror" in moves:
             sec = sec.mirrored(moves["mirror"])
         if "rotate_deg" in moves:
@@ -331,10 +337,37 @@ def _shape_from(guide, shape, spec, scale, units, where):
         if "offset" in moves:
             sec = sec.translated(*moves["offset"])
     except FemodesError as exc:
-        # the shape speaks SI (metres): say so, since the case file's lengths are in `units`
-        raise FemodesError(f"{where} {shape}: {exc} (the shape checks in metres; the case file's lengths are in "
-                           f"{units})") from None
+        raise FemodesError(f"{where} {shape} (placed with {', '.join(moves)}): "
+                           f"{_in_file_units(str(exc), units, scale)}") from None
     return sec
+
+
+_NUM = r"-?\d+(?:\.\d*)?(?:e[+-]?\d+)?"
+
+
+def _in_file_units(text, units, scale, renamed=None):
+    """A message of the shape functions (which speak SI and print lengths in mm or m) with every
+    length in the case file's ``units`` (``scale`` metres each) and the shape function's parameter
+    names ``renamed`` to the case file's keys (offset -> inner_offset)."""
+    def conv(value, per_metre):
+        return f"{float(value) * per_metre / scale:.6g}"
+
+    def one(m, per_metre):
+        return conv(m.group(1), per_metre)
+
+    # a point (x, y) mm; two lengths 'A x B mm' / 'A and B mm'; one length 'A mm'; metres; areas
+    text = re.sub(rf"\(({_NUM}), ({_NUM})\) mm\b",
+                  lambda m: f"({conv(m.group(1), 1e-3)}, {conv(m.group(2), 1e-3)}) {units}", text)
+    text = re.sub(rf"({_NUM})( x | and )({_NUM}) mm\b",
+                  lambda m: f"{conv(m.group(1), 1e-3)}{m.group(2)}{conv(m.group(3), 1e-3)} {units}", text)
+    text = re.sub(rf"({_NUM}) mm\b", lambda m: f"{one(m, 1e-3)} {units}", text)
+    text = re.sub(rf"({_NUM}) m\^2", lambda m: f"{float(m.group(1)) / scale ** 2:.3g} {units}^2", text)
+    text = re.sub(rf"({_NUM}) m\b(?!\^)", lambda m: f"{one(m, 1.0)} {units}", text)
+    text = text.replace(" in metres", f" in {units}").replace(" (femodes takes metres; the case file's lengths "
+                                                               "are in its units)", "")
+    for param, key in (renamed or {}).items():
+        text = re.sub(rf"\b{param}\b", key, text)
+    return text
 
 
 def _material_values(table, where):
@@ -342,11 +375,7 @@ def _material_values(table, where):
     vals = {}
     for k in ("eps_r", "mu_r"):
         if k in table:
-            v = _number(f"{k} in {where}", table[k])
-            if not (v > 0 and math.isfinite(v)):
-                raise FemodesError(f"{k} in {where} must be a positive finite number (the real part; "
-                                   f"1 for air; losses go in tan_delta), got {_show(table[k])}")
-            vals[k] = v
+            vals[k] = _material_range(f"{k} in {where}", k, table[k])
     if "tan_delta" in table:
         t = _number(f"tan_delta in {where}", table["tan_delta"], "a loss tangent (number), e.g. 2e-4")
         if not 0 <= t < 1:

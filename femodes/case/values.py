@@ -8,7 +8,7 @@ import difflib
 import math
 
 from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, NAME, POINT, POINTS
-from femodes.errors import MAX_FREQUENCY, FemodesError
+from femodes.errors import CONDUCTIVITY_RANGE, MATERIAL_RANGE, MAX_FREQUENCY, FemodesError
 from femodes.quantities import METALS, conductivity_of
 
 
@@ -29,22 +29,25 @@ def _frequency_value(where, value, units, scale):
         raise FemodesError(f"{where} must be a positive frequency in {units}, got {_show(value)}")
     f = _decimal_scale(v, scale)
     if f > MAX_FREQUENCY:
-        raise FemodesError(f"{where} is {f:.3g} Hz, above the {MAX_FREQUENCY:g} Hz (10 THz) femodes handles "
-                           f"(metal walls stop being good conductors); check the value and frequency_units")
+        raise FemodesError(f"{where} is {v:g} {units}, above the {MAX_FREQUENCY / scale:g} {units} (10 THz) femodes "
+                           f"handles (metal walls stop being good conductors); check the value and frequency_units")
     return f
 
 
 def _band_value(where, value, units, scale):
     if (not isinstance(value, (list, tuple)) or len(value) != 2 or not all(_is_number(v) for v in value)):
+        quoted = isinstance(value, (list, tuple)) and any(isinstance(v, str) for v in value)
         raise FemodesError(f"{where} must be a pair [f1, f2] of frequencies in {units}, e.g. [8.2, 12.4], "
-                           f"got {_show(list(value) if isinstance(value, tuple) else value)}")
+                           f"got {_show(list(value) if isinstance(value, tuple) else value)}"
+                           + (" (write the numbers without quotes; the unit is set by `frequency_units`)"
+                              if quoted else ""))
     f1, f2 = (float(v) for v in value)
     if not (math.isfinite(f1) and math.isfinite(f2) and 0 < f1 < f2):
         raise FemodesError(f"{where} must be [f1, f2] with 0 < f1 < f2 ({units}), got [{value[0]!r}, {value[1]!r}]")
     band = (_decimal_scale(f1, scale), _decimal_scale(f2, scale))
     if band[1] > MAX_FREQUENCY:
-        raise FemodesError(f"{where} reaches {band[1]:.3g} Hz, above the {MAX_FREQUENCY:g} Hz (10 THz) femodes "
-                           "handles; check the values and frequency_units")
+        raise FemodesError(f"{where} reaches {f2:g} {units}, above the {MAX_FREQUENCY / scale:g} {units} (10 THz) "
+                           "femodes handles; check the values and frequency_units")
     return band
 
 
@@ -70,21 +73,41 @@ def _conductor_value(where, value):
                                f"{', '.join(names)}; or give the conductivity in S/m as a number)") from None
         return next(k for k, v in METALS.items() if v == sigma), sigma
     v = _number(where, value, "a metal name or a conductivity in S/m")
-    if v <= 0:
-        raise FemodesError(f"{where} must be a metal name or a positive conductivity in S/m (5.8e7 for "
-                           f"copper), got {_show(value)}")
+    lo, hi = CONDUCTIVITY_RANGE
+    if not lo <= v <= hi:
+        raise FemodesError(f"{where} must be a metal name or a conductivity in S/m from {lo:g} to {hi:g} (the "
+                           f"good-conductor surface impedance: metals, alloys, graphite; 5.8e7 for copper), "
+                           f"got {_show(value)}")
     return None, v
 
 
-def _convert(key, value, scale, units, table="[guide]"):
+def _material_range(where, key, value):
+    """eps_r or mu_r of a case file, checked against the library's one range (MATERIAL_RANGE)."""
+    v = _number(where, value, f"a relative {'permittivity' if key == 'eps_r' else 'permeability'} (number)")
+    lo, hi = MATERIAL_RANGE
+    if not lo <= v <= hi:
+        raise FemodesError(f"{where} must lie from {lo:g} to {hi:g} (relative to vacuum, 1 for air; passive "
+                           f"materials up to the strongest ceramics and ferrites; losses go in tan_delta), "
+                           f"got {_show(value)}")
+    return v
+
+
+def _convert(key, value, scale, units, table="[guide]", required=False):
+    """A [guide] (or [[region]]) value in SI; ``required`` lengths must be positive, optional ones
+    (radii of rounded corners, a sector's inner radius) may be 0."""
     where = f"{key.name} in {table}"
     if key.kind == LENGTH:
-        v = _number(where, value, f"a length in {units}")
-        if v < 0:
-            raise FemodesError(f"{where} is a length and must not be negative, got {_show(value)} ({units})")
+        v = _number(where, value, f"a length in {units}", unit_key="units")
+        if v < 0 or (required and v == 0):
+            rule = "must be positive" if required else "must not be negative (0 for none)"
+            raise FemodesError(f"{where} is a length and {rule}, got {_show(value)} ({units})")
         return v * scale
     if key.kind == ANGLE:
-        return math.radians(_number(where, value, "an angle in degrees"))
+        v = _number(where, value, "an angle in degrees (number)")
+        if key.name == "angle_deg" and not 0 < v < 360:
+            raise FemodesError(f"{where} is the opening angle in degrees and must lie strictly between 0 and 360, "
+                               f"got {_show(value)}")
+        return math.radians(v)
     if key.kind == POINT:
         return _pair(where, value, scale, units)
     if key.kind == POINTS:
@@ -146,11 +169,13 @@ def _is_number(v):
     return isinstance(v, (int, float)) and not isinstance(v, bool)
 
 
-def _number(where, value, what="a number", unit_key="units"):
+def _number(where, value, what="a number", unit_key=None):
+    """A finite number of the case file; ``unit_key`` names the key that sets its unit (for the
+    hint when the number was written in quotes)."""
     if not _is_number(value):
         hint = ""
         if isinstance(value, str):
-            hint = f" (write the number without quotes; the unit is set by `{unit_key}`)"
+            hint = " (write the number without quotes" + (f"; the unit is set by `{unit_key}`)" if unit_key else ")")
         raise FemodesError(f"{where} must be {what}, got {_show(value)}{hint}")
     v = float(value)
     if not math.isfinite(v):

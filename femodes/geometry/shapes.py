@@ -221,7 +221,8 @@ def polygon(vertices, holes=()):
         raise FemodesError("vertices must be finite numbers")
     for i in range(len(v)):
         if math.dist(v[i], v[(i + 1) % len(v)]) == 0:
-            raise FemodesError(f"vertices {i + 1} and {(i + 1) % len(v) + 1} coincide at {v[i]}: remove the repeat")
+            raise FemodesError(f"vertices {i + 1} and {(i + 1) % len(v) + 1} coincide at ({v[i][0] * 1e3:.6g}, "
+                               f"{v[i][1] * 1e3:.6g}) mm: remove the repeat")
     loops = []
     for k, h in enumerate(holes):
         if isinstance(h, Section):
