@@ -5,11 +5,10 @@
 from __future__ import annotations
 
 import os
-import re
 import warnings
 from dataclasses import replace
 
-from femodes.api import MAX_MODES, study
+from femodes.api import MAX_MODES, SCALE_LIMITS, study
 from femodes.case.schema import (
     _ANALYSIS_KEYS,
     _ELSEWHERE,
@@ -45,11 +44,13 @@ from femodes.case.values import (
     _count,
     _decimal_scale,
     _frequency_value,
+    _in_file_units,
     _material_range,
     _number,
     _show,
     _suggest,
     _table,
+    case_scale_warnings,
 )
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import Mesh, read_mesh
@@ -106,7 +107,8 @@ def run_case(case: Case):
     kw = dict(case.solve)
     if an is not None:
         kw.update(frequency=an.table_frequency, band=an.band, points=an.points)
-    return study(case.section, tan_delta=case.tan_delta, **kw)
+    with case_scale_warnings():
+        return study(case.section, tan_delta=case.tan_delta, **kw)
 
 
 def _build_case(data, base_dir, path):
@@ -119,6 +121,12 @@ def _build_case(data, base_dir, path):
         raise FemodesError("missing the [guide] table; it needs at least shape = one of " + ", ".join(SHAPES))
     guide = _table(data, "guide")
     section, units = _build_guide(guide, base_dir)
+    shape_name = guide["shape"]
+    guide_params = None
+    if SHAPES[shape_name].build is not None:
+        spec, scale = SHAPES[shape_name], UNITS[units]
+        guide_params = {k.target: _convert(k, guide[k.name], scale, units) for k in spec.keys if k.name in guide}
+    _warn_scale(section, units)
     regions = data.get("region", [])
     if isinstance(regions, dict):
         raise FemodesError("write each material region as a [[region]] table (double brackets), not [region]")
@@ -197,7 +205,22 @@ def _build_case(data, base_dir, path):
     seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
     tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
-                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol, quantity_accuracy=qa)
+                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol, quantity_accuracy=qa, units=units,
+                guide_shape=shape_name, guide_params=guide_params)
+
+
+def _warn_scale(section, units):
+    """The library's size warning (femodes.api.SCALE_LIMITS), said in the case file's terms: a
+    case file's lengths are in its `units`, so the usual cause is the wrong `units`."""
+    size = getattr(section, "size", None)
+    lo, hi = SCALE_LIMITS
+    if size is None or lo <= size <= hi:
+        return
+    what = "large" if size > hi else "small"
+    metres = f" ({size:.4g} m)" if units != "m" else ""
+    warnings.warn(f"femodes: the guide is {size / UNITS[units]:.4g} {units} across{metres}, implausibly "
+                  f"{what} for a microwave guide: check units in [guide] (now \"{units}\"; one of "
+                  f"{', '.join(UNITS)})", UserWarning, stacklevel=4)
 
 
 def _quantity_accuracy(value):
@@ -228,7 +251,10 @@ def _build_analysis(an, tan_delta):
         raise FemodesError(f"frequency_units in [analysis] must be one of {', '.join(FREQUENCY_UNITS)}, "
                            f"got {_show(units)}{sug}")
     scale = FREQUENCY_UNITS[units]
-    s = AnalysisSettings(tan_delta=tan_delta)
+    s = AnalysisSettings(tan_delta=tan_delta, frequency_units=units, frequency_from="frequency in [analysis]",
+                         band_from="band in [analysis]")
+    if "band" in an and "frequency" not in an:
+        s = replace(s, frequency_from="the centre of band in [analysis]")
     if "frequency" in an:
         s = replace(s, frequency=_frequency_value("frequency in [analysis]", an["frequency"], units, scale))
     if "band" in an:
@@ -342,32 +368,6 @@ def _shape_from(guide, shape, spec, scale, units, where):
     return sec
 
 
-_NUM = r"-?\d+(?:\.\d*)?(?:e[+-]?\d+)?"
-
-
-def _in_file_units(text, units, scale, renamed=None):
-    """A message of the shape functions (which speak SI and print lengths in mm or m) with every
-    length in the case file's ``units`` (``scale`` metres each) and the shape function's parameter
-    names ``renamed`` to the case file's keys (offset -> inner_offset)."""
-    def conv(value, per_metre):
-        return f"{float(value) * per_metre / scale:.6g}"
-
-    def one(m, per_metre):
-        return conv(m.group(1), per_metre)
-
-    # a point (x, y) mm; two lengths 'A x B mm' / 'A and B mm'; one length 'A mm'; metres; areas
-    text = re.sub(rf"\(({_NUM}), ({_NUM})\) mm\b",
-                  lambda m: f"({conv(m.group(1), 1e-3)}, {conv(m.group(2), 1e-3)}) {units}", text)
-    text = re.sub(rf"({_NUM})( x | and )({_NUM}) mm\b",
-                  lambda m: f"{conv(m.group(1), 1e-3)}{m.group(2)}{conv(m.group(3), 1e-3)} {units}", text)
-    text = re.sub(rf"({_NUM}) mm\b", lambda m: f"{one(m, 1e-3)} {units}", text)
-    text = re.sub(rf"({_NUM}) m\^2", lambda m: f"{float(m.group(1)) / scale ** 2:.3g} {units}^2", text)
-    text = re.sub(rf"({_NUM}) m\b(?!\^)", lambda m: f"{one(m, 1.0)} {units}", text)
-    text = text.replace(" in metres", f" in {units}").replace(" (femodes takes metres; the case file's lengths "
-                                                               "are in its units)", "")
-    for param, key in (renamed or {}).items():
-        text = re.sub(rf"\b{param}\b", key, text)
-    return text
 
 
 def _material_values(table, where):

@@ -4,8 +4,11 @@ frequencies and bands, conductors; tables and unknown keys (with a suggestion of
 
 from __future__ import annotations
 
+import contextlib
 import difflib
 import math
+import re
+import warnings
 
 from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, NAME, POINT, POINTS
 from femodes.errors import CONDUCTIVITY_RANGE, MATERIAL_RANGE, MAX_FREQUENCY, FemodesError
@@ -228,9 +231,47 @@ def _show(value):
              list: "a list", dict: "a table"}.get(type(value), type(value).__name__)
     if isinstance(value, bool):
         return f"{str(value).lower()} ({tname})"
-    if isinstance(value, dict):
-        return "a table"
+    if isinstance(value, dict):  # an inline table as written: { from = 1, to = 3, points = 5 }
+        text = "{ " + ", ".join(f"{k} = {v!r}" for k, v in value.items()) + " }"
+        return text if len(text) <= 60 else "a table"
     text = repr(value) if not isinstance(value, str) else '"' + value + '"'
     if len(text) > 60:
         text = text[:57] + "..."
     return f"{text} ({tname})" if isinstance(value, (str, list)) else text
+
+
+_NUM = r"-?\d+(?:\.\d*)?(?:e[+-]?\d+)?"
+
+
+def _in_file_units(text, units, scale, renamed=None):
+    """A message of the shape functions (which speak SI and print lengths in mm or m) with every
+    length in the case file's ``units`` (``scale`` metres each) and the shape function's parameter
+    names ``renamed`` to the case file's keys (offset -> inner_offset)."""
+    def conv(value, per_metre):
+        return f"{float(value) * per_metre / scale:.6g}"
+
+    def one(m, per_metre):
+        return conv(m.group(1), per_metre)
+
+    # a point (x, y) mm; two lengths 'A x B mm' / 'A and B mm'; one length 'A mm'; metres; areas
+    text = re.sub(rf"\(({_NUM}), ({_NUM})\) mm\b",
+                  lambda m: f"({conv(m.group(1), 1e-3)}, {conv(m.group(2), 1e-3)}) {units}", text)
+    text = re.sub(rf"({_NUM})( x | and )({_NUM}) mm\b",
+                  lambda m: f"{conv(m.group(1), 1e-3)}{m.group(2)}{conv(m.group(3), 1e-3)} {units}", text)
+    text = re.sub(rf"({_NUM}) mm\b", lambda m: f"{one(m, 1e-3)} {units}", text)
+    text = re.sub(rf"({_NUM}) m\^2", lambda m: f"{float(m.group(1)) / scale ** 2:.3g} {units}^2", text)
+    text = re.sub(rf"({_NUM}) m\b(?!\^)", lambda m: f"{one(m, 1.0)} {units}", text)
+    text = text.replace(" in metres", f" in {units}").replace(" (femodes takes metres; the case file's lengths "
+                                                               "are in its units)", "")
+    for param, key in (renamed or {}).items():
+        text = re.sub(rf"\b{param}\b", key, text)
+    return text
+
+
+@contextlib.contextmanager
+def case_scale_warnings():
+    """Within: the library's own size warning (it speaks of metres typed into Python calls) is
+    left out; a case file gets :func:`_warn_scale`'s when it is loaded."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"femodes: the section is .* implausibly")
+        yield
