@@ -317,6 +317,9 @@ def _solve_case(args):
     if case.output.figures:
         os.environ.setdefault("MPLBACKEND", "Agg")
         check_figures(case.output)  # fail before a long solve, not after it
+    if args.fields and not any(args.fields.lower().endswith(e) for e in (".vtu", ".xdmf", ".xmf", ".vtk")):
+        return _fail(f"--fields {args.fields}: use a name ending in .vtu (ParaView) or .xdmf; the ending names the "
+                     "file format")
     with warnings.catch_warnings(record=True) as caught:  # the analysis's re-solves warn too
         warnings.simplefilter("always")
         with _named(case):

@@ -337,6 +337,8 @@ def _check_shape_keys(table, shape, spec, allowed, where):
         hint = ""
         if k == "units" and where != "[guide]":
             hint = "; a region's lengths are in the units of [guide]"
+        elif k in _TOP_KEYS and where == "[guide]":  # title = ... written below [guide]
+            hint = f"; {k} belongs at the top of the file, above the first [table]"
         raise FemodesError(f"unknown key {k!r} in {where}{_suggest(k, allowed)}{hint} "
                            f"(valid keys for shape {shape!r}: {', '.join(allowed)})")
     missing = [k.name for k in spec.required if k.name not in table]

@@ -6,6 +6,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+import os
 from pathlib import Path
 
 import meshio
@@ -140,6 +141,10 @@ def write_fields(result, path, subdivisions=None, frequency=None):
     :mod:`femodes.modes.model` (int psi^2 dA = 1, int |e_t|^2 dA = 1, units 1/m): ``_psi`` (E_z
     for TM, H_z for TE, the potential for TEM), ``_E`` (e_t), ``_H`` (h_t = z x e_t), ``_absE``.
     Cell data: ``region`` (0 the fill, i the i-th region) and ``eps_r``.  Returns the path."""
+    name = os.fspath(path)
+    if not any(name.lower().endswith(ext) for ext in meshio.extension_to_filetypes):
+        raise FemodesError(f"cannot write field file {name}: its ending names no mesh format; use a name ending "
+                           "in .vtu (ParaView) or .xdmf")
     study = as_study(result)
     f = frequency if frequency is not None else study.frequency
     if study.loaded:
