@@ -11,7 +11,7 @@ import re
 import warnings
 
 from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, NAME, POINT, POINTS
-from femodes.errors import CONDUCTIVITY_RANGE, MATERIAL_RANGE, MAX_FREQUENCY, FemodesError
+from femodes.errors import ACCURACY_RANGE, CONDUCTIVITY_RANGE, MATERIAL_RANGE, MAX_FREQUENCY, FemodesError, accuracy_range_error
 from femodes.quantities import METALS, conductivity_of
 
 
@@ -202,16 +202,11 @@ def _count(where, value):
     return value
 
 
-#: the accuracies the solvers take (relative error on the cutoffs): one statement of the range
-ACCURACY_RANGE = (1e-11, 0.1)
-
-
 def _accuracy(where, value):
     v = _number(where, value, "a relative error (number), e.g. 1e-6")
-    lo, hi = ACCURACY_RANGE
+    lo, hi = ACCURACY_RANGE  # the library's own range, stated by the library's own words
     if not (lo <= v < hi):
-        raise FemodesError(f"{where} is a relative error on the cutoffs and must lie from {lo:g} (the double-precision "
-                           f"floor) up to {hi:g} (e.g. 1e-6), got {_show(value)}")
+        raise accuracy_range_error(where, value)
     return v
 
 
