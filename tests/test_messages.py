@@ -148,3 +148,18 @@ def test_the_readme_key_list_agrees_with_the_code():
     assert f"2 .. {MAX_POINTS} (default {DEFAULT_POINTS}" in block
     assert f"{MATERIAL_RANGE[0]:g} to {MATERIAL_RANGE[1]:g}" in block
     assert f"S/m from {CONDUCTIVITY_RANGE[0]:.0e}".replace("e+0", "e") in block
+
+
+def test_a_mesh_files_own_checks_speak_its_units(tmp_path, capsys):
+    # a hanging node: the vertex (1, 0) of one triangle lies inside the edge (0, 0)-(2, 0) of another
+    import meshio
+    import numpy as np
+
+    pts = np.array([[0, 0, 0], [2, 0, 0], [0, 2, 0], [1, 0, 0], [0, -1, 0], [3, -1, 0]], float)
+    meshio.write(str(tmp_path / "nc.msh"), meshio.Mesh(pts, [("triangle", np.array([[0, 1, 2], [3, 4, 5]]))]),
+                 file_format="gmsh22")
+    path = tmp_path / "nc.toml"
+    path.write_text('[guide]\nshape = "mesh"\nfile = "nc.msh"\nunits = "in"\n', encoding="utf-8")
+    assert main(["solve", str(path), "--no-figures"]) == 2
+    err = capsys.readouterr().err
+    assert "not conforming" in err and "the vertex at (1, 0) in" in err and "(2, 0) in" in err and " mm" not in err

@@ -323,7 +323,10 @@ def _build_guide(guide, base_dir):
         if not os.path.isfile(full):
             raise FemodesError(f"mesh file {rel!r} not found (looked for {os.path.normpath(full)}); "
                                "file is relative to the case file")
-        return read_mesh(full, scale=scale), units
+        try:
+            return read_mesh(full, scale=scale), units
+        except FemodesError as exc:  # the mesh checks print mm and m: the file's coordinates are in `units`
+            raise FemodesError(f"[guide] mesh: {_in_file_units(str(exc), units, scale)}") from None
     return _shape_from(guide, shape, spec, scale, units, "[guide]"), units
 
 
