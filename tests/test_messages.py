@@ -58,6 +58,10 @@ CASES = [
      ["eps_r in [[region]] 1", "from 1 to 10000"], []),
     ('[guide]\nshape = "circle"\nunits = "in"\nradius = 0.2\n[[region]]\nshape = "rectangle"\nwidth = 0.1\n'
      'height = 0.1\ncorner_radius = 0.2\neps_r = 2\n', ["solve"], ["[[region]] 1 rectangle", "0.2 in"], ["mm"]),
+    (CIRCLE.replace("[solve]", '[solve]\nfamily = "TEM"'), ["solve"], ["family in [solve]", "leave family out"],
+     ["did you mean 'TM'"]),
+    (CIRCLE + '[analysis]\nfrequency = 1\nfrequency_units = "THz"\n', ["solve"], ["1 THz = 1000 GHz"],
+     ["did you mean 'Hz'"]),
     (CIRCLE + '[analysis]\nfrequency = 20\nconductor = 10\n', ["solve"],
      ["conductor in [analysis]", "from 10000 to 1e+09", "got 10"], []),
     (CIRCLE + '[analysis]\nfrequency = 1e8\nfrequency_units = "MHz"\n', ["solve"],

@@ -151,6 +151,9 @@ def _build_case(data, base_dir, path):
     if "accuracy" in sv:
         solve["accuracy"] = _accuracy("accuracy in [solve]", sv["accuracy"])
     if "family" in sv:
+        if isinstance(sv["family"], str) and sv["family"].upper() == "TEM":
+            raise FemodesError("family in [solve] must be one of 'TE', 'TM', got \"TEM\": TEM modes come with every "
+                               "solve of a guide with inner conductors; leave family out to get them")
         solve["family"] = _choice("family in [solve]", sv["family"], FAMILIES)
     if "order" in sv:
         o = sv["order"]
@@ -248,6 +251,8 @@ def _build_analysis(an, tan_delta):
         if isinstance(units, str):
             low = [u for u in FREQUENCY_UNITS if u.lower() == units.lower()]
             sug = f"; did you mean {low[0]!r}?" if low else _suggest(units, FREQUENCY_UNITS)
+            if units.lower() == "thz":
+                sug = " (give THz in GHz: 1 THz = 1000 GHz, frequency_units = \"GHz\")"
         raise FemodesError(f"frequency_units in [analysis] must be one of {', '.join(FREQUENCY_UNITS)}, "
                            f"got {_show(units)}{sug}")
     scale = FREQUENCY_UNITS[units]
