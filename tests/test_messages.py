@@ -124,6 +124,7 @@ def test_an_implausible_size_names_units_in_guide_not_metres(tmp_path, capsys):
 def test_design_studies_take_rounded_and_offset_guides(tmp_path, capsys):
     # a rounded rectangle and an offset coax were refused ('need a built-in shape') or leaked offset_x
     for text in ('[guide]\nshape = "rectangle"\nwidth = 22.86\nheight = 10.16\ncorner_radius = 1\n',
+                 '[guide]\nshape = "standard"\ndesignation = "WR-90"\n',
                  '[guide]\nshape = "coaxial"\nouter_radius = 5\ninner_radius = 1\ninner_offset = [1, 0]\n'):
         path = tmp_path / "g.toml"
         path.write_text(text + '[solve]\nmodes = 2\naccuracy = 1e-3\n', encoding="utf-8")

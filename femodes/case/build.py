@@ -123,7 +123,10 @@ def _build_case(data, base_dir, path):
     section, units = _build_guide(guide, base_dir)
     shape_name = guide["shape"]
     guide_params = None
-    if SHAPES[shape_name].build is not None:
+    if shape_name == "standard":  # the studies vary a standard guide as the rectangle it is
+        shape_name = "rectangle"
+        guide_params = {k: section.params[k] for k in ("width", "height", "corner_radius") if k in section.params}
+    elif SHAPES[shape_name].build is not None:
         spec, scale = SHAPES[shape_name], UNITS[units]
         guide_params = {k.target: _convert(k, guide[k.name], scale, units) for k in spec.keys if k.name in guide}
     _warn_scale(section, units)
