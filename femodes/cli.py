@@ -166,6 +166,9 @@ def main(argv=None) -> int:
     except FemodesError as exc:
         return _fail(str(exc))
     except OSError as exc:  # output into a missing or read-only directory, a full disk, ...
+        if getattr(exc, "filename", None) is None and getattr(args, "scheduler", None):  # dask: no connection
+            return _fail(f"cannot reach the scheduler at --scheduler {args.scheduler}: {exc}; check the address "
+                         "and that the scheduler is running")
         where = f" ({exc.filename})" if getattr(exc, "filename", None) else ""
         return _fail(f"{exc.strerror or exc}{where}: check that the directory exists, is writable and has room")
     except MemoryError:

@@ -142,6 +142,9 @@ class Case:
                 if not isinstance(band, (list, tuple)) or len(band) != 2:
                     raise FemodesError(f"--band needs two frequencies F1 F2 in GHz, got {band!r}")
                 vals = [_parse_number(b, "--band", "two frequencies in GHz, e.g. --band 8.2 12.4") for b in band]
+                if all(isinstance(v, (int, float)) for v in vals) and not 0 < vals[0] < vals[1]:
+                    raise FemodesError(f"--band must be F1 F2 with 0 < F1 < F2 (GHz), e.g. --band 8.2 12.4, got "
+                                       f"{' '.join(str(b) for b in band)}")
                 an = replace(an, band=_band_value("--band", vals, "GHz", 1e9), frequency=None, band_from="--band",
                              frequency_from="the centre of --band", frequency_units="GHz")
             if frequency is not None:

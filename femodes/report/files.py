@@ -150,7 +150,7 @@ def write_fields(result, path, subdivisions=None, frequency=None):
     if study.loaded:
         if f is None or not any(m.propagates() for m in study.at_frequency):
             raise FemodesError("--fields writes a loaded guide's modes at a frequency: give [analysis] frequency "
-                               "(at which at least one mode propagates) in the case file")
+                               "(at which at least one mode propagates) in the case file, or --frequency F (GHz)")
         modes = [m for m in study.at_frequency if m.propagates()]
         prob = modes[0].vector.problem
         s = int(subdivisions or study.order)
