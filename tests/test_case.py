@@ -406,7 +406,7 @@ def test_analysis_overrides(tmp_path):
     assert case.with_options(figures_dir="f").output.figures == ("fields", "chart")
     with pytest.raises(FemodesError, match="--conductor needs a frequency"):
         case.with_options(conductor="copper")
-    with pytest.raises(FemodesError, match=r"--band must be \[f1, f2\] with 0 < f1 < f2"):
+    with pytest.raises(FemodesError, match=r"--band must be F1 F2 with 0 < F1 < F2 \(GHz\).*got 12 8"):
         case.with_options(band=["12", "8"])
     with pytest.raises(FemodesError, match="--frequency must be a frequency in GHz"):
         case.with_options(frequency="high")
