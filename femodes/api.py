@@ -20,7 +20,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from femodes.constants import C0
-from femodes.errors import MAX_FREQUENCY, FemodesError, material_number, positive_number
+from femodes.errors import ACCURACY_RANGE, MAX_FREQUENCY, FemodesError, accuracy_range_error, material_number, positive_number
 from femodes.geometry.loops import Arc
 from femodes.geometry.mesh import Mesh
 from femodes.geometry.section import Section
@@ -82,11 +82,11 @@ def solve(section, modes=6, eps_r=1.0, mu_r=1.0, accuracy=1e-6, family=None, ord
         accuracy = float(accuracy)
     except (TypeError, ValueError):
         raise FemodesError(f"accuracy must be a number, got {accuracy!r}") from None
-    if not (1e-11 <= accuracy < 0.1):
-        raise FemodesError(f"accuracy must lie between 1e-11 (the double-precision floor of this solver) and "
-                           f"0.1 (relative error on kc), got {accuracy!r}")
+    if not (ACCURACY_RANGE[0] <= accuracy < ACCURACY_RANGE[1]):
+        raise accuracy_range_error("accuracy", accuracy)
     if family is not None and family not in ("TE", "TM"):
-        raise FemodesError(f"family must be None, 'TE' or 'TM', got {family!r}")
+        hint = f"; did you mean {family.upper()!r}?" if isinstance(family, str) and family.upper() in ("TE", "TM") else ""
+        raise FemodesError(f"family must be None, 'TE' or 'TM', got {family!r}{hint}")
     if frequency is not None:
         frequency = positive_number("frequency", frequency, "Hz")
         if frequency > MAX_FREQUENCY:

@@ -166,6 +166,9 @@ def main(argv=None) -> int:
     except FemodesError as exc:
         return _fail(str(exc))
     except OSError as exc:  # output into a missing or read-only directory, a full disk, ...
+        if getattr(exc, "filename", None) is None and getattr(args, "scheduler", None):  # dask: no connection
+            return _fail(f"cannot reach the scheduler at --scheduler {args.scheduler}: {exc}; check the address "
+                         "and that the scheduler is running")
         where = f" ({exc.filename})" if getattr(exc, "filename", None) else ""
         return _fail(f"{exc.strerror or exc}{where}: check that the directory exists, is writable and has room")
     except MemoryError:
@@ -176,7 +179,7 @@ def main(argv=None) -> int:
 
 
 def _sweep(args):
-    case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy)
+    case = _load(args.case).with_options(modes=args.modes, accuracy=args.accuracy)
     workers = None
     if args.workers is not None:
         try:
@@ -188,7 +191,8 @@ def _sweep(args):
     t0 = time.perf_counter()
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        result = run_sweep(case, store=args.store, workers=workers, scheduler=args.scheduler)
+        with _named(case):
+            result = run_sweep(case, store=args.store, workers=workers, scheduler=args.scheduler)
     _print_warnings(caught)
     seconds = time.perf_counter() - t0
     labels = case.sweep.labels
@@ -217,16 +221,17 @@ def _sweep(args):
 
 
 def _study(args):
-    case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy)
+    case = _load(args.case).with_options(modes=args.modes, accuracy=args.accuracy)
     kind = args.command
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        if kind == "seek":
-            result, labels = run_seek(case), case.seek.labels if case.seek else {}
-        elif kind == "sensitivity":
-            result, labels = run_sensitivity(case), {}
-        else:
-            result, labels = run_tolerance(case), case.tolerance.labels if case.tolerance else {}
+        with _named(case):
+            if kind == "seek":
+                result, labels = run_seek(case), case.seek.labels if case.seek else {}
+            elif kind == "sensitivity":
+                result, labels = run_sensitivity(case), {}
+            else:
+                result, labels = run_tolerance(case), case.tolerance.labels if case.tolerance else {}
     _print_warnings(caught)
     written = []
     if kind == "tolerance" and args.figure:
@@ -254,6 +259,15 @@ def _selfcheck(args):
     return 0 if result.passed else EXIT_CHECK_FAILED
 
 
+def _load(path):
+    """The case file, its warnings (e.g. [output] without figures) printed as the solve's are."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        case = load_case(path)
+    _print_warnings(caught)
+    return case
+
+
 def _print_warnings(caught):
     shown = set()  # each distinct message once (the refinement repeats solves on similar meshes)
     for w in caught:
@@ -262,6 +276,22 @@ def _print_warnings(caught):
             shown.add(msg)
             print(f"femodes: warning: {msg[len('femodes: '):] if msg.startswith('femodes: ') else msg}",
                   file=sys.stderr)
+
+
+class _named:
+    """Errors of a loaded case's run (the solve, its analysis, a study) start with the case file's
+    name, as the errors of loading it do."""
+
+    def __init__(self, case):
+        self.path = case.path
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, kind, exc, tb):
+        if isinstance(exc, FemodesError) and self.path and not str(exc).startswith(f"{self.path}:"):
+            raise FemodesError(f"{self.path}: {exc}") from None
+        return False
 
 
 def _fail(message):
@@ -284,16 +314,20 @@ def _solve(args):
 
 
 def _solve_case(args):
-    case = load_case(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
+    case = _load(args.case).with_options(modes=args.modes, accuracy=args.accuracy, figures_dir=args.figures,
                                              fmt=args.format, no_figures=args.no_figures, frequency=args.frequency,
                                              band=args.band, conductor=args.conductor)
     if case.output.figures:
         os.environ.setdefault("MPLBACKEND", "Agg")
         check_figures(case.output)  # fail before a long solve, not after it
+    if args.fields and not any(args.fields.lower().endswith(e) for e in (".vtu", ".xdmf", ".xmf", ".vtk")):
+        return _fail(f"--fields {args.fields}: use a name ending in .vtu (ParaView) or .xdmf; the ending names the "
+                     "file format")
     with warnings.catch_warnings(record=True) as caught:  # the analysis's re-solves warn too
         warnings.simplefilter("always")
-        study = run_case(case)
-        analysis = analyse(study, case.analysis) if case.analysis is not None else None
+        with _named(case):
+            study = run_case(case)
+            analysis = analyse(study, case.analysis) if case.analysis is not None else None
     _print_warnings(caught)
     csv_paths = write_csv(study, args.csv, analysis) if args.csv else None
     fields_path = write_fields(study, args.fields) if args.fields else None

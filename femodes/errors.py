@@ -70,6 +70,17 @@ MATERIAL_RANGE = (1.0, 1e4)
 CONDUCTIVITY_RANGE = (1e4, 1e9)
 #: highest frequency (Hz): 10 THz; above, metal walls are no longer good conductors
 MAX_FREQUENCY = 1e13
+#: the accuracies the solvers take (relative error on the cutoffs), lo <= accuracy < hi: below lo
+#: the eigenvalues' round-off floor, at hi and above the refinement has nothing to do
+ACCURACY_RANGE = (1e-11, 0.1)
+
+
+def accuracy_range_error(name, value):
+    """The one statement of the accuracy range, for the library (``name`` an argument) and the
+    case file (``name`` a key and its table, or an option)."""
+    lo, hi = ACCURACY_RANGE
+    return FemodesError(f"{name} is a relative error on the cutoffs and must lie from {lo:g} (the double-precision "
+                        f"floor) up to {hi:g}, not included (e.g. 1e-6), got {value!r}")
 
 
 def in_range(name, value, lo, hi, unit="", why=""):

@@ -210,7 +210,7 @@ def bad_case(tmp_path, text):
     (lambda t, w: [], "choose a command"),
     (lambda t, w: ["solve", w, "--conductor", "copper"], "--conductor needs a frequency"),
     (lambda t, w: ["solve", w, "--frequency", "0"], "--frequency must be a positive frequency in GHz"),
-    (lambda t, w: ["solve", w, "--band", "12", "8"], "--band must be [f1, f2] with 0 < f1 < f2"),
+    (lambda t, w: ["solve", w, "--band", "12", "8"], "--band must be F1 F2 with 0 < F1 < F2"),
     (lambda t, w: ["solve", w, "--band", "8"], "expected 2 arguments"),
     (lambda t, w: ["solve", w, "--frequency", "10", "--conductor", "unobtainium"], "unknown metal 'unobtainium'"),
     # WR-90 with 4 modes: the highest computed cutoff is TE11 at 16.16 GHz (Pozar sec. 3.3)

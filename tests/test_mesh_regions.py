@@ -243,7 +243,7 @@ def test_filled_circle_with_curved_triangles_is_the_handbook_guide(tmp_path):
 
 def test_group_errors_name_the_file_the_group_and_the_groups_there(slab_file, tmp_path):
     mesh = fm.read_mesh(slab_file, scale=1e-3)
-    with pytest.raises(FemodesError, match=r"no group 'slb' in mesh file .*slab\.msh; did you mean 'slab'\?; "
+    with pytest.raises(FemodesError, match=r"no group 'slb' in mesh file .*slab\.msh \(did you mean 'slab'\?\); "
                                            r"groups of triangles there: 'slab', 'air'"):
         mesh.with_materials({"slb": EPS})
     with pytest.raises(FemodesError, match=r"group 'wall' of mesh file .*slab\.msh holds no triangles.*'slab', 'air'"):

@@ -47,7 +47,7 @@ def test_verbose_shows_the_refinement_on_stderr(tmp_path, capsys, monkeypatch):
 
 @pytest.mark.parametrize("body, words", [
     ('[guide]\nshape = "circle"\nradius = -5\n', ["radius in [guide]", "-5 (mm)"]),
-    ('[guide]\nshape = "circle"\nunits = "in"\nradius = 0\n', ["in metres", "lengths are in in"]),
+    ('[guide]\nshape = "circle"\nunits = "in"\nradius = 0\n', ["radius in [guide]", "must be positive", "0 (in)"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[analysis]\nfrequency = "ten"\n', ["`frequency_units`"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[solve]\naccuracy = 0\n', ["from 1e-11", "up to 0.1", "[solve]"]),
     ('[guide]\nshape = "circle"\nradius = 5\n[solve]\naccuracy = 0.5\n', ["from 1e-11", "up to 0.1", "[solve]"]),

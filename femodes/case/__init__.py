@@ -47,8 +47,8 @@ hybrid in general and are solved with the full-vector solver (femodes.loaded).  
 takes a shape of the list below except mesh, with its keys and placement, in the units of
 [guide], and:
 
-    eps_r       relative permittivity, real, > 0 (required)
-    mu_r        relative permeability, real, > 0 (default 1)
+    eps_r       relative permittivity, real, 1 to 10000 (required)
+    mu_r        relative permeability, real, 1 to 10000 (default 1)
     tan_delta   loss tangent, 0 <= tan_delta < 1 (default 0): dielectric attenuation
     name        what the report calls the region (default: by its permittivity)
 
@@ -73,15 +73,15 @@ takes a shape of the list below except mesh, with its keys and placement, in the
 
 ``[fill]`` (optional) -- the homogeneous filling (the background, where there are regions):
 
-    eps_r       relative permittivity, real, > 0 (default 1)
-    mu_r        relative permeability, real, > 0 (default 1)
+    eps_r       relative permittivity, real, 1 to 10000 (default 1)
+    mu_r        relative permeability, real, 1 to 10000 (default 1)
     tan_delta   loss tangent of the filling, >= 0 and < 1 (default 0); used only for the
                 dielectric part of the attenuation in [analysis] (the modes are solved lossless)
 
 ``[solve]`` (optional):
 
-    modes       how many modes, a whole number >= 1 (default 6)
-    accuracy    relative error on each cutoff the solver aims for (default 1e-6)
+    modes       how many modes, a whole number from 1 to 500 (default 6)
+    accuracy    relative error on each cutoff the solver aims for (default 1e-6; 1e-11 to 0.1)
     family      "TE" or "TM" to solve one family only (default: all)
     order       finite-element order 1..4 (default: the solver's choice)
     quantity_accuracy  relative error asked of the wall loss, impedances and peak field (and, with
@@ -118,7 +118,7 @@ the solve; see :mod:`femodes.quantities`).  It needs ``frequency`` or ``band`` (
     frequency_units  Hz, kHz, MHz or GHz (default GHz)
     conductor        the wall metal: a name (copper, silver, gold, aluminium, brass, stainless
                      steel; a few aliases such as "aluminum" or "cu") or a conductivity in S/m
-                     (default copper, 5.8e7 S/m)
+                     from 1e4 to 1e9 (default copper, 5.8e7 S/m)
     roughness_um     rms surface roughness of the walls in micrometres (default 0: smooth);
                      applied with the Hammerstad-Jensen factor
     breakdown_field  peak field at which the filling breaks down, V/m (default 3e6: dry air at

@@ -4,12 +4,11 @@
 
 from __future__ import annotations
 
-import math
 import os
 import warnings
 from dataclasses import replace
 
-from femodes.api import MAX_MODES, study
+from femodes.api import MAX_MODES, SCALE_LIMITS, study
 from femodes.case.schema import (
     _ANALYSIS_KEYS,
     _ELSEWHERE,
@@ -46,10 +45,13 @@ from femodes.case.values import (
     _count,
     _decimal_scale,
     _frequency_value,
+    _in_file_units,
+    _material_range,
     _number,
     _show,
     _suggest,
     _table,
+    case_scale_warnings,
 )
 from femodes.errors import FemodesError
 from femodes.geometry.mesh import Mesh, read_mesh
@@ -106,7 +108,8 @@ def run_case(case: Case):
     kw = dict(case.solve)
     if an is not None:
         kw.update(frequency=an.table_frequency, band=an.band, points=an.points)
-    return study(case.section, tan_delta=case.tan_delta, **kw)
+    with case_scale_warnings():
+        return study(case.section, tan_delta=case.tan_delta, **kw)
 
 
 def _build_case(data, base_dir, path):
@@ -119,6 +122,15 @@ def _build_case(data, base_dir, path):
         raise FemodesError("missing the [guide] table; it needs at least shape = one of " + ", ".join(SHAPES))
     guide = _table(data, "guide")
     section, units = _build_guide(guide, base_dir)
+    shape_name = guide["shape"]
+    guide_params = None
+    if shape_name == "standard":  # the studies vary a standard guide as the rectangle it is
+        shape_name = "rectangle"
+        guide_params = {k: section.params[k] for k in ("width", "height", "corner_radius") if k in section.params}
+    elif SHAPES[shape_name].build is not None:
+        spec, scale = SHAPES[shape_name], UNITS[units]
+        guide_params = {k.target: _convert(k, guide[k.name], scale, units) for k in spec.keys if k.name in guide}
+    _warn_scale(section, units)
     regions = data.get("region", [])
     if isinstance(regions, dict):
         raise FemodesError("write each material region as a [[region]] table (double brackets), not [region]")
@@ -143,6 +155,9 @@ def _build_case(data, base_dir, path):
     if "accuracy" in sv:
         solve["accuracy"] = _accuracy("accuracy in [solve]", sv["accuracy"])
     if "family" in sv:
+        if isinstance(sv["family"], str) and sv["family"].upper() == "TEM":
+            raise FemodesError("family in [solve] must be one of 'TE', 'TM', got \"TEM\": TEM modes come with every "
+                               "solve of a guide with inner conductors; leave family out to get them")
         solve["family"] = _choice("family in [solve]", sv["family"], FAMILIES)
     if "order" in sv:
         o = sv["order"]
@@ -201,7 +216,22 @@ def _build_case(data, base_dir, path):
     seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
     tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
-                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol, quantity_accuracy=qa)
+                tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol, quantity_accuracy=qa, units=units,
+                guide_shape=shape_name, guide_params=guide_params)
+
+
+def _warn_scale(section, units):
+    """The library's size warning (femodes.api.SCALE_LIMITS), said in the case file's terms: a
+    case file's lengths are in its `units`, so the usual cause is the wrong `units`."""
+    size = getattr(section, "size", None)
+    lo, hi = SCALE_LIMITS
+    if size is None or lo <= size <= hi:
+        return
+    what = "large" if size > hi else "small"
+    metres = f" ({size:.4g} m)" if units != "m" else ""
+    warnings.warn(f"femodes: the guide is {size / UNITS[units]:.4g} {units} across{metres}, implausibly "
+                  f"{what} for a microwave guide: check units in [guide] (now \"{units}\"; one of "
+                  f"{', '.join(UNITS)})", UserWarning, stacklevel=4)
 
 
 def _quantity_accuracy(value):
@@ -229,10 +259,15 @@ def _build_analysis(an, tan_delta):
         if isinstance(units, str):
             low = [u for u in FREQUENCY_UNITS if u.lower() == units.lower()]
             sug = f"; did you mean {low[0]!r}?" if low else _suggest(units, FREQUENCY_UNITS)
+            if units.lower() == "thz":
+                sug = " (give THz in GHz: 1 THz = 1000 GHz, frequency_units = \"GHz\")"
         raise FemodesError(f"frequency_units in [analysis] must be one of {', '.join(FREQUENCY_UNITS)}, "
                            f"got {_show(units)}{sug}")
     scale = FREQUENCY_UNITS[units]
-    s = AnalysisSettings(tan_delta=tan_delta)
+    s = AnalysisSettings(tan_delta=tan_delta, frequency_units=units, frequency_from="frequency in [analysis]",
+                         band_from="band in [analysis]")
+    if "band" in an and "frequency" not in an:
+        s = replace(s, frequency_from="the centre of band in [analysis]")
     if "frequency" in an:
         s = replace(s, frequency=_frequency_value("frequency in [analysis]", an["frequency"], units, scale))
     if "band" in an:
@@ -302,7 +337,10 @@ def _build_guide(guide, base_dir):
         if not os.path.isfile(full):
             raise FemodesError(f"mesh file {rel!r} not found (looked for {os.path.normpath(full)}); "
                                "file is relative to the case file")
-        return read_mesh(full, scale=scale), units
+        try:
+            return read_mesh(full, scale=scale), units
+        except FemodesError as exc:  # the mesh checks print mm and m: the file's coordinates are in `units`
+            raise FemodesError(f"[guide] mesh: {_in_file_units(str(exc), units, scale)}") from None
     return _shape_from(guide, shape, spec, scale, units, "[guide]"), units
 
 
@@ -316,6 +354,8 @@ def _check_shape_keys(table, shape, spec, allowed, where):
         hint = ""
         if k == "units" and where != "[guide]":
             hint = "; a region's lengths are in the units of [guide]"
+        elif k in _TOP_KEYS and where == "[guide]":  # title = ... written below [guide]
+            hint = f"; {k} belongs at the top of the file, above the first [table]"
         raise FemodesError(f"unknown key {k!r} in {where}{_suggest(k, allowed)}{hint} "
                            f"(valid keys for shape {shape!r}: {', '.join(allowed)})")
     missing = [k.name for k in spec.required if k.name not in table]
@@ -326,10 +366,15 @@ def _check_shape_keys(table, shape, spec, allowed, where):
 
 def _shape_from(guide, shape, spec, scale, units, where):
     """The Section of a checked shape table (lengths converted with ``scale``), placed."""
-    kwargs = {k.target: _convert(k, guide[k.name], scale, units, where) for k in spec.keys if k.name in guide}
+    kwargs = {k.target: _convert(k, guide[k.name], scale, units, where, required=k in spec.required)
+              for k in spec.keys if k.name in guide}
     moves = {k.name: _convert(k, guide[k.name], scale, units, where) for k in PLACEMENT if k.name in guide}
+    renamed = {k.target: k.name for k in spec.keys if k.target != k.name}  # the shape function's names
     try:
         sec = spec.build(**kwargs)
+    except FemodesError as exc:
+        raise FemodesError(f"{where} {shape}: {_in_file_units(str(exc), units, scale, renamed)}") from None
+    try:
         if "mirror" in moves:
             sec = sec.mirrored(moves["mirror"])
         if "rotate_deg" in moves:
@@ -339,10 +384,11 @@ def _shape_from(guide, shape, spec, scale, units, where):
         if where == "[guide]" and "magnetic_walls" in guide:
             sec = sec.with_walls(magnetic=_convert(WALL_MARKS[0], guide["magnetic_walls"], scale, units, where))
     except FemodesError as exc:
-        # the shape speaks SI (metres): say so, since the case file's lengths are in `units`
-        raise FemodesError(f"{where} {shape}: {exc} (the shape checks in metres; the case file's lengths are in "
-                           f"{units})") from None
+        raise FemodesError(f"{where} {shape} (placed with {', '.join(moves)}): "
+                           f"{_in_file_units(str(exc), units, scale)}") from None
     return sec
+
+
 
 
 def _material_values(table, where):
@@ -350,11 +396,7 @@ def _material_values(table, where):
     vals = {}
     for k in ("eps_r", "mu_r"):
         if k in table:
-            v = _number(f"{k} in {where}", table[k])
-            if not (v > 0 and math.isfinite(v)):
-                raise FemodesError(f"{k} in {where} must be a positive finite number (the real part; "
-                                   f"1 for air; losses go in tan_delta), got {_show(table[k])}")
-            vals[k] = v
+            vals[k] = _material_range(f"{k} in {where}", k, table[k])
     if "tan_delta" in table:
         t = _number(f"tan_delta in {where}", table["tan_delta"], "a loss tangent (number), e.g. 2e-4")
         if not 0 <= t < 1:

@@ -13,9 +13,11 @@ from femodes.case.schema import (
     DEFAULT_BREAKDOWN_FIELD,
     DEFAULT_CONDUCTOR,
     DEFAULT_DIRECTORY,
+    DEFAULT_FREQUENCY_UNITS,
     DEFAULT_POINTS,
     DEFAULT_SAFETY_FACTOR,
     FORMATS,
+    FREQUENCY_UNITS,
 )
 from femodes.case.values import _accuracy, _band_value, _choice, _conductor_value, _count, _frequency_value, _parse_conductor, _parse_number
 from femodes.errors import FemodesError
@@ -62,6 +64,14 @@ class AnalysisSettings:
     safety_factor: float = DEFAULT_SAFETY_FACTOR
     impedance: str = "PV"
     quantity_accuracy: float = DEFAULT_QUANTITY_ACCURACY
+    frequency_units: str = DEFAULT_FREQUENCY_UNITS  # how the case file gave its frequencies (messages)
+    frequency_from: str | None = None  # where the frequency came from ('frequency in [analysis]', '--frequency')
+    band_from: str | None = None
+
+    @property
+    def frequency_scale(self):
+        """Hz per ``frequency_units``."""
+        return FREQUENCY_UNITS[self.frequency_units]
 
     @property
     def table_frequency(self):
@@ -101,6 +111,9 @@ class Case:
     seek: object = None  # femodes.case.studies.SeekSettings of a [seek] table, or None
     tolerance: object = None  # femodes.case.studies.ToleranceSettings of a [tolerance] table, or None
     quantity_accuracy: float = DEFAULT_QUANTITY_ACCURACY  # [solve] quantity_accuracy
+    units: str = "mm"  # [guide] units: how the messages of the studies give lengths back
+    guide_shape: str | None = None  # the [guide] shape name and its shape function's arguments (SI),
+    guide_params: dict | None = None  # for the design studies (None for a mesh file)
 
     @property
     def loaded(self):
@@ -130,10 +143,15 @@ class Case:
                 if not isinstance(band, (list, tuple)) or len(band) != 2:
                     raise FemodesError(f"--band needs two frequencies F1 F2 in GHz, got {band!r}")
                 vals = [_parse_number(b, "--band", "two frequencies in GHz, e.g. --band 8.2 12.4") for b in band]
-                an = replace(an, band=_band_value("--band", vals, "GHz", 1e9), frequency=None)
+                if all(isinstance(v, (int, float)) for v in vals) and not 0 < vals[0] < vals[1]:
+                    raise FemodesError(f"--band must be F1 F2 with 0 < F1 < F2 (GHz), e.g. --band 8.2 12.4, got "
+                                       f"{' '.join(str(b) for b in band)}")
+                an = replace(an, band=_band_value("--band", vals, "GHz", 1e9), frequency=None, band_from="--band",
+                             frequency_from="the centre of --band", frequency_units="GHz")
             if frequency is not None:
                 v = _parse_number(frequency, "--frequency", "a frequency in GHz (number), e.g. 10")
-                an = replace(an, frequency=_frequency_value("--frequency", v, "GHz", 1e9))
+                an = replace(an, frequency=_frequency_value("--frequency", v, "GHz", 1e9), frequency_from="--frequency",
+                             frequency_units="GHz")
             if conductor is not None:
                 name, sigma = _conductor_value("--conductor", _parse_conductor(conductor))
                 an = replace(an, conductor=name, conductivity=sigma)

@@ -34,14 +34,26 @@ The fixed parameters are the [guide] table's; the guide's placement does not cha
 
 from __future__ import annotations
 
+import contextlib
 import math
+import re
 from dataclasses import dataclass
 
 from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
 from femodes.case.sweep import _case_regions
-from femodes.case.values import _check_keys, _count, _number, _show, _suggest
+from femodes.case.values import (
+    _NUM,
+    _check_keys,
+    _in_file_units,
+    _is_number,
+    _number,
+    _show,
+    _suggest,
+    case_scale_warnings,
+)
 from femodes.errors import FemodesError
 from femodes.studies import seek, sensitivity, tolerance
+from femodes.studies.tolerance import MIN_SAMPLES
 
 __all__ = ["SeekSettings", "ToleranceSettings", "build_seek", "build_tolerance", "run_seek", "run_sensitivity",
            "run_tolerance"]
@@ -104,9 +116,14 @@ def _is_target(name):
     return name in ("f_high", "ratio", "z_pv", "alpha") or (name.startswith("fc") and name[2:].isdigit())
 
 
+_TARGET_UNITS = {"ratio": "", "z_pv": " ohm", "alpha": " Np/m"}  # fcN and f_high: GHz
+
+
 def build_seek(table, guide):
     """SeekSettings from the [seek] table and the [guide] table."""
     keys, scale = _shape_keys(guide, "seek")
+    units = guide.get("units", "mm")
+    required = {k.name for k in SHAPES[guide["shape"]].required}
     bounds, targets, labels = {}, {}, {}
     for name, value in table.items():
         where = f"{name} in [seek]"
@@ -118,21 +135,40 @@ def build_seek(table, guide):
                 labels[target] = key
             continue
         if _is_target(name):
-            v = _number(where, value)
+            unit = _TARGET_UNITS.get(name, " GHz")
+            v = _number(where, value, f"a target value{' in' + unit if unit else ''} (number)")
+            if v <= 0:
+                raise FemodesError(f"{where} is a target{' in' + unit if unit else ''} and must be positive, "
+                                   f"got {_show(value)}")
             targets[name] = v if name in ("ratio", "z_pv", "alpha") else v * 1e9
         elif name in keys:
-            if not isinstance(value, list) or len(value) != 2:
-                raise FemodesError(f"{where} must be its bounds [low, high] in the [guide] units, got {_show(value)}")
             key = keys[name]
-            lo, hi = (_number(where, v) * _factor(key, scale) for v in value)
-            bounds[key.target] = (lo, hi)
+            unit = "degrees" if key.kind == ANGLE else units
+            if not isinstance(value, list) or len(value) != 2:
+                raise FemodesError(f"{where} must be its bounds [low, high] in {unit}, got {_show(value)}")
+            lo, hi = (_number(where, v, f"a bound in {unit} (number)") for v in value)
+            if not lo < hi:
+                raise FemodesError(f"{where} must be its bounds [low, high] with low < high ({unit}), "
+                                   f"got {_show(value)}")
+            if key.kind == LENGTH and (lo < 0 or (lo == 0 and name in required)):
+                raise FemodesError(f"{where}: {name} is a length, so its bounds must be "
+                                   f"{'positive' if name in required else '>= 0'}, got {_show(value)} ({unit})")
+            if key.kind == ANGLE and not (0 < lo and hi < 360):
+                raise FemodesError(f"{where}: the bounds of an opening angle lie strictly between 0 and 360 degrees, "
+                                   f"got {_show(value)}")
+            bounds[key.target] = (lo * _factor(key, scale), hi * _factor(key, scale))
             labels[key.target] = name
         else:
             _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio", "z_pv", "alpha", "region"),
                         "[seek]")
     if not bounds or not targets:
-        raise FemodesError("[seek] needs the free parameters with their bounds (e.g. ridge_width = [4, 14]) and "
-                           "the targets (e.g. fc1 = 1.7, GHz)")
+        missing = "the free parameters with their bounds" if not bounds else "the targets"
+        raise FemodesError(f"[seek] lacks {missing}: it needs free [guide] keys with their bounds in {units} "
+                           "(e.g. ridge_width = [4, 14]) and as many targets (e.g. fc1 = 1.7, GHz)")
+    if len(bounds) != len(targets) or len(bounds) > 2:
+        raise FemodesError(f"[seek] gives {len(bounds)} free parameter(s) ({', '.join(labels.values())}) for "
+                           f"{len(targets)} target(s) ({', '.join(targets)}): give as many targets as free "
+                           "parameters, one or two")
     return SeekSettings(bounds, targets, labels)
 
 
@@ -142,6 +178,7 @@ def build_tolerance(table, guide):
     _check_keys(table, tuple(keys) + _TOLERANCE_KEYS + ("region",) + _REGION_PROPS, "[tolerance]",
                 shown=[f"{k} (a [guide] key)" for k in keys] + list(_TOLERANCE_KEYS)
                 + ["eps_r / mu_r (the fill's)", "region.NAME.eps_r / .mu_r (a [[region]]'s)"])
+    units = guide.get("units", "mm")
     tol, labels = {}, {}
     for name, value in table.items():
         if name in _TOLERANCE_KEYS:
@@ -159,14 +196,26 @@ def build_tolerance(table, guide):
                     raise FemodesError(f"{key} in [tolerance] is a +- tolerance and must be >= 0, got {_show(v)}")
                 tol[target], labels[target] = t, key
             continue
-        v = _number(f"{name} in [tolerance]", value)
+        unit = "degrees" if keys[name].kind == ANGLE else units
+        v = _number(f"{name} in [tolerance]", value, f"a +- tolerance in {unit} (number)")
         if v < 0:
-            raise FemodesError(f"{name} in [tolerance] is a +- tolerance and must be >= 0, got {_show(value)}")
+            raise FemodesError(f"{name} in [tolerance] is a +- tolerance and must be >= 0, got {_show(value)} ({unit})")
+        if name not in guide:
+            raise FemodesError(f"{name} in [tolerance]: [guide] gives no {name} to vary (it is left out there); "
+                               f"give {name} in [guide] or leave it out of [tolerance]")
+        nominal = guide[name]
+        if _is_number(nominal) and v >= abs(nominal):
+            raise FemodesError(f"{name} in [tolerance] (+- {v:g} {unit}) must be smaller than {name} in [guide] "
+                               f"({nominal:g} {unit}): the tolerances are small changes of the dimensions")
         tol[keys[name].target] = v * _factor(keys[name], scale)
         labels[keys[name].target] = name
     if not tol:
-        raise FemodesError("[tolerance] names no dimension: give [guide] keys with their +- tolerances, e.g. gap = 0.02")
-    samples = _count("samples in [tolerance]", table["samples"]) if "samples" in table else 20000
+        raise FemodesError(f"[tolerance] names no dimension: give [guide] keys with their +- tolerances in {units}, "
+                           "e.g. gap = 0.02")
+    samples = table.get("samples", 20000)
+    if isinstance(samples, bool) or not isinstance(samples, int) or samples < MIN_SAMPLES:
+        raise FemodesError(f"samples in [tolerance] is the number of Monte Carlo draws and must be a whole number "
+                           f">= {MIN_SAMPLES} (default 20000), got {_show(samples)}")
     dist = table.get("distribution", "uniform")
     if dist not in ("uniform", "normal"):
         raise FemodesError(f"distribution in [tolerance] must be \"uniform\" or \"normal\", got {_show(dist)}")
@@ -174,13 +223,20 @@ def build_tolerance(table, guide):
 
 
 def _shape_and_fixed(case, free=(), table=None):
-    """(shape function, fixed parameters, extra keyword arguments: the regions of a loaded guide)."""
-    if not hasattr(case.section, "kind") or case.section.kind not in SHAPES or SHAPES[case.section.kind].build is None:
-        raise FemodesError("design studies need a built-in shape in [guide] (a mesh file has no parameters)")
+    """(shape function, fixed arguments (SI) from the [guide] table itself -- a rounded rectangle or
+    an offset coax keep their own keys --, extra keyword arguments: the regions of a loaded guide)."""
+    shape = case.guide_shape
+    if shape is None or case.guide_params is None or SHAPES[shape].build is None:
+        raise FemodesError("design studies (seek, sensitivity, tolerance) vary the dimensions of a built-in shape "
+                           "in [guide]; a mesh file has none")
+    if not any(k.kind in (LENGTH, ANGLE) for k in SHAPES[shape].keys):
+        raise FemodesError(f"design studies (seek, sensitivity, tolerance) vary the named dimensions of a shape "
+                           f"(width, gap, radius, ...); shape {shape!r} has none (its vertices are a list): describe "
+                           "the guide with a shape that has them")
     if getattr(case.section, "magnetic", ()):
         raise FemodesError("design studies of a guide with magnetic_walls are not supported yet (the studied "
                            "shapes are rebuilt without the marks)")
-    fixed = {k: v for k, v in case.section.params.items() if k not in free}
+    fixed = {k: v for k, v in case.guide_params.items() if k not in free}
     extra = {}
     if case.loaded:
         regions = _case_regions(case)
@@ -195,7 +251,41 @@ def _shape_and_fixed(case, free=(), table=None):
         if bad:
             raise FemodesError(f"{bad[0]} in [{table}]: this guide has no [[region]] tables; add one, or vary a "
                                "[guide] dimension")
-    return SHAPES[case.section.kind].build, fixed, extra
+    return SHAPES[shape].build, fixed, extra
+
+
+def _study_text(text, case):
+    """A message of the design studies (which speak Python: the shape function's argument names,
+    metres, radians, modes=) in the case file's terms: its [guide] keys and units."""
+    spec = SHAPES[case.guide_shape]
+    units, scale = case.units, UNITS[case.units]
+    for k in spec.keys:
+        if k.kind == ANGLE:  # 'angle from 1.5707963267948966' -> 'angle_deg from 90'
+            text = re.sub(rf"\b{k.target} (from|=) ({_NUM})",
+                          lambda m: f"{k.name} {m.group(1)} {math.degrees(float(m.group(2))):.6g} degrees", text)
+    lengths = [k for k in spec.keys if k.kind == LENGTH]
+    for k in lengths:  # 'width = 0.0127' and 'width in [0.0127, 0.0381]' (metres)
+        text = re.sub(rf"\b{k.target} = ({_NUM})(?![\d.eE+-]| ?(?:m|cm|mm|um|in|mil)\b)",
+                      lambda m: f"{k.name} = {float(m.group(1)) / scale:.6g} {units}", text)
+        text = re.sub(rf"\b{k.target} in \[({_NUM}), ({_NUM})\]",
+                      lambda m: f"{k.name} in [{float(m.group(1)) / scale:.6g} {units}, "
+                                f"{float(m.group(2)) / scale:.6g} {units}]", text)
+    # cutoff targets in Hz ('fc1 = 6e+09') -> GHz, as [seek] gives them
+    text = re.sub(rf"\b(fc\d+|f_high) = ({_NUM})(?![\d.eE+-]| ?[kMG]?Hz\b)",
+                  lambda m: f"{m.group(1)} = {float(m.group(2)) / 1e9:.6g} GHz", text)
+    text = _in_file_units(text, units, scale, {k.target: k.name for k in spec.keys if k.target != k.name})
+    return text.replace("raise modes=", "raise modes in [solve] (or --modes)")
+
+
+@contextlib.contextmanager
+def _case_terms(case):
+    with case_scale_warnings():
+        try:
+            yield
+        except FemodesError as exc:
+            if case.guide_shape is None or SHAPES[case.guide_shape].build is None:
+                raise
+            raise FemodesError(_study_text(str(exc), case)) from None
 
 
 def _options(case):
@@ -221,7 +311,8 @@ def run_seek(case):
                                "with frequency = F (and the conductor)")
         kw.update(frequency=an.table_frequency, conductivity=an.conductivity, roughness=an.roughness,
                   tan_delta=case.tan_delta or an.tan_delta)
-    return seek(shape, fixed, case.seek.bounds, case.seek.targets, **kw)
+    with _case_terms(case):
+        return seek(shape, fixed, case.seek.bounds, case.seek.targets, **kw)
 
 
 def run_sensitivity(case):
@@ -229,7 +320,8 @@ def run_sensitivity(case):
     shape, fixed, extra = _shape_and_fixed(case)
     kw = dict(_options(case), **extra)
     kw["modes"] = case.solve.get("modes", 6)
-    return sensitivity(shape, fixed, **kw)
+    with _case_terms(case):
+        return sensitivity(shape, fixed, **kw)
 
 
 def run_tolerance(case):
@@ -237,8 +329,9 @@ def run_tolerance(case):
     if case.tolerance is None:
         raise FemodesError("the case file has no [tolerance] table: add one with the +- tolerance of each dimension")
     shape, fixed, extra = _shape_and_fixed(case, tuple(case.tolerance.tolerances), "tolerance")
-    fixed = dict(case.section.params)  # every dimension at its nominal value
+    fixed = dict(case.guide_params)  # every dimension at its nominal value
     kw = dict(_options(case), **extra)
     kw["modes"] = case.solve.get("modes", 6)
     t = case.tolerance
-    return tolerance(shape, fixed, t.tolerances, samples=t.samples, distribution=t.distribution, **kw)
+    with _case_terms(case):
+        return tolerance(shape, fixed, t.tolerances, samples=t.samples, distribution=t.distribution, **kw)

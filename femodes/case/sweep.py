@@ -34,7 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
-from femodes.case.values import _check_keys, _count, _number, _show, _suggest
+from femodes.case.values import _check_keys, _count, _material_range, _number, _show, _suggest
 from femodes.errors import FemodesError
 from femodes.geometry.section import Section
 from femodes.studies import sweep
@@ -67,7 +67,8 @@ def build_sweep(table, guide, base_dir):
     keys = {k.name: k for k in SHAPES[shape].keys if k.kind in (LENGTH, ANGLE)}
     _check_keys(table, tuple(keys) + SWEEP_KEYS + OTHER_KEYS, "[sweep]",
                 shown=[f"{k} (a [guide] key of {shape})" for k in keys] + list(SWEEP_KEYS) + list(OTHER_KEYS))
-    scale = UNITS[guide.get("units", "mm")]
+    units = guide.get("units", "mm")
+    scale = UNITS[units]
     vary, labels = {}, {}
     for name, value, factor, target in _entries(table, keys, scale):
         where = f"{name} in [sweep]"
@@ -86,11 +87,25 @@ def build_sweep(table, guide, base_dir):
         else:
             raise FemodesError(f"{where} must be a non-empty list of values or {{ from = A, to = B, points = N }}, got "
                                f"{_show(value)}")
-        if target == "frequency" or target.split(".")[-1] in ("eps_r", "mu_r"):
+        prop = target.split(".")[-1]
+        if target == "frequency":
             if np.any(vals <= 0):
-                raise FemodesError(f"{where} must be positive, got {_show(value)}")
-        elif target.endswith("tan_delta") and np.any(vals < 0):
-            raise FemodesError(f"{where} must be >= 0, got {_show(value)}")
+                raise FemodesError(f"{where} is the analysis frequency in GHz and must be positive, got {_show(value)}")
+        elif prop in ("eps_r", "mu_r"):
+            for v in vals:
+                _material_range(where, prop, float(v))
+        elif prop == "tan_delta":
+            if np.any(vals < 0) or np.any(vals >= 1):
+                raise FemodesError(f"{where} is a loss tangent and must lie in 0 <= tan_delta < 1, got {_show(value)}")
+        elif name in keys and keys[name].kind == LENGTH:
+            required = keys[name] in SHAPES[shape].required
+            if np.any(vals < 0) or (required and np.any(vals == 0)):
+                rule = "must be positive" if required else "must not be negative"
+                raise FemodesError(f"{where}: {name} is a length and {rule}, got {_show(value)} ({units})")
+        elif name in keys and keys[name].kind == ANGLE and keys[name].name == "angle_deg":
+            if np.any(vals <= 0) or np.any(vals >= 360):
+                raise FemodesError(f"{where}: angle_deg is the opening angle in degrees and must lie strictly between "
+                                   f"0 and 360, got {_show(value)}")
         vary[target] = tuple(float(v) * factor for v in vals)
         labels[target] = name
     if not vary:
@@ -106,8 +121,9 @@ def build_sweep(table, guide, base_dir):
     if spec is not None:
         if not isinstance(spec, list) or len(spec) != 2:
             raise FemodesError(f"spec_band in [sweep] must be [f1, f2] in GHz, got {_show(spec)}")
-        spec = tuple(_number("spec_band in [sweep]", v) * 1e9 for v in spec)
-    target = _number("target in [sweep]", table["target"]) * 1e9 if "target" in table else None
+        spec = tuple(_number("spec_band in [sweep]", v, "[f1, f2] in GHz") * 1e9 for v in spec)
+    target = (_number("target in [sweep]", table["target"], "a frequency in GHz (number)") * 1e9
+              if "target" in table else None)
     return SweepSettings(vary, labels, store, workers, spec, target)
 
 
@@ -163,8 +179,8 @@ def run_sweep(case, store=None, workers=None, scheduler=None):
     if getattr(case.section, "magnetic", ()):
         raise FemodesError("a [sweep] of a guide with magnetic_walls is not supported yet (the swept shapes are "
                            "rebuilt without the marks): solve each size as a case of its own")
-    shape_function = SHAPES[case.section.kind].build
-    fixed = {k: v for k, v in case.section.params.items() if k not in s.vary}
+    shape_function = SHAPES[case.guide_shape].build  # the [guide] table's own arguments (SI)
+    fixed = {k: v for k, v in case.guide_params.items() if k not in s.vary}
     opts = {k: v for k, v in case.solve.items() if k in ("eps_r", "mu_r", "family", "order") and k not in s.vary}
     kw = {k: case.solve[k] for k in ("modes", "accuracy") if k in case.solve}
     regions = _case_regions(case) if case.loaded else None

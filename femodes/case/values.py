@@ -4,11 +4,14 @@ frequencies and bands, conductors; tables and unknown keys (with a suggestion of
 
 from __future__ import annotations
 
+import contextlib
 import difflib
 import math
+import re
+import warnings
 
 from femodes.case.schema import _KIND_TEXT, ANGLE, AXIS, LENGTH, LOOPS, NAME, POINT, POINTS
-from femodes.errors import MAX_FREQUENCY, FemodesError
+from femodes.errors import ACCURACY_RANGE, CONDUCTIVITY_RANGE, MATERIAL_RANGE, MAX_FREQUENCY, FemodesError, accuracy_range_error
 from femodes.quantities import METALS, conductivity_of
 
 
@@ -29,22 +32,25 @@ def _frequency_value(where, value, units, scale):
         raise FemodesError(f"{where} must be a positive frequency in {units}, got {_show(value)}")
     f = _decimal_scale(v, scale)
     if f > MAX_FREQUENCY:
-        raise FemodesError(f"{where} is {f:.3g} Hz, above the {MAX_FREQUENCY:g} Hz (10 THz) femodes handles "
-                           f"(metal walls stop being good conductors); check the value and frequency_units")
+        raise FemodesError(f"{where} is {v:g} {units}, above the {MAX_FREQUENCY / scale:g} {units} (10 THz) femodes "
+                           f"handles (metal walls stop being good conductors); check the value and frequency_units")
     return f
 
 
 def _band_value(where, value, units, scale):
     if (not isinstance(value, (list, tuple)) or len(value) != 2 or not all(_is_number(v) for v in value)):
+        quoted = isinstance(value, (list, tuple)) and any(isinstance(v, str) for v in value)
         raise FemodesError(f"{where} must be a pair [f1, f2] of frequencies in {units}, e.g. [8.2, 12.4], "
-                           f"got {_show(list(value) if isinstance(value, tuple) else value)}")
+                           f"got {_show(list(value) if isinstance(value, tuple) else value)}"
+                           + (" (write the numbers without quotes; the unit is set by `frequency_units`)"
+                              if quoted else ""))
     f1, f2 = (float(v) for v in value)
     if not (math.isfinite(f1) and math.isfinite(f2) and 0 < f1 < f2):
         raise FemodesError(f"{where} must be [f1, f2] with 0 < f1 < f2 ({units}), got [{value[0]!r}, {value[1]!r}]")
     band = (_decimal_scale(f1, scale), _decimal_scale(f2, scale))
     if band[1] > MAX_FREQUENCY:
-        raise FemodesError(f"{where} reaches {band[1]:.3g} Hz, above the {MAX_FREQUENCY:g} Hz (10 THz) femodes "
-                           "handles; check the values and frequency_units")
+        raise FemodesError(f"{where} reaches {f2:g} {units}, above the {MAX_FREQUENCY / scale:g} {units} (10 THz) "
+                           "femodes handles; check the values and frequency_units")
     return band
 
 
@@ -70,21 +76,41 @@ def _conductor_value(where, value):
                                f"{', '.join(names)}; or give the conductivity in S/m as a number)") from None
         return next(k for k, v in METALS.items() if v == sigma), sigma
     v = _number(where, value, "a metal name or a conductivity in S/m")
-    if v <= 0:
-        raise FemodesError(f"{where} must be a metal name or a positive conductivity in S/m (5.8e7 for "
-                           f"copper), got {_show(value)}")
+    lo, hi = CONDUCTIVITY_RANGE
+    if not lo <= v <= hi:
+        raise FemodesError(f"{where} must be a metal name or a conductivity in S/m from {lo:g} to {hi:g} (the "
+                           f"good-conductor surface impedance: metals, alloys, graphite; 5.8e7 for copper), "
+                           f"got {_show(value)}")
     return None, v
 
 
-def _convert(key, value, scale, units, table="[guide]"):
+def _material_range(where, key, value):
+    """eps_r or mu_r of a case file, checked against the library's one range (MATERIAL_RANGE)."""
+    v = _number(where, value, f"a relative {'permittivity' if key == 'eps_r' else 'permeability'} (number)")
+    lo, hi = MATERIAL_RANGE
+    if not lo <= v <= hi:
+        raise FemodesError(f"{where} must lie from {lo:g} to {hi:g} (relative to vacuum, 1 for air; passive "
+                           f"materials up to the strongest ceramics and ferrites; losses go in tan_delta), "
+                           f"got {_show(value)}")
+    return v
+
+
+def _convert(key, value, scale, units, table="[guide]", required=False):
+    """A [guide] (or [[region]]) value in SI; ``required`` lengths must be positive, optional ones
+    (radii of rounded corners, a sector's inner radius) may be 0."""
     where = f"{key.name} in {table}"
     if key.kind == LENGTH:
-        v = _number(where, value, f"a length in {units}")
-        if v < 0:
-            raise FemodesError(f"{where} is a length and must not be negative, got {_show(value)} ({units})")
+        v = _number(where, value, f"a length in {units}", unit_key="units")
+        if v < 0 or (required and v == 0):
+            rule = "must be positive" if required else "must not be negative (0 for none)"
+            raise FemodesError(f"{where} is a length and {rule}, got {_show(value)} ({units})")
         return v * scale
     if key.kind == ANGLE:
-        return math.radians(_number(where, value, "an angle in degrees"))
+        v = _number(where, value, "an angle in degrees (number)")
+        if key.name == "angle_deg" and not 0 < v < 360:
+            raise FemodesError(f"{where} is the opening angle in degrees and must lie strictly between 0 and 360, "
+                               f"got {_show(value)}")
+        return math.radians(v)
     if key.kind == POINT:
         return _pair(where, value, scale, units)
     if key.kind == POINTS:
@@ -146,11 +172,13 @@ def _is_number(v):
     return isinstance(v, (int, float)) and not isinstance(v, bool)
 
 
-def _number(where, value, what="a number", unit_key="units"):
+def _number(where, value, what="a number", unit_key=None):
+    """A finite number of the case file; ``unit_key`` names the key that sets its unit (for the
+    hint when the number was written in quotes)."""
     if not _is_number(value):
         hint = ""
         if isinstance(value, str):
-            hint = f" (write the number without quotes; the unit is set by `{unit_key}`)"
+            hint = " (write the number without quotes" + (f"; the unit is set by `{unit_key}`)" if unit_key else ")")
         raise FemodesError(f"{where} must be {what}, got {_show(value)}{hint}")
     v = float(value)
     if not math.isfinite(v):
@@ -174,16 +202,11 @@ def _count(where, value):
     return value
 
 
-#: the accuracies the solvers take (relative error on the cutoffs): one statement of the range
-ACCURACY_RANGE = (1e-11, 0.1)
-
-
 def _accuracy(where, value):
     v = _number(where, value, "a relative error (number), e.g. 1e-6")
-    lo, hi = ACCURACY_RANGE
+    lo, hi = ACCURACY_RANGE  # the library's own range, stated by the library's own words
     if not (lo <= v < hi):
-        raise FemodesError(f"{where} is a relative error on the cutoffs and must lie from {lo:g} (the double-precision "
-                           f"floor) up to {hi:g} (e.g. 1e-6), got {_show(value)}")
+        raise accuracy_range_error(where, value)
     return v
 
 
@@ -203,9 +226,47 @@ def _show(value):
              list: "a list", dict: "a table"}.get(type(value), type(value).__name__)
     if isinstance(value, bool):
         return f"{str(value).lower()} ({tname})"
-    if isinstance(value, dict):
-        return "a table"
+    if isinstance(value, dict):  # an inline table as written: { from = 1, to = 3, points = 5 }
+        text = "{ " + ", ".join(f"{k} = {v!r}" for k, v in value.items()) + " }"
+        return text if len(text) <= 60 else "a table"
     text = repr(value) if not isinstance(value, str) else '"' + value + '"'
     if len(text) > 60:
         text = text[:57] + "..."
     return f"{text} ({tname})" if isinstance(value, (str, list)) else text
+
+
+_NUM = r"-?\d+(?:\.\d*)?(?:e[+-]?\d+)?"
+
+
+def _in_file_units(text, units, scale, renamed=None):
+    """A message of the shape functions (which speak SI and print lengths in mm or m) with every
+    length in the case file's ``units`` (``scale`` metres each) and the shape function's parameter
+    names ``renamed`` to the case file's keys (offset -> inner_offset)."""
+    def conv(value, per_metre):
+        return f"{float(value) * per_metre / scale:.6g}"
+
+    def one(m, per_metre):
+        return conv(m.group(1), per_metre)
+
+    # a point (x, y) mm; two lengths 'A x B mm' / 'A and B mm'; one length 'A mm'; metres; areas
+    text = re.sub(rf"\(({_NUM}), ({_NUM})\) mm\b",
+                  lambda m: f"({conv(m.group(1), 1e-3)}, {conv(m.group(2), 1e-3)}) {units}", text)
+    text = re.sub(rf"({_NUM})( x | and )({_NUM}) mm\b",
+                  lambda m: f"{conv(m.group(1), 1e-3)}{m.group(2)}{conv(m.group(3), 1e-3)} {units}", text)
+    text = re.sub(rf"({_NUM}) mm\b", lambda m: f"{one(m, 1e-3)} {units}", text)
+    text = re.sub(rf"({_NUM}) m\^2", lambda m: f"{float(m.group(1)) / scale ** 2:.3g} {units}^2", text)
+    text = re.sub(rf"({_NUM}) m\b(?!\^)", lambda m: f"{one(m, 1.0)} {units}", text)
+    text = text.replace(" in metres", f" in {units}").replace(" (femodes takes metres; the case file's lengths "
+                                                               "are in its units)", "")
+    for param, key in (renamed or {}).items():
+        text = re.sub(rf"\b{param}\b", key, text)
+    return text
+
+
+@contextlib.contextmanager
+def case_scale_warnings():
+    """Within: the library's own size warning (it speaks of metres typed into Python calls) is
+    left out; a case file gets :func:`_warn_scale`'s when it is loaded."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"femodes: the section is .* implausibly")
+        yield

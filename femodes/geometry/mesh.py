@@ -123,7 +123,7 @@ class Mesh:
                 "gmsh.model.addPhysicalGroup(2, [surface tags], name=\"rod\"))")
         if group not in have:
             close = difflib.get_close_matches(group, list(have), n=1, cutoff=0.6)
-            hint = f"; did you mean {close[0]!r}?" if close else ""
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
             if group in self.region_names:
                 what = (f"group {group!r} of {self._where()} holds no triangles (a group of curves or points, "
                         "or an empty one)")
@@ -658,7 +658,8 @@ def read_mesh(path, scale=1.0) -> Mesh:
         else:
             m = meshio.read(path)
     except (Exception, SystemExit) as exc:  # meshio raises many types (and calls exit()) on bad files
-        raise FemodesError(f"could not read mesh file {path}: {exc or type(exc).__name__}; give a triangle mesh "
+        why = str(exc).rstrip(".") or type(exc).__name__
+        raise FemodesError(f"could not read mesh file {path}: {why}; give a triangle mesh "
                            "meshio reads (gmsh .msh, .vtu, .xdmf, ...)") from None
     blocks = [c for c in m.cells if c.type in ("triangle", "triangle6")]
     if not blocks:

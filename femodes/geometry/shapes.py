@@ -56,8 +56,8 @@ def circle(radius):
 
 def ellipse(a, b):
     """Ellipse with semi-axis ``a`` along x and ``b`` along y (metres), centred at the origin."""
-    a = check_positive("semi-axis a", a)
-    b = check_positive("semi-axis b", b)
+    a = check_positive("a (semi-axis along x)", a)
+    b = check_positive("b (semi-axis along y)", b)
     if math.isclose(a, b, rel_tol=1e-12):
         return Section(_full_ellipse_loop((0.0, 0.0), a, a), (), "circle", {"radius": a})
     return Section(_full_ellipse_loop((0.0, 0.0), a, b), (), "ellipse", {"a": a, "b": b})
@@ -190,7 +190,9 @@ def sector(radius, angle, inner_radius=0.0):
     except (TypeError, ValueError):
         raise FemodesError(f"angle must be a number of radians, got {angle!r}") from None
     if not (0 < ang < 2 * math.pi):
-        raise FemodesError(f"sector angle must lie strictly between 0 and 2 pi rad (360 deg), got {ang!r} rad")
+        hint = f" (degrees? give math.radians({ang:g}))" if 2 * math.pi <= ang < 360 else ""
+        raise FemodesError(f"angle is the opening angle in radians and must lie strictly between 0 and 2 pi, "
+                           f"got {ang!r}{hint}")
     ri = check_nonnegative("inner_radius", inner_radius)
     if ri >= R:
         raise FemodesError(f"inner_radius ({ri * 1e3:.6g} mm) must be smaller than radius ({R * 1e3:.6g} mm)")
@@ -221,7 +223,8 @@ def polygon(vertices, holes=()):
         raise FemodesError("vertices must be finite numbers")
     for i in range(len(v)):
         if math.dist(v[i], v[(i + 1) % len(v)]) == 0:
-            raise FemodesError(f"vertices {i + 1} and {(i + 1) % len(v) + 1} coincide at {v[i]}: remove the repeat")
+            raise FemodesError(f"vertices {i + 1} and {(i + 1) % len(v) + 1} coincide at ({v[i][0] * 1e3:.6g}, "
+                               f"{v[i][1] * 1e3:.6g}) mm: remove the repeat")
     loops = []
     for k, h in enumerate(holes):
         if isinstance(h, Section):

@@ -132,12 +132,19 @@ class Analysis:
         return tuple(out)
 
 
-def _check_below_top(what, f, modeset):
+def _check_below_top(what, f, modeset, settings=None):
+    """Refuse a table frequency or band top at or above the highest cutoff computed.  The message
+    names the value as the settings say it was given (``frequency_from`` / ``band_from``, e.g.
+    'frequency in [analysis]' or '--frequency') in their ``frequency_units`` (default GHz)."""
     top = max(m.fc for m in modeset)
     if f >= top:
-        raise FemodesError(f"the analysis {what} reaches {f / 1e9:.6g} GHz, at or above the highest cutoff computed "
-                           f"({top / 1e9:.6g} GHz, {modeset[-1].label}): modes that were not computed could "
-                           "propagate there; solve for more modes (modes in [solve] or --modes) or lower the frequency")
+        units = getattr(settings, "frequency_units", "GHz")
+        scale = getattr(settings, "frequency_scale", 1e9)
+        name = getattr(settings, f"{what}_from", None) or f"the analysis {what}"
+        more = getattr(settings, "modes_from", None) or "modes in [solve] or --modes"
+        raise FemodesError(f"{name} reaches {f / scale:.6g} {units}, at or above the highest cutoff computed "
+                           f"({top / scale:.6g} {units}, {modeset[-1].label}): modes that were not computed could "
+                           f"propagate there; solve for more modes ({more}) or lower the frequency")
     return top
 
 
@@ -189,9 +196,9 @@ def analyse(result, settings, family=None) -> Analysis:
     if not len(modeset):
         raise FemodesError("the mode set is empty: nothing to analyse")
     f = float(settings.table_frequency)
-    top = _check_below_top("frequency", f, modeset)
-    if settings.band is not None:
-        _check_below_top("band", settings.band[1], modeset)
+    if settings.band is not None:  # the band first: the table frequency may be its centre
+        _check_below_top("band", settings.band[1], modeset, settings)
+    top = _check_below_top("frequency", f, modeset, settings)
     sigma, rough, td = settings.conductivity, settings.roughness, settings.tan_delta
     derived = None
     qa = getattr(settings, "quantity_accuracy", 0.0)

@@ -6,6 +6,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+import os
 from pathlib import Path
 
 import meshio
@@ -142,12 +143,16 @@ def write_fields(result, path, subdivisions=None, frequency=None):
     :mod:`femodes.modes.model` (int psi^2 dA = 1, int |e_t|^2 dA = 1, units 1/m): ``_psi`` (E_z
     for TM, H_z for TE, the potential for TEM), ``_E`` (e_t), ``_H`` (h_t = z x e_t), ``_absE``.
     Cell data: ``region`` (0 the fill, i the i-th region) and ``eps_r``.  Returns the path."""
+    name = os.fspath(path)
+    if not any(name.lower().endswith(ext) for ext in meshio.extension_to_filetypes):
+        raise FemodesError(f"cannot write field file {name}: its ending names no mesh format; use a name ending "
+                           "in .vtu (ParaView) or .xdmf")
     study = as_study(result)
     f = frequency if frequency is not None else study.frequency
     if study.loaded:
         if f is None or not any(m.propagates() for m in study.at_frequency):
             raise FemodesError("--fields writes a loaded guide's modes at a frequency: give [analysis] frequency "
-                               "(at which at least one mode propagates) in the case file")
+                               "(at which at least one mode propagates) in the case file, or --frequency F (GHz)")
         modes = [m for m in study.at_frequency if m.propagates()]
         prob = modes[0].vector.problem
         s = int(subdivisions or study.order)

@@ -30,6 +30,9 @@ class SweepStore:
         text = json.dumps(settings, sort_keys=True)
         if self.path.exists() and self.path.is_dir():
             raise FemodesError(f"store {self.path} is a directory: give a file name, e.g. sweep.db")
+        if not self.path.parent.is_dir():
+            raise FemodesError(f"cannot create store {self.path}: the directory {self.path.parent} does not exist; "
+                               "create it or give another file name")
         try:
             self._db = sqlite3.connect(str(self.path))
             self._db.execute("CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT)")

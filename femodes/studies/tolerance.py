@@ -64,6 +64,10 @@ class Tolerance:
         return float(self.nominal[i]), float(self.worst[i]), float(self.std[i])
 
 
+#: fewest Monte Carlo draws: fewer make the 1 % .. 99 % spread meaningless
+MIN_SAMPLES = 100
+
+
 def _band_columns(sens):
     """Indices (i1, i2) of f_low = fc1 and f_high = the next cutoff not degenerate with it."""
     ms = sens.modes
@@ -118,8 +122,8 @@ def tolerance(shape, parameters, tolerances, *, modes=6, accuracy=1e-6, samples=
     worst = parts.sum(axis=0)
     rng = np.random.default_rng(seed)
     n_samples = int(samples)
-    if n_samples < 100:
-        raise FemodesError(f"samples must be at least 100, got {samples!r}")
+    if n_samples < MIN_SAMPLES:
+        raise FemodesError(f"samples must be at least {MIN_SAMPLES}, got {samples!r}")
     if distribution == "uniform":
         dx = rng.uniform(-1.0, 1.0, size=(n_samples, len(params))) * t
     else:
