@@ -70,13 +70,11 @@ def test_a_1000_to_1_slab_solves_at_default_settings():
     assert [m.label for m in modes] == ["TE10", "TE20", "TE30"]
     for m, k in zip(modes, (1, 2, 3)):
         exact = k * C0 / (2 * a)
-        # within the asked accuracy (default 1e-6); the error bar itself is not checked here:
-        # TE10 came out 4.7e-10 below the exact cutoff against a bar of 8.5e-11 (2026-12-05; an
-        # earlier note had 1.15x over).  Below: a conforming Rayleigh-Ritz
-        # value cannot be, so presumably a floor of the arithmetic on these 16:1 elements (another
-        # backend moved it by 3e-11, another mesh to 3.7e-10) that the scalar estimate's
-        # round-off floor 2 N eps kc^2 (5e-13 here) does not cover (issue 11, open)
+        # within the asked accuracy (default 1e-6) and within its error bar: TE10 came out 4.7e-10
+        # below the exact cutoff (a conforming Rayleigh-Ritz value cannot be: round-off in x^T K x
+        # on these 16:1 elements), which the floor eps |x|^T |K| |x| of the estimate covers
         assert abs(m.fc - exact) / exact < 1e-6
+        assert abs(m.fc - exact) <= m.fc_error, (m.label, abs(m.fc - exact) / m.fc_error)
 
 
 def test_a_rectangular_coax_with_a_thin_gap_solves_at_default_settings():
