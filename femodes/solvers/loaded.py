@@ -51,6 +51,7 @@ from femodes.constants import C0
 from femodes.errors import FemodesError
 from femodes.geometry.loops import Arc
 from femodes.geometry.mesh import mesh_section, singular_corners
+from femodes.solvers.rates import MIN_OBSERVED_RATE, observed_rate
 from femodes.solvers.vector import VectorProblem
 
 __all__ = ["solve_loaded", "solve_loaded_mesh", "LoadedSolution", "SAFETY", "ORDER", "GRADING_FLOOR"]
@@ -148,13 +149,10 @@ def _match(values, finest):
     return out
 
 
-# the slowest observed rate believed (in h)
-_MIN_OBSERVED_RATE = 1.0
-
-
 def _observed_rate(dofs, values, rate, noise):
-    """The rate q of  v(N) = v* + C N^(-q/2)  through three meshes' real values of one mode,
-    capped at the model's ``rate`` and floored at _MIN_OBSERVED_RATE.
+    """The rate q of  v(N) = v* + C N^(-q/2)  through three meshes' real values of one mode
+    (:func:`femodes.solvers.rates.observed_rate`: capped at the model's ``rate``, floored at
+    MIN_OBSERVED_RATE).
 
     d1 = v_0 - v_1, d2 = v_1 - v_2 satisfy d1 / d2 = s2^a (s1^a - 1) / (s2^a - 1), s1 = N_1 / N_0,
     s2 = N_2 / N_1, a = q / 2, increasing in a.  Differences below ``noise`` (round-off) say
@@ -163,32 +161,7 @@ def _observed_rate(dofs, values, rate, noise):
     of one mode changed sign or stalled between meshes, e.g. the WR-90 with a quarter-height
     slab of eps_r 4: k0^2 errors -7.7e-8, +3.4e-8, +3.9e-8 on 1483, 2767, 4411 unknowns; the
     model's 2p reported 1.6x below the last one)."""
-    d1 = values[0] - values[1]
-    d2 = values[1] - values[2]
-    if abs(d1) <= noise or abs(d2) <= noise:
-        return rate
-    if d1 * d2 < 0:
-        return max(_MIN_OBSERVED_RATE, rate / 2)
-    s1, s2 = dofs[1] / dofs[0], dofs[2] / dofs[1]
-    if s1 <= 1.0 or s2 <= 1.0:
-        return rate
-    ratio = abs(d1 / d2)
-
-    def g(a):
-        return s2 ** a * (s1 ** a - 1.0) / (s2 ** a - 1.0) - ratio
-
-    lo, hi = _MIN_OBSERVED_RATE / 2, rate / 2
-    if g(hi) <= 0:
-        return rate
-    if g(lo) >= 0:
-        return _MIN_OBSERVED_RATE
-    for _ in range(60):  # bisection: g is monotone in a
-        mid = 0.5 * (lo + hi)
-        if g(mid) > 0:
-            hi = mid
-        else:
-            lo = mid
-    return 2.0 * lo
+    return observed_rate(dofs, values, rate, noise, sign_change=max(MIN_OBSERVED_RATE, rate / 2))
 
 
 def _three_mesh_errors(dofs, values, rate, p):

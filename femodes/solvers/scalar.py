@@ -46,6 +46,7 @@ from femodes.solvers.budget import Progress, available_memory, fitting_unknowns,
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
 from femodes.solvers.electrostatic import Electrostatics, conductor_groups, conductor_potentials, gram_error, relative_error
+from femodes.solvers.rates import observed_rate
 
 __all__ = ["solve_scalar", "solve_scalar_mesh", "ScalarSolution", "DEFAULT_ORDER", "MAX_DOFS"]
 
@@ -643,44 +644,10 @@ def _cancellation_floor(K, X):
     return 2.2e-16 * np.einsum("ij,ij->j", A, abs(K) @ A)
 
 
-# the slowest observed rate believed: below it two of the three differences are taken as noise
-_MIN_OBSERVED_RATE = 1.0
-
-
 def _observed_rate(dofs, values, rate, noise):
-    """The rate q of  lam(N) = lam* + C N^(-q/2)  through three meshes' values of one mode,
-    capped at the model's ``rate`` (never faster than the model) and floored at
-    _MIN_OBSERVED_RATE.
-
-    The differences d1 = lam_0 - lam_1, d2 = lam_1 - lam_2 satisfy
-    d1 / d2 = s2^a (s1^a - 1) / (s2^a - 1),  s1 = N_1 / N_0, s2 = N_2 / N_1, a = q / 2,
-    which increases with a.  Differences of opposite sign (not yet asymptotic) or below ``noise``
-    (round-off) say nothing about the rate: the model's is kept.
-    """
-    d1 = values[0] - values[1]
-    d2 = values[1] - values[2]
-    if abs(d1) <= noise or abs(d2) <= noise or d1 * d2 <= 0:
-        return rate
-    s1, s2 = dofs[1] / dofs[0], dofs[2] / dofs[1]
-    if s1 <= 1.0 or s2 <= 1.0:
-        return rate
-    ratio = abs(d1 / d2)
-
-    def g(a):
-        return s2 ** a * (s1 ** a - 1.0) / (s2 ** a - 1.0) - ratio
-
-    lo, hi = _MIN_OBSERVED_RATE / 2, rate / 2
-    if g(hi) <= 0:
-        return rate
-    if g(lo) >= 0:
-        return _MIN_OBSERVED_RATE
-    for _ in range(60):  # bisection: g is monotone in a
-        mid = 0.5 * (lo + hi)
-        if g(mid) > 0:
-            hi = mid
-        else:
-            lo = mid
-    return 2.0 * lo
+    """The rate three meshes show (:func:`femodes.solvers.rates.observed_rate`); differences of
+    opposite sign keep the model's rate (the trend floor and the older pairs guard that case)."""
+    return observed_rate(dofs, values, rate, noise)
 
 
 def _families_of_lowest(result, want):
