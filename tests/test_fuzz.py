@@ -280,10 +280,23 @@ def test_meshio_calling_exit_does_not_end_the_caller(tmp_path, monkeypatch):
     (lambda: femodes.mesh_section(femodes.rectangle(1e-3, 1e-3).translated(1e12, 0), 1e-4),
      "lose precision.*near the origin"),
     (lambda: femodes.rectangle(True, 1e-3), "must be a number"),
+    # a 228600:1 strip and a hole 0.25 um from the wall: the mesher ran for minutes on them
+    (lambda: femodes.rectangle(22.86e-3, 1e-7), "a ratio of 2.29e\\+05:1: above 50000:1.*make it thicker"),
+    (lambda: femodes.polygon([(0, 0), (22.86e-3, 0), (22.86e-3, 10.16e-3), (0, 10.16e-3)],
+                             holes=[[(1e-3, 0.25e-6), (3e-3, 0.25e-6), (3e-3, 2e-3), (1e-3, 2e-3)]]),
+     "the outline and hole 1 come within 0.00025 mm.*widen it to at least 0.000457 mm"),
 ])
 def test_geometry_checks_before_meshing_say_what_to_fix(make, words):
     with pytest.raises(FemodesError, match=words):
         make()
+
+
+def test_thin_but_meshable_guides_pass_the_checks():
+    # the limits leave room for what the mesher does in seconds: a 1000:1 slab, a 45720:1 strip
+    # (6.4 s measured) and a 1 um ring gap in a 20 x 10 mm rectangular coax (20000:1, a second)
+    femodes.rectangle(1.0, 1e-3)
+    femodes.rectangle(22.86e-3, 0.5e-6)
+    femodes.rectangular_coax(20e-3, 10e-3, 20e-3 - 2e-6, 10e-3 - 2e-6)
 
 
 def test_a_huge_request_is_refused_before_meshing():

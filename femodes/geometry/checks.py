@@ -7,6 +7,10 @@ that says what to fix.
   :data:`MAX_ELLIPSE_RATIO` (its tips have a radius of curvature b^2 / a: the mesher crawls);
 - scale and precision: a section outside :data:`SIZE_LIMITS`, or so far from the origin that its
   coordinates keep fewer than about 12 significant digits of its size (:data:`MAX_OFFSET_RATIO`);
+- thinness: a section much longer than it is thick (:data:`MAX_THINNESS`, from its size over
+  2 area / perimeter, the thickness of a strip), or two walls closer than :data:`MIN_GAP_RATIO`
+  of its size (a hole near the outline or another hole): the mesher then crawls for minutes
+  through slivers;
 - a mesh file: every edge in at most two triangles, no vertex on the inside of another
   triangle's boundary edge (conformity), one edge-connected piece (connectivity);
 - the unknowns a mesh will have, before meshing or assembling it.
@@ -25,7 +29,7 @@ from scipy.sparse.csgraph import connected_components
 from femodes.errors import FemodesError
 
 __all__ = ["check_section", "check_loop_touching", "check_mesh", "lagrange_unknowns", "check_unknowns", "predicted_unknowns", "check_scale",
-           "SIZE_LIMITS", "MAX_OFFSET_RATIO", "MAX_ELLIPSE_RATIO", "MIN_CORNER_DEG"]
+           "SIZE_LIMITS", "MAX_OFFSET_RATIO", "MAX_ELLIPSE_RATIO", "MIN_CORNER_DEG", "MAX_THINNESS", "MIN_GAP_RATIO"]
 
 #: smallest and largest extent of a section (m): 1 nm .. 10 km (outside, the mesher's absolute
 #: tolerances and double-precision areas (size^2, size^4 in the matrices) break down)
@@ -39,6 +43,14 @@ MAX_ELLIPSE_RATIO = 50.0
 MIN_CORNER_DEG = 0.5
 #: a vertex closer than this (relative to the size) to another edge touches it
 TOUCH_TOL = 1e-9
+#: largest size over thickness (2 area / perimeter) of a section.  Measured 2026-12-05 (22.86 mm
+#: strips, 2 modes at 1e-4): 22860:1 in 2.7 s, 45720:1 in 6.4 s, 114300:1 still meshing after 100 s;
+#: a 1 um ring gap round the inner conductor of a 20 x 10 mm guide is 20000:1 (7 s)
+MAX_THINNESS = 5e4
+#: narrowest distance between two different walls (outline and hole, or two holes) over the size:
+#: a 1 um ring gap round the inner conductor of a 20 x 10 mm guide (5e-5) solves in seconds, a hole
+#: 0.25 um from the outline of a 22.86 mm guide (1.1e-5) ran for minutes (measured 2026-12-05)
+MIN_GAP_RATIO = 2e-5
 
 
 def _mm(p):
@@ -112,7 +124,41 @@ def check_section(section):
             if math.degrees(c.angle) < MIN_CORNER_DEG:
                 raise FemodesError(f"{what} has a corner of {math.degrees(c.angle):.3g} deg at {_mm(c.point)}: a sliver "
                                    f"sharper than {MIN_CORNER_DEG:g} deg cannot be meshed; blunt the tip")
+    check_thinness(section.area, section.perimeter, size)
+    walls = [section.outer] + list(section.holes)
+    for i in range(len(walls)):
+        for j in range(i + 1, len(walls)):
+            gap = _loop_distance(walls[i].polyline(8), walls[j].polyline(8))
+            if gap < MIN_GAP_RATIO * size:
+                what = "the outline and hole 1" if i == 0 and len(walls) == 2 else \
+                    (f"the outline and hole {j}" if i == 0 else f"holes {i} and {j}")
+                raise FemodesError(f"{what} come within {gap * 1e3:.3g} mm of each other, below {MIN_GAP_RATIO:g} of "
+                                   f"the guide's size ({size * 1e3:.4g} mm): the mesher cannot resolve so narrow a "
+                                   f"gap in reasonable time; widen it to at least {MIN_GAP_RATIO * size * 1e3:.3g} mm")
     return size
+
+
+def check_thinness(area, perimeter, size):
+    """Refuse a section longer than :data:`MAX_THINNESS` times its thickness 2 area / perimeter."""
+    thickness = 2.0 * area / perimeter if perimeter > 0 else 0.0
+    if thickness <= 0 or size / thickness > MAX_THINNESS:
+        raise FemodesError(f"the section is {size * 1e3:.4g} mm across but only about {thickness * 1e3:.3g} mm thick "
+                           f"(2 area / perimeter), a ratio of {size / max(thickness, 1e-300):.3g}:1: above "
+                           f"{MAX_THINNESS:g}:1 the mesher cannot fill it in reasonable time; make it thicker")
+
+
+def _loop_distance(a, b):
+    """Smallest distance between the closed polylines a and b (2 x n, 2 x m): every vertex of
+    each against every segment of the other."""
+    def one_way(p, q):
+        q0, q1 = q, np.roll(q, -1, axis=1)
+        d = q1 - q0
+        L2 = np.maximum(np.einsum("ij,ij->j", d, d), 1e-300)
+        rel = p[:, :, None] - q0[:, None, :]                          # (2, n, m)
+        t = np.clip(np.einsum("inm,im->nm", rel, d) / L2, 0.0, 1.0)
+        foot = q0[:, None, :] + t[None] * d[:, None, :]
+        return float(np.sqrt(np.min(np.sum((p[:, :, None] - foot) ** 2, axis=0))))
+    return min(one_way(a, b), one_way(b, a))
 
 
 def check_mesh(points, triangles, what="the mesh"):
