@@ -152,6 +152,9 @@ def test_cross_guide_classes_follow_its_degeneracies():
         assert pair == (m.multiplicity == 2), (m.label, m.symmetry_class, m.multiplicity)
         if not pair:
             assert m.symmetry_class and not m.symmetry_class.startswith("mixes"), m.symmetry_class
+        else:  # a pair the group forces: called so, and completed when the mode count cuts it
+            assert m.degeneracy == "symmetry", (m.label, m.degeneracy)
+            assert len(m.degenerate_with) == 1, (m.label, m.degenerate_with)
 
 
 def _triangle_levels(side, count):

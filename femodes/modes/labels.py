@@ -313,11 +313,17 @@ def _label_kind(section):
 
 
 def _degeneracy_kind(section, a, b):
-    """Why modes a and b share a cutoff: one of the kinds above.  Forced kinds are recognised on
-    the shapes whose closed forms show them (rectangle, square, circle, centred coax); anything
-    else grouped by the error bars is called accidental."""
+    """Why modes a and b share a cutoff: one of the kinds above.  Forced kinds are recognised from
+    the point group (two modes of one family in the same 2-D class) and on the shapes whose closed
+    forms show them (rectangle, square, circle, centred coax); anything else grouped by the error
+    bars is called accidental."""
     if a.family == "TEM" and b.family == "TEM":
         return TEM_KIND
+    if (a.family == b.family and a.symmetry_class and a.symmetry_class == b.symmetry_class
+            and a.symmetry_class.startswith("degenerate pair")):
+        # both in the same 2-D class of the section's point group (a cross's TE1 / TE2 under D4,
+        # found from the geometry for any shape): the group forces the pair
+        return SYMMETRY
     kind = _label_kind(section)
     params = section.params if section is not None else {}
     ia, ib = a.indices, b.indices
