@@ -297,7 +297,7 @@ def derived_quantities(modeset, f, conductivity=5.8e7, roughness=0.0, tan_delta=
             if q.relative > accuracy:
                 label = fine[i].label if i < len(fine) else f"mode {i + 1}"
                 warns.append(f"{name} of {label}: error {q.relative:.2g} (relative) after {len(sets)} meshes (up to "
-                             f"{fine.n_dofs} unknowns), above the asked quantity accuracy {accuracy:g}"
+                             f"{fine.n_dofs} unknowns), above the quantity accuracy asked (quantity_accuracy = {accuracy:g})"
                              + (f"; sharp re-entrant corners limit its convergence to about h^{cap:.2g}: rounding "
                                 "them (a corner radius) converges faster" if cap < 2 else ""))
     for w in warns:

@@ -301,7 +301,7 @@ def loaded_derived_quantities(study, conductivity=5.8e7, roughness=0.0, breakdow
                 warns.append(f"{name} of {label}: {q.relative:.2g}")
     msgs = []
     if warns:
-        msgs.append(f"quantities of the loaded guide above the asked quantity accuracy {accuracy:g} after "
+        msgs.append(f"quantities of the loaded guide above the quantity accuracy asked (quantity_accuracy = {accuracy:g}) after "
                     f"{len(ladder)} meshes (up to {ladder[-1][3]} unknowns): " + "; ".join(warns)
                     + ("; sharp corners (wall or material) limit the convergence to about "
                        f"h^{cap:.2g}: rounding them converges faster" if cap < 2 else ""))
