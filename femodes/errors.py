@@ -1,5 +1,7 @@
 """The one error type for everything a user can cause."""
 
+import math
+
 
 class FemodesError(ValueError):
     """Raised for bad input: geometry, materials, files, options, a mode that does not exist.
@@ -81,6 +83,25 @@ def accuracy_range_error(name, value):
     lo, hi = ACCURACY_RANGE
     return FemodesError(f"{name} is a relative error on the cutoffs and must lie from {lo:g} (the double-precision "
                         f"floor) up to {hi:g}, not included (e.g. 1e-6), got {value!r}")
+
+
+#: the relative accuracies the field-derived quantities (wall loss, impedances, peak field) may be
+#: asked, lo <= accuracy <= hi: below lo the re-solves would pass any mesh size this machine holds
+QUANTITY_ACCURACY_RANGE = (1e-9, 0.5)
+
+
+def quantity_accuracy_number(name, value):
+    """``value`` as float if it lies in :data:`QUANTITY_ACCURACY_RANGE`, else the one statement of
+    that range (``name``: the argument, or the case file's key and table)."""
+    lo, hi = QUANTITY_ACCURACY_RANGE
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        v = math.nan
+    if isinstance(value, bool) or not (lo <= v <= hi):
+        raise FemodesError(f"{name} is the relative error asked of the wall loss, impedances and peak field and must "
+                           f"lie from {lo:g} up to {hi:g} (e.g. 1e-3), got {value!r}")
+    return v
 
 
 def in_range(name, value, lo, hi, unit="", why=""):

@@ -53,7 +53,7 @@ from femodes.case.values import (
     _table,
     case_scale_warnings,
 )
-from femodes.errors import FemodesError
+from femodes.errors import FemodesError, quantity_accuracy_number
 from femodes.geometry.mesh import Mesh, read_mesh
 from femodes.quantities.convergence import DEFAULT_QUANTITY_ACCURACY
 
@@ -237,11 +237,12 @@ def _warn_scale(section, units):
 def _quantity_accuracy(value):
     """[solve] quantity_accuracy: a relative accuracy from 1e-9 up to 0.5, or 0 (no re-solves)."""
     v = _number("quantity_accuracy in [solve]", value, "a relative error (number), e.g. 1e-3, or 0 for none")
-    if v != 0 and not (1e-9 <= v <= 0.5):
-        raise FemodesError("quantity_accuracy in [solve] is the relative error asked of the wall loss, impedances "
-                           "and peak field and must lie from 1e-9 up to 0.5 (e.g. 1e-3), or be 0 to skip their "
-                           f"error bars, got {_show(value)}")
-    return v
+    if v == 0:
+        return v
+    try:
+        return quantity_accuracy_number("quantity_accuracy in [solve]", v)
+    except FemodesError as exc:
+        raise FemodesError(f"{exc}; or 0 to skip their error bars") from None
 
 
 def _build_analysis(an, tan_delta):

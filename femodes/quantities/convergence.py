@@ -52,7 +52,7 @@ import numpy as np
 
 from femodes.api import solve
 from femodes.constants import C0
-from femodes.errors import FemodesError
+from femodes.errors import FemodesError, quantity_accuracy_number
 from femodes.geometry.section import Section
 from femodes.modes.model import ModeSet
 from femodes.quantities.common import _material
@@ -234,12 +234,7 @@ def derived_quantities(modeset, f, conductivity=5.8e7, roughness=0.0, tan_delta=
                            "their own error (order p against p - 1)")
     if modeset.mesh_size is None:
         raise FemodesError("the mode set has no element size to refine from")
-    try:
-        accuracy = float(accuracy)
-    except (TypeError, ValueError):
-        raise FemodesError(f"quantity accuracy must be a number, got {accuracy!r}") from None
-    if not (1e-9 <= accuracy < 1):
-        raise FemodesError(f"quantity accuracy must lie between 1e-9 and 1 (relative), got {accuracy!r}")
+    accuracy = quantity_accuracy_number("accuracy", accuracy)
     f = float(f)
     if max_unknowns is None:
         max_unknowns = min(200_000, max(20_000, 4 * int(modeset.n_dofs)))

@@ -43,7 +43,7 @@ import numpy as np
 
 from femodes.api import Study
 from femodes.constants import C0
-from femodes.errors import FemodesError
+from femodes.errors import FemodesError, quantity_accuracy_number
 from femodes.geometry.mesh import singular_corners
 from femodes.geometry.section import Section
 from femodes.modes.loaded import LoadedMode
@@ -191,12 +191,7 @@ def loaded_derived_quantities(study, conductivity=5.8e7, roughness=0.0, breakdow
     if study.frequency is None or not study.at_frequency:
         raise FemodesError("loaded_derived_quantities() needs the modes at a frequency: pass frequency= to "
                            "femodes.study()")
-    try:
-        accuracy = float(accuracy)
-    except (TypeError, ValueError):
-        raise FemodesError(f"quantity accuracy must be a number, got {accuracy!r}") from None
-    if not (1e-9 <= accuracy < 1):
-        raise FemodesError(f"quantity accuracy must lie between 1e-9 and 1 (relative), got {accuracy!r}")
+    accuracy = quantity_accuracy_number("accuracy", accuracy)
     section, f = study.section, float(study.frequency)
     given = [m for m in study.at_frequency if m.family != "complex" and m.propagating]
     if not given:
