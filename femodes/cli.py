@@ -25,6 +25,7 @@ import time
 import warnings
 
 from femodes.case import FORMATS, load_case, run_case, shapes_help
+from femodes.case.schema import UNITS
 from femodes.case.studies import run_seek, run_sensitivity, run_tolerance
 from femodes.case.sweep import run_sweep
 from femodes.constants import __version__
@@ -214,7 +215,8 @@ def _sweep(args):
         doc["files"] = written
         print(json.dumps(doc, indent=2, allow_nan=False))
         return 0
-    sys.stdout.write(sweep_table(result, title=case.title, labels=labels, seconds=seconds))
+    sys.stdout.write(sweep_table(result, title=case.title, labels=labels, seconds=seconds,
+                                 length=(case.units, UNITS[case.units])))
     for p in written:
         print(f"wrote {p}")
     return 0

@@ -125,6 +125,19 @@ def test_an_implausible_size_names_units_in_guide_not_metres(tmp_path, capsys):
     assert "femodes takes metres" not in err and "22.86e-3" not in err  # the Python advice, not for a case file
 
 
+def test_a_sweep_of_an_inch_case_prints_its_lengths_in_inches(tmp_path, capsys):
+    # TE10 of a 0.9 x 0.4 in guide: fc = c / (2 a) (common practice), a = 0.9 in and 1.0 in
+    path = tmp_path / "sweep.toml"
+    path.write_text(INCH + "[sweep]\nwidth = [0.9, 1.0]\n", encoding="utf-8")
+    assert main(["sweep", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "width [in]" in out and "height = 0.4 in" in out and "[mm]" not in out
+    rows = {w[0]: float(w[1]) for w in map(str.split, out.splitlines()) if w[:1] in (["0.9"], ["1"])}
+    for a, fc in rows.items():
+        assert fc == pytest.approx(299792458.0 / (2 * float(a) * 0.0254) / 1e9, rel=1e-3)
+    assert len(rows) == 2
+
+
 def test_design_studies_take_rounded_and_offset_guides(tmp_path, capsys):
     # a rounded rectangle and an offset coax were refused ('need a built-in shape') or leaked offset_x
     for text in ('[guide]\nshape = "rectangle"\nwidth = 22.86\nheight = 10.16\ncorner_radius = 1\n',

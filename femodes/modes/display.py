@@ -297,34 +297,41 @@ def list_repr(name, modes, extra="", limit=6):
 _UNITLESS = ("eps_r", "mu_r", "tan_delta")
 
 
-def _param_unit(name):
+#: lengths are shown in mm unless a case file gives its own unit: (name, metres per unit)
+MM = ("mm", 1e-3)
+
+
+def _param_unit(name, length=MM):
     """The unit a sweep parameter is shown in: GHz for the frequency, degrees for an angle, none
-    ('1') for a material property, mm for every length."""
+    ('1') for a material property, ``length`` (a case file's unit, default mm) for a length."""
     if name == "frequency":
         return "GHz"
     if name == "angle":
         return "deg"
-    return "1" if name.split(".")[-1] in _UNITLESS else "mm"
+    return "1" if name.split(".")[-1] in _UNITLESS else length[0]
 
 
-def _param_text(name, value):
+def _param_text(name, value, length=MM):
     """A sweep parameter (SI) in the unit of :func:`_param_unit`, 6 significant digits."""
-    unit = _param_unit(name)
-    scale = {"GHz": 1e-9, "1": 1.0, "mm": 1e3}
-    return f"{math.degrees(value):.6g}" if unit == "deg" else f"{value * scale[unit]:.6g}"
+    unit = _param_unit(name, length)
+    if unit == "deg":
+        return f"{math.degrees(value):.6g}"
+    scale = {"GHz": 1e-9, "1": 1.0}.get(unit, 1.0 / length[1])
+    return f"{value * scale:.6g}"
 
 
-def sweep_columns(result, labels=None):
+def sweep_columns(result, labels=None, length=MM):
     """(head, rows, right-aligned columns, notes) of a :class:`~femodes.studies.SweepResult`: one
     row per point in grid order; ``notes`` says why each invalid point was refused.  ``labels``
-    maps a parameter to the name shown (the case file's key)."""
+    maps a parameter to the name shown (the case file's key); ``length``: the unit lengths are
+    shown in, (name, metres per unit)."""
     labels = labels or {}
-    head = [f"{labels.get(n, n)} [{_param_unit(n)}]" for n in result.names]
+    head = [f"{labels.get(n, n)} [{_param_unit(n, length)}]" for n in result.names]
     head += [f"fc{k + 1} [GHz]" for k in range(result.modes)] + ["single-mode band [GHz]", "ratio"]
     rows, notes = [], []
     for key in sorted(result.points):
         r = result.points[key]
-        row = [_param_text(n, v) for n, v in zip(result.names, key)]
+        row = [_param_text(n, v, length) for n, v in zip(result.names, key)]
         if r["status"] != "ok":
             row += ["-"] * result.modes + ["invalid", "-"]
             notes.append(f"{', '.join(row[:len(result.names)])}: {r['message']}")
@@ -341,10 +348,10 @@ def sweep_columns(result, labels=None):
     return head, rows, set(range(len(head) - 2)) | {len(head) - 1}, notes
 
 
-def fixed_text(result):
+def fixed_text(result, length=MM):
     """'width = 34 mm, height = 16 mm' of the sweep's fixed numeric parameters, or '-'."""
     def unit(k):
-        u = _param_unit(k)
+        u = _param_unit(k, length)
         return "" if u in ("deg", "1") else f" {u}"
-    return ", ".join(f"{k} = {_param_text(k, v)}{unit(k)}"
+    return ", ".join(f"{k} = {_param_text(k, v, length)}{unit(k)}"
                      for k, v in result.parameters.items() if isinstance(v, float)) or "-"

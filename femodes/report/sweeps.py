@@ -7,47 +7,48 @@ from __future__ import annotations
 import math
 
 from femodes.constants import __version__
-from femodes.modes.display import _param_text, _param_unit, fixed_text, sweep_columns
+from femodes.modes.display import MM, _param_text, _param_unit, fixed_text, sweep_columns
 from femodes.quantities import CAUTIONS, NP_TO_DB
 from femodes.report.text import _finite, _grid
 
 __all__ = ["sweep_table", "sweep_document", "seek_table", "sensitivity_table", "tolerance_table", "study_document"]
 
 
-def sweep_table(result, title=None, labels=None, seconds=None) -> str:
-    """One row per point: the varied parameters (mm, degrees for an angle), every cutoff (GHz,
-    as many digits as its error allows), the single-mode band and its ratio; an invalid point
-    says why.  ``labels`` maps a parameter to the name shown (the case file's key)."""
+def sweep_table(result, title=None, labels=None, seconds=None, length=MM) -> str:
+    """One row per point: the varied parameters (lengths in ``length``, (name, metres per unit),
+    default mm; degrees for an angle), every cutoff (GHz, as many digits as its error allows), the
+    single-mode band and its ratio; an invalid point says why.  ``labels`` maps a parameter to the
+    name shown (the case file's key)."""
     labels = labels or {}
     lines = [f"femodes {__version__}" + (f" -- {title}" if title else ""),
              f"sweep of {result.shape}: " + ", ".join(
                  f"{labels.get(n, n)} ({len(v)} values)" for n, v in zip(result.names, result.values))
-             + "; fixed: " + fixed_text(result),
+             + "; fixed: " + fixed_text(result, length),
              f"accuracy asked: {result.accuracy:.1e} (relative, on each cutoff); modes per point: {result.modes}", ""]
-    head, rows, right, notes = sweep_columns(result, labels)  # the same columns as the notebook's HTML
+    head, rows, right, notes = sweep_columns(result, labels, length)  # the same columns as the notebook's HTML
     lines += _grid(head, rows, right)
     if notes:
         lines += ["", "invalid points (the shape refused the parameters):"] + [f"  {n}" for n in notes]
-    lines += _quantity_lines(result)
+    lines += _quantity_lines(result, length)
     total = result.reused + result.computed
     lines += ["", f"{total} points: {result.reused} from the store, {result.computed} computed"
               + (f" in {seconds:.1f} s" if seconds is not None else "")]
     return "\n".join(lines) + "\n"
 
 
-def _quantity_lines(result):
+def _quantity_lines(result, length=MM):
     """The dominant mode's quantities at the analysis frequency, one row per point, with the
     power-handling cautions; nothing without an analysis frequency."""
     keys = [k for k, r in sorted(result.points.items()) if r.get("at_frequency")]
     if not keys:
         return []
-    head = [f"{n} [{_param_unit(n)}]" for n in result.names]
+    head = [f"{n} [{_param_unit(n, length)}]" for n in result.names]
     head += ["f [GHz]", "mode", "beta [rad/m]", "Z_w [ohm]", "Z_PV [ohm]", "alpha_c [dB/m]", "alpha_d [dB/m]",
              "breakdown [kW]"]
     rows = []
     for key in keys:
         q = result.points[key]["at_frequency"]
-        row = [_param_text(n, v) for n, v in zip(result.names, key)]
+        row = [_param_text(n, v, length) for n, v in zip(result.names, key)]
         label = (q.get("at_label") or result.points[key]["label"])[:1] or ["-"]
 
         def num(name, scale=1.0, digits=6):
