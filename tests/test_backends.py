@@ -162,7 +162,26 @@ def test_pardiso_factorises_once_and_solves_many_times(pencil, phases):
     phases.clear()
     with backends.use("pardiso"):
         lowest_eigenpairs(pencil.K, pencil.M, 6, -0.5 * (math.pi / A) ** 2)
-    assert phases.count((2, 12)) == 1 and phases.count((2, 33)) > 10
+    # (the SPD factor is applied as its two halves, forward (331) and backward (333): Lanczos on
+    # the standard form F M F^T)
+    assert phases.count((2, 12)) == 1 and phases.count((2, 331)) > 10
+    assert phases.count((2, 333)) >= phases.count((2, 331))
+
+
+def test_pardiso_halves_are_transposes_and_compose_to_the_solve(pencil, mkl):
+    """F A F^T = I, the split PARDISO's SPD factor offers (its manual's phases 331 / 333, from
+    memory): forward and backward halves are each other's transposes and compose to A^-1."""
+    Asp = (pencil.K + pencil.M).tocsr()
+    f = backends.factorize(Asp, spd=True, backend="pardiso")
+    fwd, bwd = f.halves
+    rng = np.random.default_rng(3)
+    u, v = rng.standard_normal((2, Asp.shape[0]))
+    assert abs(u @ fwd(v) - bwd(u) @ v) <= 1e-12 * np.linalg.norm(u) * np.linalg.norm(fwd(v))
+    x = bwd(fwd(v))
+    assert np.linalg.norm(Asp @ x - v) < 1e-10 * np.linalg.norm(v)
+    y = fwd(v)
+    assert abs(y @ y - v @ x) <= 1e-12 * abs(v @ x)  # |F v|^2 = v^T A^-1 v
+    f.release()
 
 
 def test_pardiso_releases_its_memory(pencil, mkl):
@@ -279,3 +298,51 @@ def test_auto_takes_pardiso_only_above_its_measured_crossovers(mkl):
     f = backends.factorize(S, backend="pardiso", symmetric=True, inertia=(n, n))
     b = np.ones(2 * n)
     assert f.backend == "pardiso" and np.linalg.norm(S @ f.solve(b) - b) < 1e-12 * np.linalg.norm(b)
+
+
+def test_upper_triangle_for_the_symmetric_types_keeps_every_diagonal_entry():
+    """PARDISO's symmetric types read the upper triangle with the whole diagonal stored (its
+    manual's storage rule, from memory); the fast CSR cut and the COO path give the same."""
+    B = sp.random(60, 60, density=0.1, random_state=1)
+    A = (B + B.T + sp.identity(60)).tocsr()
+    U = pardiso_mod._upper(A)
+    assert U.has_sorted_indices and abs(U - sp.triu(A)).max() == 0
+    assert np.all(np.diff(U.indptr) > 0) and np.all(U.indices[U.indptr[:-1]] == np.arange(60))
+    C = (B + B.T).tolil()
+    C.setdiag(0)
+    C = C.tocsr()
+    C.eliminate_zeros()  # zero diagonal: the COO path adds explicit zeros
+    V = pardiso_mod._upper(C)
+    assert np.all(V.indices[V.indptr[:-1]] == np.arange(60)) and abs(V - sp.triu(C)).max() == 0
+
+
+def test_lanczos_on_the_standard_form_matches_the_rectangle(monkeypatch):
+    """The eigen step's standard form (F M F^T y = y / (lam - sigma), x = F^T y), used where the
+    factor offers its halves, gives the generalized path's eigenpairs and the rectangle's closed
+    form kc^2 = (m pi / a)^2 + (n pi / b)^2 (common practice).  Halves from a dense Cholesky factor."""
+    import scipy.linalg as la
+
+    from femodes.solvers import eigen
+
+    mesh = skfem.MeshTri.init_tensor(np.linspace(0, A, 21), np.linspace(0, B, 11))
+    d = discretise(mesh, 3)
+    K, M = d.K, d.M
+    sigma = -0.5 * (math.pi / A) ** 2
+    lam0, X0, _ = lowest_eigenpairs(K, M, 7, sigma)
+    calls = []
+
+    def halved(Amat, spd=False, **kw):
+        L = la.cholesky(Amat.toarray(), lower=True)
+        fwd = lambda b: la.solve_triangular(L, b, lower=True)
+        bwd = lambda b: la.solve_triangular(L.T, b, lower=False)
+        calls.append(1)
+        return backends.Factor("dense", lambda b: bwd(fwd(b)), halves=(fwd, bwd))
+
+    monkeypatch.setattr(eigen, "factorize", halved)
+    lam, X, res = lowest_eigenpairs(K, M, 7, sigma)
+    assert calls
+    np.testing.assert_allclose(lam[1:], lam0[1:], rtol=1e-10)
+    assert abs(lam[0]) < 1e-8 * lam[1]  # the Neumann constant
+    np.testing.assert_allclose(lam[1:], _closed_form(False, 6), rtol=1e-3)  # P3, h = 0.1
+    np.testing.assert_allclose(np.einsum("ij,ij->j", X, M @ X), 1.0, rtol=1e-10)  # M-orthonormal
+    assert np.all(res[1:] < 1e-8)

@@ -151,12 +151,15 @@ class Factor:
 
     backend : the library that factorised it;  nnz : entries of the stored factor (None if the
     library does not say);  inertia : (positive, negative) eigenvalue counts of a symmetric
-    indefinite matrix when the library reports them (PARDISO), else None.  :meth:`release` frees
+    indefinite matrix when the library reports them (PARDISO), else None;  halves : for an SPD
+    factor that can apply its halves separately (PARDISO), the pair (forward, backward) of
+    functions b -> F b and b -> F^T b with F A F^T = I (so A^-1 = F^T F), else None.  :meth:`release` frees
     the factor's memory now (PARDISO); otherwise it goes with the object.
     """
 
-    def __init__(self, backend, solve, nnz=None, release=None, inertia=None):
+    def __init__(self, backend, solve, nnz=None, release=None, inertia=None, halves=None):
         self.backend = backend
+        self.halves = halves
         self._solve = solve
         self._release = release
         self.nnz = nnz
@@ -204,7 +207,8 @@ def _pardiso_factor(A, spd, symmetric, inertia):
             symmetric = d.nnz == 0 or d.max() <= 1e-14 * abs(A).max()
         mtype = -2 if symmetric else 11
     f = _pardiso.PardisoFactor(A, mtype, inertia=inertia if mtype == -2 else None)
-    return Factor("pardiso", f.solve, f.nnz, release=f.release, inertia=f.inertia)
+    return Factor("pardiso", f.solve, f.nnz, release=f.release, inertia=f.inertia,
+                  halves=(f.forward, f.backward) if mtype == 2 else None)
 
 
 def factorize(A, spd=False, backend=None, symmetric=None, inertia=None):
