@@ -233,8 +233,11 @@ def main(argv=None):
     ap.add_argument("parts", nargs="*", default=["spd", "whole", "loaded"], choices=["spd", "whole", "loaded"])
     ap.add_argument("--largest", type=float, default=None, help="largest size of parts 1 and 3 (unknowns)")
     ap.add_argument("--whole-size", type=float, default=1e6, help="unknowns of part 2")
+    ap.add_argument("--backends", default=None, help="comma-separated subset of the installed backends")
     args = ap.parse_args(argv)
     names = list(backends.available())
+    if args.backends:
+        names = [n for n in names if n in args.backends.split(",")]
     print(f"installed backends: {', '.join(names)}; auto: SPD -> pardiso from {backends.PARDISO_SPD_MIN}, cholespy "
           f"from {backends.CHOLESPY_MIN} unknowns; indefinite -> pardiso from {backends.PARDISO_INDEFINITE_MIN}")
     for part in args.parts:

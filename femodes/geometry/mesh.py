@@ -516,6 +516,9 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
             _size_fields(gmsh, section, h_max, order, grading, grading_radius, grading_floor,
                          all_corners)
         gmsh.model.mesh.generate(2)
+        # second-order nodes only where a wall or an interface is an arc: on straight sections
+        # they would lie on the chords anyway (setOrder took 1.1 s of 3.4 at 1.1e6 P4 unknowns)
+        curved = curved and _has_arcs(section)
         if curved:
             gmsh.model.mesh.setOrder(2)
         mesh = _mesh_from_gmsh(gmsh, curved)
@@ -523,6 +526,12 @@ def mesh_section(section: Section, h_max: float, order: int = 3, grading: float 
     if section.materials:
         mesh = replace(mesh, regions=_triangle_regions(mesh, section))
     return mesh
+
+
+def _has_arcs(section):
+    """Whether any wall or material outline of ``section`` has a curved (arc) segment."""
+    return any(isinstance(seg, Arc) for loop in list(section.loops) + _material_loops(section)
+               for seg in loop.segments)
 
 
 def _material_loops(section):

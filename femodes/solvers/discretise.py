@@ -180,8 +180,10 @@ def _to_csr(Z, edofs, n):
     from scipy.sparse import coo_matrix, csr_matrix
 
     nl, ne = edofs.shape
-    rows = np.broadcast_to(edofs.T[:, :, None], (ne, nl, nl)).ravel()
-    cols = np.broadcast_to(edofs.T[:, None, :], (ne, nl, nl)).ravel()
+    # 32-bit indices where they fit (scipy would copy 64-bit ones down: 0.9 s at 1.1e6 P4 unknowns)
+    idx = edofs.T.astype(np.int32 if n < 2 ** 31 and nl * nl * ne < 2 ** 31 else np.int64)
+    rows = np.broadcast_to(idx[:, :, None], (ne, nl, nl)).ravel()
+    cols = np.broadcast_to(idx[:, None, :], (ne, nl, nl)).ravel()
     Z = coo_matrix((Z.ravel(), (rows, cols)), shape=(n, n)).tocsr()
     K = csr_matrix((np.ascontiguousarray(Z.data.real), Z.indices, Z.indptr), shape=(n, n))
     M = csr_matrix((np.ascontiguousarray(Z.data.imag), Z.indices.copy(), Z.indptr.copy()), shape=(n, n))
