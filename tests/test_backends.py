@@ -346,3 +346,22 @@ def test_lanczos_on_the_standard_form_matches_the_rectangle(monkeypatch):
     np.testing.assert_allclose(lam[1:], _closed_form(False, 6), rtol=1e-3)  # P3, h = 0.1
     np.testing.assert_allclose(np.einsum("ij,ij->j", X, M @ X), 1.0, rtol=1e-10)  # M-orthonormal
     assert np.all(res[1:] < 1e-8)
+
+
+def test_coax_statics_go_through_the_backend_layer_and_match_the_closed_form():
+    """The TEM potentials factorise through the backend layer (every installed backend gives the
+    same gram matrix), and the coax's gram entry int |grad phi|^2 dA is C / eps = 2 pi / ln(b / a)
+    (common practice)."""
+    from femodes.geometry.mesh import mesh_section
+    from femodes.solvers.electrostatic import conductor_potentials
+
+    b, a = 5e-3, 2e-3
+    section = femodes.coaxial(b, a)
+    disc = discretise(mesh_section(section, 0.6e-3, order=3).to_skfem(order=3), 3)
+    grams = {}
+    for name in backends.available():
+        with backends.use(name):
+            grams[name] = conductor_potentials(disc, section)[1][0, 0]
+    for name, g in grams.items():
+        assert g == pytest.approx(grams["superlu"], rel=1e-10), name
+    assert grams["superlu"] == pytest.approx(2 * math.pi / math.log(b / a), rel=1e-4)

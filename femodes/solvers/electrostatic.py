@@ -46,6 +46,7 @@ import numpy as np
 
 from femodes.constants import C0, EPS0, MU0
 from femodes.errors import FemodesError
+from femodes.solvers.backends import factorize
 
 __all__ = ["Electrostatics", "LineParameters", "conductor_potentials", "line_parameters", "modal_basis",
            "conductor_groups"]
@@ -161,9 +162,8 @@ def conductor_groups(mesh, section=None):
 def conductor_potentials(disc, section=None):
     """(potentials (n_dofs, N), gram (N, N), centroids (N, 2)) on one discretisation: phi_i = 1 on
     inner conductor i, 0 on the other conductors, harmonic between (one sparse factorisation of
-    the interior stiffness matrix for all N), and gram_ij = int grad phi_i . grad phi_j dA."""
-    from scipy.sparse.linalg import splu
-
+    the interior stiffness matrix for all N, by the backend the eigen step uses: the Dirichlet
+    stiffness matrix is SPD), and gram_ij = int grad phi_i . grad phi_j dA."""
     basis = disc.basis
     groups, centroids = conductor_groups(basis.mesh, section)
     n = len(groups) - 1
@@ -174,8 +174,9 @@ def conductor_potentials(disc, section=None):
         Phi[np.unique(basis.get_dofs(facets=groups[i + 1]).flatten()), i] = 1.0
     if n:
         boundary = disc.boundary
-        lu = splu(K[interior][:, interior].tocsc(), permc_spec="MMD_AT_PLUS_A")
-        Phi[interior] = lu.solve(-(K[interior][:, boundary] @ Phi[boundary]))
+        lu = factorize(K[interior][:, interior].tocsr(), spd=True)
+        Phi[interior] = np.asarray(lu.solve(-(K[interior][:, boundary] @ Phi[boundary]))).reshape(-1, n)
+        lu.release()
     G = Phi.T @ (K @ Phi)
     return Phi, 0.5 * (G + G.T), centroids
 
