@@ -77,6 +77,11 @@ def _build(shape, values, regions):
     return section
 
 
+class RegionCallError(FemodesError):
+    """A region's shape function that cannot be called with the guide's parameters or returns no
+    Section: a mistake in the input (reported at once), not a geometry a point may refuse."""
+
+
 def region_shape(region, shape, values):
     """The placed Section of ``region`` at the guide's parameters ``values`` (SI): its ``shape``
     itself, or ``shape(**arguments)`` when it is callable, with the guide shape's keyword
@@ -102,11 +107,11 @@ def region_shape(region, shape, values):
     try:
         out = got(**full)
     except TypeError as exc:
-        raise FemodesError(f"the shape function of region {region['name']!r} refused the guide's parameters "
-                           f"({', '.join(sorted(full))}): {exc}; give it keyword arguments named like the guide "
-                           "shape's (or **kwargs)") from None
+        raise RegionCallError(f"the shape function of region {region['name']!r} refused the guide's parameters "
+                              f"({', '.join(sorted(full))}): {exc}; give it keyword arguments named like the guide "
+                              "shape's (or **kwargs)") from None
     if not isinstance(out, Section):
-        raise FemodesError(f"the shape function of region {region['name']!r} must return a placed Section (e.g. "
+        raise RegionCallError(f"the shape function of region {region['name']!r} must return a placed Section (e.g. "
                            f"femodes.rectangle(width, 0.3 * height).translated(0, y)), got {type(out).__name__}")
     return out
 
@@ -192,6 +197,8 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
                            "order")
     try:
         section = _build(shape, values, regions)
+    except RegionCallError:
+        raise
     except FemodesError as exc:
         raise FemodesError(f"the guide with its regions is not valid at the nominal parameters: {exc}") from None
     eps_r, mu_r = material_number("eps_r", options.get("eps_r", 1.0)), material_number("mu_r", options.get("mu_r", 1.0))
@@ -231,6 +238,8 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
         h = FD_STEP * max(abs(v), 1e-3 * section.size)
         try:
             built = {s: _build(shape, {**values, name: v + s}, regions) for s in (h, -h, h / 2, -h / 2)}
+        except RegionCallError:
+            raise
         except FemodesError as exc:
             skipped[name] = f"the guide is not valid within +-{h:.3g} of {name} = {v!r}: {exc}"
             continue

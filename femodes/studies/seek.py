@@ -35,7 +35,7 @@ from scipy import optimize
 from femodes import quantities as Q
 from femodes.api import _check_count, _loaded_modes, solve
 from femodes.errors import FemodesError, material_number
-from femodes.studies.loaded_sensitivity import _build, _raw_cutoffs
+from femodes.studies.loaded_sensitivity import RegionCallError, _build, _raw_cutoffs
 from femodes.studies.pointwise import homogeneous_partner, quantities_at
 from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _regions, _shape_function, _split
 
@@ -293,6 +293,8 @@ def _seek_loaded(shape, parameters, vary, targets, regions, *, modes, accuracy, 
         shape_kw, solve_opts, regs, f, analysis = _split(point, opts)
         try:
             section = _build(shape, dict(fixed, **shape_kw), regs)
+        except RegionCallError:
+            raise
         except FemodesError as exc:
             r = {"status": "invalid", "message": str(exc)}
         else:

@@ -45,7 +45,7 @@ from femodes.errors import FemodesError
 from femodes.geometry.section import Section
 from femodes.modes.display import _param_text, _param_unit, fixed_text, html_block, html_table, sweep_columns
 from femodes.quantities import DRY_AIR_BREAKDOWN
-from femodes.studies.loaded_sensitivity import _build
+from femodes.studies.loaded_sensitivity import RegionCallError, _build
 from femodes.studies.pointwise import POINT_QUANTITIES, UNITS, homogeneous_partner, quantities_at
 from femodes.studies.store import SweepStore
 from femodes.studies.tracking import class_signature, follow
@@ -423,6 +423,8 @@ def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
     shape_kw, opts, regions, frequency, analysis = _split(point, options)
     try:
         section = _build(shape, dict(fixed, **shape_kw), regions)
+    except RegionCallError:
+        raise
     except FemodesError as exc:
         out.update(status="invalid", message=str(exc))
         return out
