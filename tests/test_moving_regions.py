@@ -17,7 +17,7 @@ import femodes as fm
 from femodes import FemodesError
 from femodes import reference as ref
 from femodes.case import parse_case
-from femodes.case.studies import run_seek, run_sensitivity
+from femodes.case.studies import run_seek, run_tolerance
 from femodes.case.sweep import run_sweep
 from femodes.constants import C0
 
@@ -111,11 +111,15 @@ def test_case_file_region_expressions_follow_the_guide():
         p = r.points[(b,)]
         for fc, err, want in zip(p["fc"], p["fc_error"], _cutoffs(b)):
             assert abs(fc - want) <= err, (b, fc, want, err)
-    # the sensitivity of a case file rebuilds the slab with the height too
-    sens = run_sensitivity(parse_case(CASE.replace("modes = 2", "modes = 1")))
+    # a [tolerance] on the height rebuilds the slab with it (its sensitivity by differences):
+    # worst case of fc1 = (|d fc1 / d b| + its error) t, with d fc1 / d b from the reference roots
+    t = run_tolerance(parse_case(CASE + "[tolerance]\nheight = 0.05\n"))
     h = 1e-5 * B90
     d_ref = (_cutoffs(B90 + h, 1)[0] - _cutoffs(B90 - h, 1)[0]) / (2 * h)
+    sens = t.sensitivity
     assert abs(sens.dfc["height"][0] - d_ref) <= sens.dfc_error["height"][0]
+    nominal, worst, _ = t.of("fc1")
+    assert abs(d_ref) * 0.05e-3 <= worst <= (abs(d_ref) + 2 * sens.dfc_error["height"][0]) * 0.05e-3
 
 
 @pytest.mark.parametrize("value, words", [
