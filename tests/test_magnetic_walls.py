@@ -137,6 +137,48 @@ def test_case_file_key_marks_where_the_guide_lies():
     assert not case.section.is_symmetric("x")
     with pytest.raises(fm.FemodesError, match="not on the outer wall"):
         parse_case(text.replace("[[15, 0]]", "[[16, 0]]"))
-    with pytest.raises(fm.FemodesError, match="magnetic_walls"):
-        parse_case(text.replace("offset = [5, 0]\n", "").replace("[[15, 0]]", "[[10, 0]]")
-                   + "[sweep]\nwidth = [18, 20]\n")
+
+
+# ----------------------------------------------------------------------------- design studies
+# The half guide a x b (one side magnetic) has the cutoffs of the 2a x b guide with m odd
+# (image theory, common practice): TE1 at c / (4 a), so d fc / d a = -fc / a, and for (m, n)
+# d fc / d a = -(c / 2)^2 (m / 2a)^2 / (a fc), d fc / d b = -(c / 2)^2 (n / b)^2 / (b fc).
+
+def half_guide(width, height):
+    """The rectangle with its right side magnetic (module level: the sweep's workers find it)."""
+    return fm.rectangle(width, height).with_walls(magnetic=[(width / 2, 0.0)])
+
+
+def test_sensitivity_of_a_guide_with_a_magnetic_wall_against_the_closed_form():
+    s = fm.sensitivity(half_guide, {"width": A, "height": B}, modes=3, accuracy=1e-6)
+    ref = _closed_form(2 * A, B, 3)
+    for k, m in enumerate(s.modes):
+        fc = ref[k][0]
+        mm, n = (1, 0) if k == 0 else (1, 1) if abs(fc - C0 / 2 * math.hypot(1 / (2 * A), 1 / B)) < 1e3 else (3, 0)
+        da = -(C0 / 2) ** 2 * (mm / (2 * A)) ** 2 / (A * fc)
+        db = -(C0 / 2) ** 2 * (n / B) ** 2 / (B * fc)
+        assert abs(s.dfc["width"][k] - da) <= s.dfc_error["width"][k] + 1e-9 * abs(da), (m.label, s.dfc["width"][k], da)
+        assert abs(s.dfc["height"][k] - db) <= s.dfc_error["height"][k] + 1e-9 * fc / B, (m.label, s.dfc["height"][k], db)
+
+
+def test_sweep_and_seek_of_a_guide_with_a_magnetic_wall_python_and_case_file():
+    from femodes.case import parse_case
+    from femodes.case.studies import run_seek
+    from femodes.case.sweep import run_sweep
+
+    r = fm.sweep(half_guide, {"height": B}, {"width": [A, 1.2 * A]}, modes=2, accuracy=1e-7, workers=1)
+    for a in (A, 1.2 * A):
+        p = r.points[(a,)]
+        for fc, err, (want, _) in zip(p["fc"], p["fc_error"], _closed_form(2 * a, B, 2)):
+            assert abs(fc - want) <= max(err, 1e-9 * want)
+    # the case file: the marked side (right) stays marked when the width changes, the guide placed
+    text = ('[guide]\nshape = "rectangle"\nwidth = 20\nheight = 10\noffset = [5, 0]\n'
+            'magnetic_walls = [[15, 0]]\n[solve]\nmodes = 2\naccuracy = 1e-7\n'
+            '[sweep]\nwidth = [20, 24]\nworkers = 1\n[seek]\nwidth = [15, 30]\nfc1 = 3.0\n')
+    case = parse_case(text)
+    sw = run_sweep(case)
+    for a in (A, 1.2 * A):
+        assert sw.points[(a,)]["fc"][0] == pytest.approx(C0 / (4 * a), rel=1e-7)
+    sk = run_seek(case)
+    want = C0 / (4 * 3.0e9)  # TE1 of the half guide at c / (4 a)
+    assert abs(sk.values["width"] - want) <= sk.errors["width"] <= 1e-6 * want

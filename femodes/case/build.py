@@ -9,6 +9,7 @@ import warnings
 from dataclasses import replace
 
 from femodes.api import MAX_MODES, SCALE_LIMITS, study
+from femodes.case.regions import guide_names, has_expressions, region_section, shape_from
 from femodes.case.schema import (
     _ANALYSIS_KEYS,
     _ELSEWHERE,
@@ -134,8 +135,10 @@ def _build_case(data, base_dir, path):
     regions = data.get("region", [])
     if isinstance(regions, dict):
         raise FemodesError("write each material region as a [[region]] table (double brackets), not [region]")
+    names = guide_names(shape_name, guide_params, units)
     for i, r in enumerate(regions, start=1):
-        section = _build_region(r, i, units, section)
+        section = _build_region(r, i, units, section, names)
+    moving = tuple((i, dict(r)) for i, r in enumerate(regions, start=1) if has_expressions(r))
     loaded = bool(regions)
 
     solve = {}
@@ -208,16 +211,20 @@ def _build_case(data, base_dir, path):
         an = _table(data, "analysis")
         analysis = replace(_build_analysis(an, tan_delta), quantity_accuracy=qa)
     _check_figures_apply(out, analysis, "in the case file", loaded)
-    studies = [k for k in ("sweep", "seek", "tolerance") if k in data]
-    if studies and getattr(section, "magnetic", ()):
-        raise FemodesError(f"[{studies[0]}] of a guide with magnetic_walls is not supported yet (the studied "
-                           "shapes are rebuilt without the marks): solve each size as a case of its own")
     sweep = build_sweep(_table(data, "sweep"), guide, base_dir) if "sweep" in data else None
     seek = build_seek(_table(data, "seek"), guide) if "seek" in data else None
     tol = build_tolerance(_table(data, "tolerance"), guide) if "tolerance" in data else None
     return Case(title=title, section=section, solve=solve, output=out, path=path, analysis=analysis,
                 tan_delta=tan_delta, sweep=sweep, seek=seek, tolerance=tol, quantity_accuracy=qa, units=units,
-                guide_shape=shape_name, guide_params=guide_params)
+                guide_shape=shape_name, guide_params=guide_params, moving_regions=moving,
+                placement=_placement(guide, units))
+
+
+def _placement(guide, units):
+    """The [guide] table's placement (offset, rotate_deg, mirror) in SI: a study rebuilding a
+    guide with magnetic walls places it the same way before marking its sides."""
+    scale = UNITS[units]
+    return {k.name: _convert(k, guide[k.name], scale, units) for k in PLACEMENT if k.name in guide}
 
 
 def _warn_scale(section, units):
@@ -365,31 +372,7 @@ def _check_shape_keys(table, shape, spec, allowed, where):
                            f"missing in {where}: {', '.join(missing)}")
 
 
-def _shape_from(guide, shape, spec, scale, units, where):
-    """The Section of a checked shape table (lengths converted with ``scale``), placed."""
-    kwargs = {k.target: _convert(k, guide[k.name], scale, units, where, required=k in spec.required)
-              for k in spec.keys if k.name in guide}
-    moves = {k.name: _convert(k, guide[k.name], scale, units, where) for k in PLACEMENT if k.name in guide}
-    renamed = {k.target: k.name for k in spec.keys if k.target != k.name}  # the shape function's names
-    try:
-        sec = spec.build(**kwargs)
-    except FemodesError as exc:
-        raise FemodesError(f"{where} {shape}: {_in_file_units(str(exc), units, scale, renamed)}") from None
-    try:
-        if "mirror" in moves:
-            sec = sec.mirrored(moves["mirror"])
-        if "rotate_deg" in moves:
-            sec = sec.rotated(moves["rotate_deg"])
-        if "offset" in moves:
-            sec = sec.translated(*moves["offset"])
-        if where == "[guide]" and "magnetic_walls" in guide:
-            sec = sec.with_walls(magnetic=_convert(WALL_MARKS[0], guide["magnetic_walls"], scale, units, where))
-    except FemodesError as exc:
-        raise FemodesError(f"{where} {shape} (placed with {', '.join(moves)}): "
-                           f"{_in_file_units(str(exc), units, scale)}") from None
-    return sec
-
-
+_shape_from = shape_from  # the [guide] and [[region]] tables' builder (femodes.case.regions)
 
 
 def _material_values(table, where):
@@ -407,8 +390,9 @@ def _material_values(table, where):
     return vals
 
 
-def _build_region(table, number, units, section):
-    """One [[region]] table -> the section with that material region added."""
+def _build_region(table, number, units, section, names=None):
+    """One [[region]] table -> the section with that material region added (its dimensions may
+    be expressions of the [guide] keys ``names``, :mod:`femodes.case.regions`)."""
     where = f"[[region]] {number}"
     if not isinstance(table, dict):
         raise FemodesError(f"region must be written as [[region]] tables (one per region), got {_show(table)}")
@@ -431,7 +415,7 @@ def _build_region(table, number, units, section):
     allowed = ("shape",) + tuple(k.name for k in spec.keys) + tuple(k.name for k in PLACEMENT) + _REGION_KEYS
     _check_shape_keys(table, shape, spec, allowed, where)
     vals = _region_material(table, where)
-    region = _shape_from(table, shape, spec, UNITS[units], units, where)
+    region = region_section(table, number, units, names or {})
     try:
         return section.with_material(region, **vals)
     except FemodesError as exc:

@@ -114,6 +114,8 @@ class Case:
     units: str = "mm"  # [guide] units: how the messages of the studies give lengths back
     guide_shape: str | None = None  # the [guide] shape name and its shape function's arguments (SI),
     guide_params: dict | None = None  # for the design studies (None for a mesh file)
+    moving_regions: tuple = ()  # (number, [[region]] table) of the regions written with expressions
+    placement: dict = field(default_factory=dict)  # the [guide] offset / rotate_deg / mirror (SI)
 
     @property
     def loaded(self):

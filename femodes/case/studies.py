@@ -27,7 +27,16 @@ by its name (an unnamed region by its number, region.1.eps_r), as in [sweep]:
 and ``femodes sensitivity`` gives d fc / d (each region's eps_r and mu_r, the fill's, each [guide]
 dimension): the materials by first-order perturbation, the dimensions by differences of whole
 solves (:mod:`femodes.studies.loaded_sensitivity`).  The regions stay where the case file puts
-them when a [guide] dimension changes (a region reaching outside the guide is cut at the wall).
+them when a [guide] dimension changes (a region reaching outside the guide is cut at the wall),
+except those whose dimensions or offset are expressions of the [guide] keys, which follow them
+(:mod:`femodes.case.regions`).  The fill's eps_r (mu_r) may be a free parameter of [seek], for
+any guide:
+
+    [seek]                         # the fill that puts the dominant cutoff at 5 GHz
+    eps_r = [1.5, 3.0]
+    fc1 = 5.0
+
+A guide with ``magnetic_walls`` keeps the same sides of its outline marked in every study.
 
 The fixed parameters are the [guide] table's; the guide's placement does not change a cutoff.
 """
@@ -40,7 +49,7 @@ import re
 from dataclasses import dataclass
 
 from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
-from femodes.case.sweep import _case_regions
+from femodes.case.sweep import _case_regions, study_shape
 from femodes.case.values import (
     _NUM,
     _check_keys,
@@ -134,6 +143,16 @@ def build_seek(table, guide):
                 bounds[target] = tuple(_number(f"{key} in [seek]", x) for x in v)
                 labels[target] = key
             continue
+        if name in _REGION_PROPS:  # the fill's material, no unit
+            if not isinstance(value, list) or len(value) != 2:
+                raise FemodesError(f"{where} is the fill's {name} free between bounds: give [low, high], got "
+                                   f"{_show(value)}")
+            lo, hi = (_number(where, v, "a bound (number)") for v in value)
+            if not 0 < lo < hi:
+                raise FemodesError(f"{where} must be its bounds [low, high] with 0 < low < high (a relative "
+                                   f"{name[:-2]}), got {_show(value)}")
+            bounds[name], labels[name] = (lo, hi), name
+            continue
         if _is_target(name):
             unit = _TARGET_UNITS.get(name, " GHz")
             v = _number(where, value, f"a target value{' in' + unit if unit else ''} (number)")
@@ -159,8 +178,8 @@ def build_seek(table, guide):
             bounds[key.target] = (lo * _factor(key, scale), hi * _factor(key, scale))
             labels[key.target] = name
         else:
-            _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio", "z_pv", "alpha", "region"),
-                        "[seek]")
+            _check_keys({name: value}, tuple(keys) + ("fc1", "fc2", "f_high", "ratio", "z_pv", "alpha", "region")
+                        + _REGION_PROPS, "[seek]")
     if not bounds or not targets:
         missing = "the free parameters with their bounds" if not bounds else "the targets"
         raise FemodesError(f"[seek] lacks {missing}: it needs free [guide] keys with their bounds in {units} "
@@ -233,9 +252,6 @@ def _shape_and_fixed(case, free=(), table=None):
         raise FemodesError(f"design studies (seek, sensitivity, tolerance) vary the named dimensions of a shape "
                            f"(width, gap, radius, ...); shape {shape!r} has none (its vertices are a list): describe "
                            "the guide with a shape that has them")
-    if getattr(case.section, "magnetic", ()):
-        raise FemodesError("design studies of a guide with magnetic_walls are not supported yet (the studied "
-                           "shapes are rebuilt without the marks)")
     fixed = {k: v for k, v in case.guide_params.items() if k not in free}
     extra = {}
     if case.loaded:
@@ -251,7 +267,7 @@ def _shape_and_fixed(case, free=(), table=None):
         if bad:
             raise FemodesError(f"{bad[0]} in [{table}]: this guide has no [[region]] tables; add one, or vary a "
                                "[guide] dimension")
-    return SHAPES[shape].build, fixed, extra
+    return study_shape(case), fixed, extra
 
 
 def _study_text(text, case):
@@ -301,7 +317,7 @@ def run_seek(case):
         raise FemodesError("the case file has no [seek] table: add one with the free parameters' bounds and the "
                            "targets")
     shape, fixed, extra = _shape_and_fixed(case, case.seek.bounds, "seek")
-    kw = dict(_options(case), **extra)
+    kw = {k: v for k, v in dict(_options(case), **extra).items() if k not in case.seek.bounds}  # a free eps_r
     if "modes" in case.solve:
         kw["modes"] = case.solve["modes"]
     if any(k in ("z_pv", "alpha") for k in case.seek.targets):

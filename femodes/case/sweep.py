@@ -18,8 +18,11 @@ Besides the [guide] parameters a sweep may vary (same two forms):
 With an [analysis] table (or a varied frequency) every point also gets the quantities of
 :mod:`femodes.studies.pointwise` at the analysis frequency (the [analysis] frequency, conductor,
 roughness, breakdown_field and safety_factor; the fill's tan_delta).  A guide with [[region]]
-tables is swept with its regions where the case file puts them: they do not move or grow with
-a varied [guide] parameter (a region reaching outside the guide is cut at the wall).
+tables is swept with its regions where the case file puts them; a region whose dimensions or
+offset are written as expressions of the [guide] keys (``height = "0.3 * height"``,
+:mod:`femodes.case.regions`) follows them at every point, the others stay put (a region
+reaching outside the guide is cut at the wall).  A guide with ``magnetic_walls`` keeps the same
+sides of its outline marked at every point.
 
 The fixed parameters are the [guide] table's own; the shape's placement does not change a cutoff
 and is left out.  :func:`run_sweep` runs it through :func:`femodes.sweep`.
@@ -33,6 +36,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from femodes.case.regions import CaseRegion, marked_shape
 from femodes.case.schema import ANGLE, LENGTH, SHAPES, UNITS
 from femodes.case.values import _check_keys, _count, _material_range, _number, _show, _suggest
 from femodes.errors import FemodesError
@@ -162,12 +166,26 @@ def _case_regions(case):
     """The case's [[region]] tables as femodes.sweep regions, each named by its name or, when
     unnamed, by its number (1, 2, ...)."""
     from_section = getattr(case.section, "materials", ())
+    moving = dict(getattr(case, "moving_regions", ()))
     out = []
     for i, m in enumerate(from_section, start=1):
-        shape = Section(m.region, tuple(m.holes), "region")
+        if i in moving:  # written with expressions of the [guide] keys: rebuilt at every point
+            shape = CaseRegion(moving[i], i, case.units, case.guide_shape)
+        else:
+            shape = Section(m.region, tuple(m.holes), "region")
         out.append({"name": m.name or str(i), "shape": shape, "eps_r": m.eps_r, "mu_r": m.mu_r,
                     "tan_delta": m.tan_delta})
     return out
+
+
+def study_shape(case):
+    """The shape function a study of the case varies: the [guide] shape's, or for a guide with
+    magnetic_walls one that marks the same sides of the rebuilt outline
+    (:class:`femodes.case.regions.MarkedShape`)."""
+    build = SHAPES[case.guide_shape].build
+    if getattr(case.section, "magnetic", ()):
+        return marked_shape(build, case.section, getattr(case, "placement", {}) or {})
+    return build
 
 
 def run_sweep(case, store=None, workers=None, scheduler=None):
@@ -176,10 +194,7 @@ def run_sweep(case, store=None, workers=None, scheduler=None):
     s = case.sweep
     if s is None:
         raise FemodesError("the case file has no [sweep] table: add one naming the [guide] parameters to vary")
-    if getattr(case.section, "magnetic", ()):
-        raise FemodesError("a [sweep] of a guide with magnetic_walls is not supported yet (the swept shapes are "
-                           "rebuilt without the marks): solve each size as a case of its own")
-    shape_function = SHAPES[case.guide_shape].build  # the [guide] table's own arguments (SI)
+    shape_function = study_shape(case)  # the [guide] table's own arguments (SI)
     fixed = {k: v for k, v in case.guide_params.items() if k not in s.vary}
     opts = {k: v for k, v in case.solve.items() if k in ("eps_r", "mu_r", "family", "order") and k not in s.vary}
     kw = {k: case.solve[k] for k in ("modes", "accuracy") if k in case.solve}

@@ -28,8 +28,9 @@ estimate: the same derivative with elements one order lower on the same mesh, th
 times SAFETY, plus the part the cutoff's own error carries (|d fc / d p| fc_error / fc).
 
 Shape parameters: central differences of whole solves (no shape derivative across the material
-interfaces yet).  The guide is rebuilt at p +- h and p +- h / 2 (h = FD_STEP |p|; the regions
-stay where they are placed), each solved to the nominal accuracy; D(h) and D(h / 2) are the two
+interfaces yet).  The guide is rebuilt at p +- h and p +- h / 2 (h = FD_STEP |p|; a region
+given as a placed Section stays where it is, one given as a function of the shape's parameters
+is rebuilt with them), each solved to the nominal accuracy; D(h) and D(h / 2) are the two
 central differences; |D(h) - D(h / 2)| is three times the truncation error of D(h / 2) on a
 smooth fc(p), and (e(p + h / 2) + e(p - h / 2)) / h is
 what the solves' own error bars e can do to the difference; then the Richardson value
@@ -44,11 +45,14 @@ field type (TE / TM at cutoff) and nearest cutoff.  ``method`` says which a para
 
 from __future__ import annotations
 
+import inspect
+
 import numpy as np
 
 from femodes.api import _check_count, _loaded_modes
 from femodes.errors import FemodesError, material_number
 from femodes.geometry.mesh import triangle_regions
+from femodes.geometry.section import Section
 from femodes.solvers.loaded import solve_loaded
 from femodes.solvers.vector import VectorProblem
 
@@ -63,12 +67,53 @@ DIFFERENCE = "central difference of whole solves (steps h and h/2, h = {:.3g}; e
 
 
 def _build(shape, values, regions):
-    """The section of ``shape(**values)`` with ``regions`` (dicts name, shape, eps_r, mu_r, tan_delta)."""
+    """The section of ``shape(**values)`` with ``regions`` (dicts name, shape, eps_r, mu_r,
+    tan_delta) put in: a region's ``shape`` is a placed Section, or a callable of the shape's
+    keyword arguments returning one (:func:`region_shape`), so that it moves with them."""
     section = shape(**values)
     for r in regions:
-        section = section.with_material(r["shape"], eps_r=r["eps_r"], mu_r=r["mu_r"], tan_delta=r["tan_delta"],
-                                        name=r["name"])
+        section = section.with_material(region_shape(r, shape, values), eps_r=r["eps_r"], mu_r=r["mu_r"],
+                                        tan_delta=r["tan_delta"], name=r["name"])
     return section
+
+
+class RegionCallError(FemodesError):
+    """A region's shape function that cannot be called with the guide's parameters or returns no
+    Section: a mistake in the input (reported at once), not a geometry a point may refuse."""
+
+
+def region_shape(region, shape, values):
+    """The placed Section of ``region`` at the guide's parameters ``values`` (SI): its ``shape``
+    itself, or ``shape(**arguments)`` when it is callable, with the guide shape's keyword
+    arguments (``values`` over the shape function's defaults; only those the callable takes
+    unless it takes ``**kwargs``)."""
+    got = region["shape"]
+    if not callable(got):
+        return got
+    try:
+        params = inspect.signature(shape).parameters.values()
+        full = {p.name: p.default for p in params if p.default is not inspect.Parameter.empty
+                and p.kind in (p.POSITIONAL_OR_KEYWORD, p.KEYWORD_ONLY)}
+    except (TypeError, ValueError):
+        full = {}
+    full.update(values)
+    try:
+        takes = inspect.signature(got).parameters.values()
+        if not any(p.kind == p.VAR_KEYWORD for p in takes):
+            names = {p.name for p in takes if p.kind in (p.POSITIONAL_OR_KEYWORD, p.KEYWORD_ONLY)}
+            full = {k: v for k, v in full.items() if k in names}
+    except (TypeError, ValueError):
+        pass
+    try:
+        out = got(**full)
+    except TypeError as exc:
+        raise RegionCallError(f"the shape function of region {region['name']!r} refused the guide's parameters "
+                              f"({', '.join(sorted(full))}): {exc}; give it keyword arguments named like the guide "
+                              "shape's (or **kwargs)") from None
+    if not isinstance(out, Section):
+        raise RegionCallError(f"the shape function of region {region['name']!r} must return a placed Section (e.g. "
+                           f"femodes.rectangle(width, 0.3 * height).translated(0, y)), got {type(out).__name__}")
+    return out
 
 
 def _shares(problem, cut, region_index, n_regions):
@@ -152,6 +197,8 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
                            "order")
     try:
         section = _build(shape, values, regions)
+    except RegionCallError:
+        raise
     except FemodesError as exc:
         raise FemodesError(f"the guide with its regions is not valid at the nominal parameters: {exc}") from None
     eps_r, mu_r = material_number("eps_r", options.get("eps_r", 1.0)), material_number("mu_r", options.get("mu_r", 1.0))
@@ -191,6 +238,8 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
         h = FD_STEP * max(abs(v), 1e-3 * section.size)
         try:
             built = {s: _build(shape, {**values, name: v + s}, regions) for s in (h, -h, h / 2, -h / 2)}
+        except RegionCallError:
+            raise
         except FemodesError as exc:
             skipped[name] = f"the guide is not valid within +-{h:.3g} of {name} = {v!r}: {exc}"
             continue

@@ -35,7 +35,7 @@ from scipy import optimize
 from femodes import quantities as Q
 from femodes.api import _check_count, _loaded_modes, solve
 from femodes.errors import FemodesError, material_number
-from femodes.studies.loaded_sensitivity import _build, _raw_cutoffs
+from femodes.studies.loaded_sensitivity import RegionCallError, _build, _raw_cutoffs
 from femodes.studies.pointwise import homogeneous_partner, quantities_at
 from femodes.studies.sweeps import SWEEP_OPTIONS, _number, _regions, _shape_function, _split
 
@@ -126,17 +126,22 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, frequen
     ``targets`` are met (see the module docstring); the other parameters fixed at
     ``parameters``.  As many free parameters as targets (one or two).  ``modes`` defaults to
     what the targets need plus two; ``options`` go to :func:`femodes.solve` (eps_r, mu_r,
-    family, order).
+    family, order).  Besides the shape's parameters the fill's ``eps_r`` or ``mu_r`` may be
+    free (then not an option): a homogeneous fill scales every cutoff by 1 / sqrt(eps_r mu_r).
+    A shape whose section has walls marked magnetic (``Section.with_walls``) is sought like
+    any other: the shape function returns the marked section at every evaluation.
 
     ``regions``: dielectric regions put into the guide at every evaluation, as for
     :func:`femodes.sweep` (a list of dicts {"name", "shape" (a Section, placed), "eps_r", "mu_r",
     "tan_delta"}); the guide is then solved full-vector, and a free parameter may also be a
     region's material, ``region.NAME.eps_r`` or ``region.NAME.mu_r`` (``region.NAME.tan_delta``
-    with the target alpha), or the fill's ``eps_r`` / ``mu_r``.  The regions stay where they are
-    placed when a shape parameter changes (a region reaching outside the guide is cut at the
-    wall).  The targets are those of a homogeneous guide: fcN the N-th cutoff of the loaded
-    guide, f_high and ratio from its first two cutoffs (a loaded guide's cutoffs are not
-    degenerate in general), z_pv and alpha of the mode of largest beta at ``frequency``.
+    with the target alpha), or the fill's ``eps_r`` / ``mu_r``.  A region given as a placed
+    Section stays where it is when a shape parameter changes (a region reaching outside the
+    guide is cut at the wall); one given as a function of the shape's keyword arguments
+    (returning the placed Section) is rebuilt at every evaluation, so it follows them.
+    The targets are those of a homogeneous guide: fcN the N-th cutoff of the loaded guide,
+    f_high and ratio from its first two cutoffs (a loaded guide's cutoffs are not degenerate in
+    general), z_pv and alpha of the mode of largest beta at ``frequency``.
     Returns a :class:`SeekResult`."""
     regions = _regions(regions)
     if regions is not None:
@@ -153,19 +158,15 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, frequen
     unknown = sorted(set(options) - set(SWEEP_OPTIONS))
     if unknown:
         raise FemodesError(f"unknown option(s) {', '.join(unknown)}; seek passes on {', '.join(SWEEP_OPTIONS)}")
-    bounds = {}
-    for name, b in vary.items():
-        if name not in allowed:
-            raise FemodesError(f"{shape.__name__} has no parameter {name!r}; its parameters: {', '.join(allowed)}")
-        if name in parameters:
-            raise FemodesError(f"{name} is both fixed (parameters) and free (vary): give it in one only")
-        try:
-            lo, hi = (_number(f"a bound of {name!r}", v) for v in b)
-        except (TypeError, ValueError):
-            raise FemodesError(f"the bounds of {name!r} must be a pair (low, high), got {b!r}") from None
-        if not lo < hi:
-            raise FemodesError(f"the bounds of {name!r} must be (low, high) with low < high, got {b!r}")
-        bounds[name] = (lo, hi)
+    bounds = _bounds(vary, goals, list(allowed) + list(_FILL), parameters, shape.__name__,
+                     "; also the fill's eps_r, mu_r")
+    for name, (lo, hi) in bounds.items():
+        if name in _FILL:
+            if name in options:
+                raise FemodesError(f"{name} is both an option and free (vary): give it in one only")
+            if lo <= 0:
+                raise FemodesError(f"the bounds of {name} must be positive (a relative {name[:-2]}), got "
+                                   f"({lo:.6g}, {hi:.6g})")
     at = None
     if any(k in FREQUENCY_TARGETS for k in goals):
         if frequency is None:
@@ -182,14 +183,15 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, frequen
     last = {}  # the element size that met the accuracy at the previous point: the next starts there
 
     def evaluate(point):
-        params = dict(parameters, **point)
+        params = dict(parameters, **{k: v for k, v in point.items() if k not in _FILL})
+        fill = {k: v for k, v in point.items() if k in _FILL}
         try:
             section = shape(**params)
         except FemodesError as exc:
             raise FemodesError(f"the shape refuses {', '.join(f'{k} = {v:.6g}' for k, v in point.items())} inside "
                                f"the bounds: {exc}; narrow the bounds") from None
         count[0] += 1
-        ms = solve(section, modes=n_modes, accuracy=accuracy, start_size=last.get("h"), **options)
+        ms = solve(section, modes=n_modes, accuracy=accuracy, start_size=last.get("h"), **options, **fill)
         if getattr(ms, "mesh_size", None):
             last["h"] = ms.mesh_size
         return _quantities(ms, goals, at)
@@ -198,6 +200,10 @@ def seek(shape, parameters, vary, targets, *, modes=None, accuracy=1e-6, frequen
     if len(names) == 1:
         return _seek_one(names[0], bounds[names[0]], goals, evaluate, count)
     return _seek_two(names, bounds, goals, evaluate, count)
+
+
+#: the fill's material, free in a seek of any guide (``eps_r``, ``mu_r``: options of femodes.solve)
+_FILL = ("eps_r", "mu_r")
 
 
 def _bounds(vary, goals, allowed, parameters, shape_name, extra_note=""):
@@ -287,6 +293,8 @@ def _seek_loaded(shape, parameters, vary, targets, regions, *, modes, accuracy, 
         shape_kw, solve_opts, regs, f, analysis = _split(point, opts)
         try:
             section = _build(shape, dict(fixed, **shape_kw), regs)
+        except RegionCallError:
+            raise
         except FemodesError as exc:
             r = {"status": "invalid", "message": str(exc)}
         else:

@@ -32,6 +32,11 @@ extension (a Laplace problem on the mesh).  Only V . n on the wall matters for t
 derivative; the tangential part and the extension change the discrete value by no more than the
 discretisation error.
 
+Walls marked magnetic (``Section.with_walls``): the same volume form, with TM Dirichlet on the
+electric walls only and TE Dirichlet on the magnetic ones (the scalar solver's conditions); the
+pull-back keeps each part of the wall on itself (boundary nodes move along their own segment),
+so the form is still the discrete eigenvalue's derivative.
+
 Degenerate groups (a square's TE10 / TE01, a circle's TE11 pair): the derivative of a degenerate
 eigenvalue is not one number but the eigenvalues of the matrix of the form above on the group's
 span (the group splits into branches).  Each member of the group is given the branch whose
@@ -65,9 +70,11 @@ from femodes.constants import C0
 from femodes.errors import FemodesError
 from femodes.geometry.loops import Arc, Line
 from femodes.geometry.section import Section
+from femodes.geometry.walls import magnetic_lines
 from femodes.modes.model import ModeSet
 from femodes.solvers.discretise import discretise
 from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
+from femodes.solvers.scalar import _cut_dofs
 from femodes.studies.loaded_sensitivity import loaded_sensitivities
 from femodes.studies.sweeps import _regions
 
@@ -151,8 +158,9 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
     Offsets (pairs) are not differentiated.
 
     ``regions``: dielectric regions put into the guide, as for :func:`femodes.sweep` (dicts
-    {"name", "shape" (a Section, placed), "eps_r", "mu_r", "tan_delta"}): the guide is solved
-    full-vector and the sensitivities are those of
+    {"name", "shape" (a Section, placed, or a function of the shape's keyword arguments
+    returning one: the region then moves with the dimensions in the differences), "eps_r",
+    "mu_r", "tan_delta"}): the guide is solved full-vector and the sensitivities are those of
     :mod:`femodes.studies.loaded_sensitivity`: to each region's ``region.NAME.eps_r`` and
     ``region.NAME.mu_r`` and the fill's ``eps_r``, ``mu_r`` by first-order perturbation, to the
     shape's parameters by central differences of whole solves (``.method`` says which).
@@ -197,9 +205,6 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
     if not isinstance(section, Section):
         raise FemodesError(f"shape must return a Section (e.g. femodes.double_ridge), {_name(shape)} returned "
                            f"{type(section).__name__}")
-    if section.magnetic:
-        raise FemodesError("sensitivity() takes every wall as electric; this section has walls marked magnetic "
-                           "(with_walls): solve it at perturbed parameters instead")
     if section.materials:
         raise FemodesError("the shape must return a homogeneously filled section; this one has material regions of "
                            "its own: give the regions as regions=[{'name': ..., 'shape': ..., 'eps_r': ...}]")
@@ -424,6 +429,10 @@ def _derivatives(ms, section, moved, q, given=None):
     dx = basis.dx
     area = section.area
     shifts = {"TM": 0.9 * math.pi * _J01 ** 2 / area, "TE": -0.1 * math.pi * _J01 ** 2 / area}
+    walls = None
+    if section.magnetic:  # TM Dirichlet on the electric walls only, TE on the magnetic ones
+        walls = _cut_dofs(disc, (), section.size, magnetic_lines(section))
+        shifts["TM"] = shifts["TE"]  # no Faber-Krahn bound with Neumann parts
     out = {}
     for fam in ("TE", "TM"):
         nominal = [m for m in ms if m.family == fam]
@@ -431,7 +440,13 @@ def _derivatives(ms, section, moved, q, given=None):
             continue
         count = len(nominal) + 4
         with single_thread():
-            if fam == "TM":
+            if walls is not None:
+                fixed = walls["wall"] if fam == "TM" else walls["magnetic"]
+                idx = np.setdiff1d(np.arange(disc.n_dofs), fixed)
+                lam, Y, _ = lowest_eigenpairs(restrict(disc.K, idx), restrict(disc.M, idx), count, shifts[fam])
+                X = np.zeros((disc.n_dofs, Y.shape[1]))
+                X[idx] = Y
+            elif fam == "TM":
                 idx = disc.interior()
                 lam, Y, _ = lowest_eigenpairs(restrict(disc.K, idx), restrict(disc.M, idx), count, shifts[fam])
                 X = np.zeros((disc.n_dofs, Y.shape[1]))

@@ -30,6 +30,7 @@ import json
 import math
 import multiprocessing
 import os
+import pickle
 import sys
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
@@ -41,8 +42,10 @@ from femodes import quantities as Q
 from femodes.api import _check_count, solve, study
 from femodes.atomic import replacing
 from femodes.errors import FemodesError
+from femodes.geometry.section import Section
 from femodes.modes.display import _param_text, _param_unit, fixed_text, html_block, html_table, sweep_columns
 from femodes.quantities import DRY_AIR_BREAKDOWN
+from femodes.studies.loaded_sensitivity import RegionCallError, _build
 from femodes.studies.pointwise import POINT_QUANTITIES, UNITS, homogeneous_partner, quantities_at
 from femodes.studies.store import SweepStore
 from femodes.studies.tracking import class_signature, follow
@@ -276,7 +279,11 @@ def _shape_function(shape):
     except (TypeError, ValueError):
         raise FemodesError(f"shape {shape!r} has no signature to read its parameters from") from None
     names = [p.name for p in sig.parameters.values() if p.kind in (p.POSITIONAL_OR_KEYWORD, p.KEYWORD_ONLY)]
-    if getattr(shape, "__module__", None) is None or "<lambda>" in getattr(shape, "__qualname__", "<lambda>"):
+    if inspect.isfunction(shape):
+        local = "<lambda>" in shape.__qualname__ or getattr(shape, "__module__", None) is None
+    else:  # a callable object (e.g. a shape with its magnetic walls marked): its class by name
+        local = "<locals>" in type(shape).__qualname__
+    if local:
         raise FemodesError("shape must be a function defined at module level (the points are solved in other "
                            "processes, which find it by name)")
     return names
@@ -346,8 +353,9 @@ def _key(point):
 
 
 def _regions(regions):
-    """The ``regions`` option checked: a list of dicts {name, shape (a Section placed in the
-    guide), eps_r, mu_r, tan_delta} (JSON-ready copies for the store's settings beside)."""
+    """The ``regions`` option checked: a list of dicts {name, shape, eps_r, mu_r, tan_delta};
+    ``shape`` a Section placed in the guide, or a callable of the guide shape's keyword
+    arguments returning one (the region then moves and grows with them)."""
     if regions is None:
         return None
     if isinstance(regions, dict) or not hasattr(regions, "__iter__"):
@@ -362,6 +370,9 @@ def _regions(regions):
         if extra:
             raise FemodesError(f"region {r['name']!r} has unknown key(s) {', '.join(extra)}: give name, shape, eps_r, "
                                "mu_r, tan_delta")
+        if not (isinstance(r["shape"], Section) or callable(r["shape"])):
+            raise FemodesError(f"the shape of region {r['name']!r} must be a placed Section or a function of the "
+                               f"guide shape's parameters returning one, got {type(r['shape']).__name__}")
         out.append({"name": str(r["name"]), "shape": r["shape"], "eps_r": _number("eps_r", r.get("eps_r", 1.0)),
                     "mu_r": _number("mu_r", r.get("mu_r", 1.0)), "tan_delta": _number("tan_delta", r.get("tan_delta", 0.0))})
     names = [r["name"] for r in out]
@@ -411,10 +422,9 @@ def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
            "n_dofs": 0, "mesh_size": None, "seconds": 0.0}
     shape_kw, opts, regions, frequency, analysis = _split(point, options)
     try:
-        section = shape(**fixed, **shape_kw)
-        for r in regions:
-            section = section.with_material(r["shape"], eps_r=r["eps_r"], mu_r=r["mu_r"], tan_delta=r["tan_delta"],
-                                            name=r["name"])
+        section = _build(shape, dict(fixed, **shape_kw), regions)
+    except RegionCallError:
+        raise
     except FemodesError as exc:
         out.update(status="invalid", message=str(exc))
         return out
@@ -429,7 +439,7 @@ def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
             at_f = quantities_at(st.at_frequency, frequency, section=section, **analysis)
             at_f["at_label"] = [str(m.label) for m in st.at_frequency]
     else:
-        key = json.dumps([shape.__module__, shape.__qualname__, fixed, shape_kw, opts, modes, accuracy],
+        key = json.dumps([_region_id(shape), fixed, shape_kw, opts, modes, accuracy],
                          sort_keys=True, default=str)
         if _LAST.get("key") == key:
             ms, partner = _LAST["ms"], _LAST["partner"]
@@ -514,8 +524,12 @@ def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, schedu
                  using ``conductivity`` (S/m or a metal name), ``roughness`` (m rms),
                  ``tan_delta`` (the fill's), ``breakdown_field`` (V/m) and ``safety_factor``
     regions    : dielectric regions put into the guide at every point: a list of dicts
-                 {"name", "shape" (a Section, placed), "eps_r", "mu_r", "tan_delta"}; the
-                 points are then solved full-vector (loaded guides)
+                 {"name", "shape", "eps_r", "mu_r", "tan_delta"}; the points are then solved
+                 full-vector (loaded guides).  ``shape`` is a Section placed in the guide (it
+                 stays there whatever the point), or a function of the guide shape's keyword
+                 arguments returning the placed Section, so that the region follows them, e.g.
+                 ``def slab(width, height, **_): return femodes.rectangle(width, 0.3 * height)
+                 .translated(0, -0.35 * height)`` (module level: the points run in other processes)
 
     Returns a :class:`SweepResult` (``.to_xarray()`` for a Dataset).
     """
@@ -551,10 +565,10 @@ def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, schedu
     modes = _check_count(modes)  # the solver's own message, once, before any point
     accuracy = _number("accuracy", accuracy)
     grid = list(itertools.product(*values))
-    settings = {"shape": f"{shape.__module__}.{shape.__qualname__}", "parameters": fixed, "modes": modes,
+    settings = {"shape": _region_id(shape), "parameters": fixed, "modes": modes,
                 "accuracy": accuracy, "options": {k: options[k] for k in sorted(options)}}
     if regions is not None:  # a region's shape by its outline, not by the object's address
-        settings["options"]["regions"] = [dict(r, shape=repr(r["shape"].outer)) for r in regions]
+        settings["options"]["regions"] = [dict(r, shape=_region_id(r["shape"])) for r in regions]
     points, reused = {}, 0
     st = SweepStore(store, json.loads(json.dumps(settings, default=str))) if store is not None else None
     try:
@@ -583,6 +597,28 @@ def sweep(shape, parameters, vary, *, modes=6, accuracy=1e-6, store=None, schedu
     return SweepResult(shape.__name__, fixed, names, values, modes, accuracy, points, reused, len(todo), frequency)
 
 
+def _region_id(shape):
+    """How the store's settings name a shape (of the guide or a region): a Section by its
+    outline, a function by its module and name, another callable object by its repr."""
+    if isinstance(shape, Section):
+        return repr(shape.outer)
+    if inspect.isfunction(shape) or inspect.ismethod(shape):
+        return f"{shape.__module__}.{shape.__qualname__}"
+    return repr(shape)
+
+
+def _picklable(options):
+    """FemodesError unless the regions can go to other processes (a function by its name)."""
+    for r in options.get("regions") or ():
+        if callable(r["shape"]):
+            try:
+                pickle.dumps(r["shape"])
+            except Exception:
+                raise FemodesError(f"the shape function of region {r['name']!r} cannot be sent to the worker "
+                                   "processes: define it with def at module level (not a lambda or a local "
+                                   "function), or give workers=1") from None
+
+
 def _blocks(todo, n):
     """``todo`` cut into ``n`` runs of neighbouring points (grid order), as even as can be."""
     n = max(1, min(n, len(todo)))
@@ -600,6 +636,7 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
         return [dict(zip(names, (float(v) for v in p))) for p in block]
 
     if scheduler is not None:
+        _picklable(options)
         yield from _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options)
         return
     n = min(len(todo), os.cpu_count() or 1) if workers is None else int(workers)
@@ -615,6 +652,7 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
     # separate processes started afresh (spawn): gmsh and the BLAS pools are per process; one run of
     # neighbouring points per worker (more runs cost a cold start each: measured 1.27x against
     # 1.4x on two workers for the 21-point benchmark)
+    _picklable(options)
     blocks = _blocks(todo, n)
     with ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("spawn")) as pool:
         futures = {pool.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options): b for b in blocks}

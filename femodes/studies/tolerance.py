@@ -18,7 +18,9 @@ bound: the reported worst case is sum_p (|dq/dp| + error) t_p.
 Dielectric-loaded guides (``regions=``, as for :func:`femodes.sweep`): the sensitivities of
 :mod:`femodes.studies.loaded_sensitivity`, so a tolerance may also be a material's,
 ``region.NAME.eps_r`` (or ``.mu_r``, or the fill's ``eps_r`` / ``mu_r``) +- t, next to the
-dimensions'; only the parameters given a tolerance are differentiated.  The band edges of a
+dimensions'; only the parameters given a tolerance are differentiated.  A region given as a
+function of the shape's parameters moves with the dimensions (a slab whose thickness is a share
+of the height); one given as a placed Section stays where it is.  The band edges of a
 loaded guide are its first two cutoffs.
 """
 
