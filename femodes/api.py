@@ -245,7 +245,7 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
     if parents and picked:
         if bare is None or len(bare) < len(picked) + 8:
             bare = _bare_modes(section, len(picked) + 8, eps_r, mu_r)
-        named = dict(zip(named_keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare)))
+        named = dict(zip(named_keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare, sol.empty)))
     out, counts = [], {}
     for i in sol.keep:
         o = objs[i]

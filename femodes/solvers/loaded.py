@@ -315,6 +315,9 @@ class LoadedSolution:
     problem : the final VectorProblem;  order : its element order
     lower   : () -> the VectorModes of order p - 1 on the final mesh (cached), or None
     mesh    : the final femodes Mesh (None for a mesh file's fixed mesh)
+    empty   : count -> the empty guide's modes on the final mesh as
+              femodes.modes.parents._empty_guide gives them, when the solver has a cheaper way
+              (the symmetry classes), else None
     """
 
     values: np.ndarray
@@ -325,6 +328,7 @@ class LoadedSolution:
     order: int
     lower: object = None
     mesh: object = None
+    empty: object = None
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,

@@ -52,6 +52,7 @@ import numpy as np
 from femodes.constants import C0
 from femodes.errors import FemodesError
 from femodes.geometry.mirror import canonical, copy_mirrors, mirror_planes, reduce, to_frame, unfold_mesh
+from femodes.solvers.eigen import lowest_eigenpairs
 from femodes.solvers.loaded import ORDER, LoadedSolution, _debug, _estimate, _first_size, _kept, _mesh, _problem, _rate, _step, _trend_floor
 from femodes.solvers.vector.common import _elements, _skfem_mesh
 from femodes.solvers.vector.modes import VectorCutoff
@@ -182,6 +183,78 @@ def _rank(values, frequency):
     else:
         rows.sort(key=lambda r: float(np.real(r[2])))
     return [(ci, j) for ci, j, _ in rows]
+
+
+def _empty_guide_classes(rprob, interiors_z, classes, axes, size, unfold, signs_tm, signs_te, whole, count):
+    """The empty guide's lowest modes on the whole (unfolded) mesh, found class by class on the
+    reduced one: what :func:`femodes.modes.parents._empty_guide` returns for ``whole``
+    ([(family, kc^2, E_t, u)] at the quadrature points of whole.basis_t, count + 1 TE with the
+    constant H_z, count TM), for sections without inner conductors.
+
+    The physics: a magnetic cut (E_z even, E_x odd across it) makes E_z = psi of TM even and
+    H_z = psi of TE odd (E_y = dH_z/dx even): TM Neumann, TE Dirichlet on the cut; an electric
+    cut the reverse.  Outer walls: TM Dirichlet, TE Neumann.  The whole mesh being the reduced
+    one mirrored, each class's eigenvector mirrored with its signs (TM: the class's sigma, TE:
+    -sigma per plane crossed) is an exact eigenvector of the whole discrete problem, so the
+    values and fields are those of the whole solve (up to the order of exactly degenerate ones).
+    A class all of whose computed modes fall among the lowest wanted is asked for more.
+    ``unfold``: the scalar unfolding of the reduced Lagrange coefficients (sigma per column);
+    ``signs_tm`` / ``signs_te``: per class, the sign of each whole triangle's copy."""
+    from skfem import BilinearForm, asm
+    from skfem.helpers import dot, grad
+
+    bz = rprob.basis_z
+    S = asm(BilinearForm(lambda u, v, w: dot(grad(u), grad(v))), bz).tocsr()
+    T = rprob.mats["T_z1"].tocsr()
+    area = float(np.sum(rprob.basis_t.dx))
+    shift = -1.0 / area
+    tol = 1e-9 * size
+    on_cut = {a: np.abs(bz.doflocs[0 if a == "x" else 1]) <= tol for a in axes}
+    everything = np.arange(bz.N)
+    nc = len(classes)
+    out = []
+    for family, want in (("TE", count + 1), ("TM", count)):
+        free, sig = [], []
+        for ci, cls in enumerate(classes):
+            if family == "TM":
+                free.append(interiors_z[ci])
+                sig.append(signs_tm[ci])
+            else:
+                dirichlet = np.zeros(bz.N, dtype=bool)
+                for a, kind in cls.items():
+                    if kind == "magnetic":
+                        dirichlet |= on_cut[a]
+                free.append(everything[~dirichlet])
+                sig.append(signs_te[ci])
+        ask = [min(want, math.ceil(want / nc) + 2, f.size - 2) for f in free]
+        got = [None] * nc
+        todo = list(range(nc))
+        for _ in range(6):
+            for ci in todo:
+                f = free[ci]
+                got[ci] = lowest_eigenpairs(S[f][:, f], T[f][:, f], ask[ci], shift, tol=1e-9)
+            order = sorted(((lam, ci, j) for ci in range(nc) for j, lam in enumerate(got[ci][0])))[:want]
+            todo = [ci for ci in range(nc) if ask[ci] < min(want, free[ci].size - 2)
+                    and sum(1 for _, c, _ in order if c == ci) >= ask[ci]]
+            if not todo:
+                break
+            for ci in todo:
+                ask[ci] = min(want, 2 * ask[ci], free[ci].size - 2)
+        cols = np.zeros((bz.N, len(order)))
+        sg = np.ones((whole.basis_z.mesh.t.shape[1], len(order)))
+        for k, (_, ci, j) in enumerate(order):
+            cols[free[ci], k] = got[ci][1][:, j]
+            sg[:, k] = sig[ci]
+        full = unfold(coeffs=cols, sigma=sg) if order else cols
+        for (lam, _, _), c in zip(order, full.T):
+            f = whole.basis_z.interpolate(c)
+            g, u = np.asarray(f.grad), np.asarray(f)
+            if family == "TE":
+                if lam > 1e-8 / area:  # not the constant
+                    out.append(("TE", float(lam), np.array([-g[1], g[0]]), u))
+            else:
+                out.append(("TM", float(lam), g, u))
+    return sorted(out, key=lambda m: m[1])
 
 
 def solve_loaded_mirror(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
@@ -364,4 +437,10 @@ def solve_loaded_mirror(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, acc
                                                                               evanescent=False)
 
     lower = functools.lru_cache(maxsize=1)(lower_modes) if frequency is not None and p > 1 else None
-    return LoadedSolution(values, errors, objects, keep, whole, p, lower, placed)
+    empty = None
+    if len(canon.loops) == 1:  # no inner conductor: no TEM modes, the classes give the empty guide
+        flipped = [{a: ("electric" if k == "magnetic" else "magnetic") for a, k in c.items()} for c in classes]
+        signs_te = [_class_signs(c, axes, n_red, wskm.t.shape[1]) for c in flipped]
+        empty = functools.partial(_empty_guide_classes, rprob, [pc[4].interior_z for pc in per_class], classes,
+                                  axes, canon.size, uz, signs, signs_te, whole)
+    return LoadedSolution(values, errors, objects, keep, whole, p, lower, placed, empty)
