@@ -32,11 +32,18 @@ in the element's space; the Nedelec dofs' orientations are scikit-fem's own).  T
 VectorProblem then measures each unfolded mode (normalisation, residual of the whole pencil, Gauss
 law, energy shares), so an unfolding error would show as a residual.
 
-Accuracy.  Each class runs the loaded accuracy loop of :func:`femodes.solvers.loaded.solve_loaded`
-on the reduced section (three meshes, Richardson, the same safety).  The modes are reported on
-one final mesh: a class whose loop stopped on a coarser mesh than the finest class's is solved
-once more on that mesh and keeps its own (coarser-mesh) error estimate, an overestimate of the
-finer mesh's error in the asymptotic range.
+Accuracy.  All classes run in one accuracy loop (that of
+:func:`femodes.solvers.loaded.solve_loaded`: three meshes, Richardson, the same safety) on the
+same reduced meshes, of the element sizes the whole solve would take: each mesh is made and
+assembled once (the classes differ only in which cut dofs they keep: VectorProblem's
+``assembled``), every class solved on it for its share of the modes plus one (a class all of
+whose computed modes fall among the wanted ones is asked for more, on the meshes of the estimate
+too, so that the k-th best overall is proven).  The estimate and the stopping rule are over the
+wanted modes of all classes together (for cutoffs the trend floor too, as the whole solve applies
+it over its modes); the next mesh is planned from the worst class (the slowest rate observed
+among its modes that miss the accuracy).  The final mesh is common, so every class's modes and
+errors come from it.  The empty guide that names the parents is solved class by class on the
+reduced mesh too (:func:`_empty_guide_classes`).
 """
 
 from __future__ import annotations
