@@ -23,6 +23,7 @@ from femodes.constants import C0
 from femodes.errors import ACCURACY_RANGE, MAX_FREQUENCY, FemodesError, accuracy_range_error, material_number, positive_number
 from femodes.geometry.loops import Arc
 from femodes.geometry.mesh import Mesh
+from femodes.geometry.mirror import mirror_planes
 from femodes.geometry.section import Section
 from femodes.modes.display import at_frequency_html, cutoff_html, fill_text, html_lines, list_repr, section_text
 from femodes.modes.labels import build_modes
@@ -150,17 +151,25 @@ def reduction_pays(section, n_modes, accuracy, order=DEFAULT_ORDER):
 
 
 def loaded_reduction_pays(section, n_modes, accuracy, frequency=None):
-    """Whether solving a loaded section class by class on its half or quarter is expected to be
-    faster than solving it whole.  Measured (benchmarks/bench_symmetry.py loaded, and a survey on
-    a busy 2-core machine: WR-90 with a centred slab (two planes), with a slab on the bottom wall
-    (one plane), a rod in a circular guide; 8 and 20 modes at 24 GHz, 12 and 30 cutoffs; accuracy
-    1e-6 and 1e-8): whole / reduced time 0.29-1.08, so never yet: each class runs its own
-    three-mesh accuracy loop, the finest class's final mesh is used for all (the others are
-    solved there once more), and the whole mesh is assembled for the unfolded modes, which eats
-    the smaller factorisations.  ``symmetry='always'`` still reduces (same modes within the error
-    bars).  The arguments are those a future rule will weigh."""
-    del section, n_modes, accuracy, frequency
-    return False
+    """Whether solving a loaded section class by class on its half or quarter (one accuracy loop
+    over all classes on common reduced meshes) is expected to be faster than solving it whole:
+    where it has two mirror planes (four classes on the quarter), no curved wall or interface
+    and the accuracy asked is 1e-8 or finer.  Measured whole / reduced time (benchmarks/
+    bench_symmetry.py loaded, interleaved, busy 2-core machine), WR-90 with a centred slab
+    (two planes), 4 and 10 modes at 24 GHz and as cutoffs: at 1e-8 1.55-2.1x (3 runs each;
+    2.1-2.9x in a single-run survey), at 1e-7 0.48-1.40x, at 1e-6 0.72-1.27x (sub-3-second
+    solves: the unfolding, the whole mesh's assembly and the per-class eigensolves cost what the
+    smaller factorisations save, and the two loops' meshes differ by luck); a slab on the bottom
+    wall (one plane, two classes) 0.40-1.0x but for one case; a rod in a circular guide (curved
+    meshes) about 1.0x at 1e-6 and 0.40x at 1e-8 (one refinement more than the whole loop, the
+    last step to 2.5x its unknowns).  ``symmetry='always'`` reduces regardless."""
+    del n_modes, frequency  # no measured dependence beyond the noise
+    if not isinstance(section, Section) or accuracy > 1e-8:
+        return False
+    loops = list(section.loops) + [l for m in section.materials for l in (m.region,) + tuple(m.holes)]
+    if any(isinstance(seg, Arc) for loop in loops for seg in loop.segments):
+        return False
+    return len(mirror_planes(section)) == 2
 
 
 #: outlines beyond these sizes (m) get a warning: implausible for a microwave guide
@@ -245,7 +254,7 @@ def _loaded_modes(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=
     if parents and picked:
         if bare is None or len(bare) < len(picked) + 8:
             bare = _bare_modes(section, len(picked) + 8, eps_r, mu_r)
-        named = dict(zip(named_keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare)))
+        named = dict(zip(named_keep, _parents(section, sol.problem, picked, eps_r, mu_r, bare, sol.empty)))
     out, counts = [], {}
     for i in sol.keep:
         o = objs[i]

@@ -86,3 +86,23 @@ def test_quarter_fields_unfold_with_the_class_signs():
         parity_y = 1 if r.indices[1] % 2 == 0 else -1
         assert ey[2] == pytest.approx(parity_y * ey[0], abs=1e-9 * scale)
         assert scale > 0
+
+
+def test_centred_slab_cutoffs_reduced_and_whole_agree_with_each_other_and_lse_lsm():
+    # the classes run one accuracy loop on common quarter meshes; the reduced and the whole solve
+    # must agree within the sum of their error bars, and each must hold the transverse-resonance
+    # cutoffs of the LSE / LSM modes (Collin, "Field Theory of Guided Waves", 2nd ed., ch. 6, from
+    # memory; femodes.reference.layered) within its own bar, with the same field types, labels
+    # and degeneracies
+    g = (A - W) / 2
+    ref = layered_guide_cutoffs(A, B, [(g, 1, 1), (W, EPS, 1), (g, 1, 1)], 6, axis="x")
+    red = fm.solve(CENTRED, modes=6, accuracy=1e-6, symmetry="always")
+    whole = fm.solve(CENTRED, modes=6, accuracy=1e-6, symmetry=False)
+    assert len(red) == len(whole) == 6
+    for r, m, w in zip(ref, red, whole):
+        assert abs(m.fc - w.fc) <= m.fc_error + w.fc_error, (m.label, m.fc, w.fc)
+        assert abs(m.fc - r.frequency) <= m.fc_error, (m.label, m.fc, r.frequency, m.fc_error)
+        assert abs(w.fc - r.frequency) <= w.fc_error, (w.label, w.fc, r.frequency, w.fc_error)
+        assert m.field == w.field == r.field
+    assert [m.label for m in red] == [m.label for m in whole]
+    assert [(m.parent, m.degenerate_with) for m in red] == [(m.parent, m.degenerate_with) for m in whole]

@@ -60,7 +60,7 @@ def _empty_guide(problem, count):
     return sorted(out, key=lambda m: m[1])
 
 
-def _parents(section, problem, loaded_modes, eps_r, mu_r, ref):
+def _parents(section, problem, loaded_modes, eps_r, mu_r, ref, empty=None):
     """For each loaded VectorMode (or VectorCutoff): (parent label or None, share).  The empty guide (the section
     without its regions) is solved on the same mesh (:func:`_empty_guide`); its modes are pure
     TE / TM / TEM and are named by matching their kc to the scalar solver's labelled modes of the
@@ -72,12 +72,14 @@ def _parents(section, problem, loaded_modes, eps_r, mu_r, ref):
     group's span.  At a cutoff the comparison is of like with like: the transverse E of a TE-type
     cutoff with the empty guide's TE and TEM modes, the E_z of a TM-type cutoff with its TM modes
     (an empty-guide TM mode has no transverse E at cutoff, a TE mode no E_z).  ``ref``: the
-    bare section's labelled scalar modes (femodes.api._bare_modes), at least len(loaded_modes) + 8."""
+    bare section's labelled scalar modes (femodes.api._bare_modes), at least len(loaded_modes) + 8.
+    ``empty``: count -> the empty guide's modes on ``problem``'s mesh, where the solver found
+    them more cheaply (LoadedSolution.empty: the symmetry classes on the reduced mesh)."""
     n = len(loaded_modes)
     if n == 0:
         return []
     count = n + 8
-    empty = _empty_guide(problem, count)
+    empty = _empty_guide(problem, count) if empty is None else empty(count)
     # labels only: kc is matched to 1e-3, so 1e-4 is plenty
     kmax2 = max([r.kc ** 2 for r in ref] + [m[1] for m in empty])
     names = []

@@ -42,6 +42,8 @@ from __future__ import annotations
 
 import functools
 import math
+import os
+import sys
 import warnings
 from dataclasses import dataclass
 
@@ -213,6 +215,92 @@ def _trend_floor(values, errors, rate):
     return out
 
 
+def _debug(msg):
+    """The refinement loop, step by step, on stderr when FEMODES_DEBUG is set (the command line's
+    --verbose sets it)."""
+    if os.environ.get("FEMODES_DEBUG"):
+        print("femodes:", msg, file=sys.stderr)
+
+
+def _first_size(section, modes, frequency, eps_r, mu_r, mesh_size=None):
+    """(h, k_max, scale): the element size of the finest of the first three meshes (L / 4 or 1.5
+    / k_max, ``mesh_size`` if given), the largest wavenumber in the section (at the frequency, or
+    the one below which ``modes`` + 1 modes of the area are expected), and the measure of beta^2
+    errors at a frequency, k0^2 eps_max mu_max (the largest beta^2 the guide can have)."""
+    eps_max = max([float(eps_r)] + [m.eps_r for m in section.materials])
+    mu_max = max([float(mu_r)] + [m.mu_r for m in section.materials])
+    if frequency is not None:
+        k_max = 2 * math.pi * float(frequency) / C0 * math.sqrt(eps_max * mu_max)
+    else:
+        k_max = math.sqrt(2 * math.pi * (modes + 1) / section.area * 1.15) * math.sqrt(eps_max * mu_max)
+    h = min(section.size / 4, 1.5 / k_max) if mesh_size is None else float(mesh_size)
+    return h, k_max, k_max ** 2
+
+
+def _step(worst, plan, rate, accuracy):
+    """The factor on h for the next mesh: (0.3 accuracy / worst)^(1 / plan), ``plan`` the slowest
+    rate observed among the modes that miss the accuracy (not below half the model's ``rate``),
+    between 0.4 and 0.75.  A slower observed rate may be a mesh that was merely unlucky (the
+    half-filled WR-90 at eps_r 3, fourth cutoff: k0^2 errors 6.5e-6, 3.2e-6, 7.9e-9 on 979, 1969,
+    10897 unknowns, observed rate 1.6): then no more than 0.6 per step, so that the next mesh
+    shows the rate (a step of 0.4 went on to 74k unknowns and an error 1e4 x below the 1e-7
+    asked)."""
+    if worst <= 0:
+        return 0.75
+    shrink = 0.4 if plan >= rate else 0.6
+    return min(0.75, max(shrink, (0.3 * accuracy / worst) ** (1.0 / plan)))
+
+
+def _estimate(runs, frequency, rate, p, trend=True):
+    """Error of the finest run's values from the last three runs (:func:`_three_mesh_errors`),
+    times the safety factor; for cutoffs, no mode's relative error below the trend of a higher
+    one (:func:`_trend_floor`; ``trend=False`` leaves that to the caller: the symmetry classes
+    apply it over all classes together).  ``runs``: (values, objects, unknowns, ...) per mesh,
+    coarsest first.  Modes are matched across meshes by :func:`_match` (complex ones by nearest
+    complex value); NaN where one has no partner.  Returns (errors, the observed rate of each
+    mode)."""
+    finest = runs[-1]
+    maps = [_match(r[0], finest[0]) for r in runs[-3:]]
+    n = min(len(r[0]) for r in runs[-3:]) if frequency is None else len(finest[0])
+    dofs = [r[2] for r in runs[-3:]]
+    err = np.full(n, np.nan)
+    qs = np.full(n, rate)
+    for i in range(n):
+        idx = [int(m[i]) for m in maps]
+        if min(idx) < 0:
+            continue
+        err[i], qs[i] = _three_mesh_errors(dofs, [r[0][j] for r, j in zip(runs[-3:], idx)], rate, p)
+    err *= SAFETY
+    if trend and frequency is None and n:
+        err = _trend_floor(np.real(finest[0][:n]), err, rate)
+    return err, qs
+
+
+def _kept(err, objs, frequency, evanescent):
+    """Indices of the final mesh's modes to report: those with a partner on every coarser mesh
+    (finite error; real ones beyond what a coarser mesh found are not), propagating unless
+    ``evanescent``; complex pairs only when found on every mesh with an error below |Im beta^2|,
+    else taken for merged near-equal evanescent eigenvalues of a coarse mesh and left out with a
+    warning (module docstring)."""
+    n = len(err)
+    keep = [i for i in range(n) if np.isfinite(err[i])
+            and (frequency is None or evanescent or objs[i].propagating)]
+    if frequency is not None:
+        loose = [i for i in range(n) if objs[i].family == "complex"
+                 and not (np.isfinite(err[i]) and err[i] < abs(objs[i].beta2.imag))]
+        if loose:
+            b2 = objs[loose[0]].beta2
+            warnings.warn(f"femodes: {len(loose)} complex beta^2 value(s) (beta^2 = {b2.real:.4g} "
+                          f"{b2.imag:+.3g}j rad^2/m^2 the first) did not persist under refinement with a "
+                          "resolved imaginary part (absent from a coarser mesh, or |Im beta^2| within its "
+                          "error estimate): taken for two nearly equal evanescent eigenvalues that the "
+                          "discretisation merged into a complex pair (a numerical artefact, not a complex "
+                          "mode) and left out; if one sits at the end of the modes asked for, ask for a few "
+                          "more modes to check it", RuntimeWarning, stacklevel=4)
+            keep = [i for i in keep if i not in loose]
+    return keep
+
+
 @dataclass(frozen=True, eq=False)
 class LoadedSolution:
     """What the loaded accuracy loop found, before the modes are named (femodes.modes.parents).
@@ -227,6 +315,9 @@ class LoadedSolution:
     problem : the final VectorProblem;  order : its element order
     lower   : () -> the VectorModes of order p - 1 on the final mesh (cached), or None
     mesh    : the final femodes Mesh (None for a mesh file's fixed mesh)
+    empty   : count -> the empty guide's modes on the final mesh as
+              femodes.modes.parents._empty_guide gives them, when the solver has a cheaper way
+              (the symmetry classes), else None
     """
 
     values: np.ndarray
@@ -237,11 +328,12 @@ class LoadedSolution:
     order: int
     lower: object = None
     mesh: object = None
+    empty: object = None
 
 
 def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1e-6, order=None,
                  evanescent=False, max_iterations=5, tan_delta=0.0, mesh_size=None, magnetic=None,
-                 meshes=None, judged=None):
+):
     """Modes (at ``frequency``) or cutoffs (without) of a section with material regions, with
     their errors: the accuracy loop (module docstring), unnamed (:class:`LoadedSolution`).
 
@@ -249,88 +341,44 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     ``mesh_size``: the element size (m) of the third (finest) of the first three meshes instead
     of the one chosen from the wavelength (the others 1.35 and 1.35^2 times larger).
     ``magnetic``: the magnetic-wall facets of a reduced section (VectorProblem; the symmetry
-    classes of femodes.solvers.loaded_mirror); ``meshes``: a dict of the meshes made so far by
-    element size, each with the first problem assembled on it, shared by calls on the same
-    section (the classes of one reduced section: other walls, the same matrices);
-    ``judged``: only the first ``judged`` values must meet ``accuracy`` (the others, asked for
-    as a margin, are estimated alike but do not drive the refinement)."""
+    classes of femodes.solvers.loaded_mirror, which run their own loop on shared meshes)."""
     p = ORDER if order is None else int(order)
     if p not in (1, 2, 3):
         raise FemodesError(f"order must be 1, 2 or 3 for loaded guides (edge elements), got {order!r}")
-    eps_max = max([float(eps_r)] + [m.eps_r for m in section.materials])
-    mu_max = max([float(mu_r)] + [m.mu_r for m in section.materials])
     rate = _rate(section, p)
-    L = section.size
-    if frequency is not None:
-        k_max = 2 * math.pi * float(frequency) / C0 * math.sqrt(eps_max * mu_max)
-    else:
-        k_max = math.sqrt(2 * math.pi * (modes + 1) / section.area * 1.15) * math.sqrt(eps_max * mu_max)
-    h = min(L / 4, 1.5 / k_max) if mesh_size is None else float(mesh_size)
+    h, k_max, scale = _first_size(section, modes, frequency, eps_r, mu_r, mesh_size)
 
     def run(size):
         """(values, mode objects, unknowns, problem, mesh) on the mesh of element size ``size``."""
-        key = (round(size / L, 12), p, k_max)
-        mesh, like = meshes.get(key, (None, None)) if meshes is not None else (None, None)
-        if mesh is None:
-            mesh = _mesh(section, size, p, k_max)
-        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta, magnetic, like)
-        if meshes is not None and like is None:
-            meshes[key] = (mesh, prob)
+        mesh = _mesh(section, size, p, k_max)
+        prob = _problem(section, mesh, eps_r, mu_r, p, tan_delta, magnetic)
         if frequency is not None:
             got = prob.solve(frequency, modes=modes, evanescent=True)
             return np.array([m.beta2 for m in got]), got, prob.n_dofs, prob, mesh
         got = prob.cutoffs(modes=modes)
         return np.array([c.k0 ** 2 for c in got]), got, prob.n_dofs, prob, mesh
 
-    def estimate(runs):
-        """Error of the finest run's values from the last three runs (:func:`_three_mesh_errors`),
-        times the safety factor; for cutoffs, no mode's relative error below the trend of a higher
-        one (:func:`_trend_floor`).  Modes are matched across meshes by :func:`_match` (complex
-        ones by nearest complex value); NaN where one has no partner.  Returns (errors, the
-        observed rate of each mode)."""
-        finest = runs[-1]
-        maps = [_match(r[0], finest[0]) for r in runs[-3:]]
-        n = min(len(r[0]) for r in runs[-3:]) if frequency is None else len(finest[0])
-        dofs = [r[2] for r in runs[-3:]]
-        err = np.full(n, np.nan)
-        qs = np.full(n, rate)
-        for i in range(n):
-            idx = [int(m[i]) for m in maps]
-            if min(idx) < 0:
-                continue
-            err[i], qs[i] = _three_mesh_errors(dofs, [r[0][j] for r, j in zip(runs[-3:], idx)], rate, p)
-        err *= SAFETY
-        if frequency is None and n:
-            err = _trend_floor(np.real(finest[0][:n]), err, rate)
-        return err, qs
+    estimate = functools.partial(_estimate, frequency=frequency, rate=rate, p=p)
 
     runs = [run(k * h) for k in (1.35 ** 2, 1.35, 1.0)]
     for _ in range(max_iterations):
         fine = runs[-1]
         err, qs = estimate(runs)
-        if frequency is not None:
-            rel = err / ((2 * math.pi * float(frequency) / C0) ** 2 * eps_max * mu_max)
-        else:
-            rel = err / (2 * fine[0][:len(err)])
-        rel = rel[:judged] if judged is not None else rel  # a symmetry class: its share only
+        rel = err / scale if frequency is not None else err / (2 * fine[0][:len(err)])
         # the next mesh planned with the slowest rate observed among the modes that miss the
         # accuracy, but not below half the model's (the scalar solver's rule)
         missing = np.isfinite(rel) & (rel > accuracy)
         plan = max(rate / 2, float(np.min(qs[:len(rel)][missing]))) if np.any(missing) else rate
         rel = rel[np.isfinite(rel)]  # complex pairs not on every mesh: judged at the end
         worst = float(rel.max()) if len(rel) else 0.0
+        _debug(f"loaded loop: h={h:.4g} N={fine[2]} worst estimate {worst:.2e} (rate plan {plan:.2f})")
         if worst <= accuracy:
             break
         if fine[2] > 1_500_000:
             warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached; estimated {worst:.1e} "
                           f"with {fine[2]} unknowns", RuntimeWarning, stacklevel=3)
             break
-        # a slower observed rate may be a mesh that was merely unlucky (the half-filled WR-90 at
-        # eps_r 3, fourth cutoff: k0^2 errors 6.5e-6, 3.2e-6, 7.9e-9 on 979, 1969, 10897 unknowns,
-        # observed rate 1.6): then no more than h x 0.6 per step, so that the next mesh shows the
-        # rate (a step of h x 0.4 went on to 74k unknowns and an error 1e4 x below the 1e-7 asked)
-        shrink = 0.4 if plan >= rate else 0.6
-        h *= min(0.75, max(shrink, (0.3 * accuracy / worst) ** (1.0 / plan))) if worst > 0 else 0.75
+        h *= _step(worst, plan, rate, accuracy)
         runs = runs[-2:] + [run(h)]
     else:
         warnings.warn(f"femodes: asked accuracy {accuracy:.1e} not reached after {max_iterations} "
@@ -338,26 +386,8 @@ def solve_loaded(section, modes, frequency=None, eps_r=1.0, mu_r=1.0, accuracy=1
     fine = runs[-1]
     err = estimate(runs)[0]
     vals, objs = fine[0], fine[1]
-    n = len(err)
-    # modes without a partner on a coarser mesh (NaN error) are not reported (real ones: those
-    # beyond what a coarser mesh found, as before)
-    keep = [i for i in range(n) if np.isfinite(err[i])
-            and (frequency is None or evanescent or objs[i].propagating)]
-    if frequency is not None:
-        # complex pairs: physical when found on every mesh with an error below |Im beta^2|,
-        # else merged near-equal evanescent eigenvalues of a coarse mesh (module docstring)
-        loose = [i for i in range(n) if objs[i].family == "complex"
-                 and not (np.isfinite(err[i]) and err[i] < abs(objs[i].beta2.imag))]
-        if loose:
-            b2 = objs[loose[0]].beta2
-            warnings.warn(f"femodes: {len(loose)} complex beta^2 value(s) (beta^2 = {b2.real:.4g} "
-                          f"{b2.imag:+.3g}j rad^2/m^2 the first) did not persist under refinement with a "
-                          "resolved imaginary part (absent from a coarser mesh, or |Im beta^2| within its "
-                          "error estimate): taken for two nearly equal evanescent eigenvalues that the "
-                          "discretisation merged into a complex pair (a numerical artefact, not a complex "
-                          "mode) and left out; if one sits at the end of the modes asked for, ask for a few "
-                          "more modes to check it", RuntimeWarning, stacklevel=3)
-            keep = [i for i in keep if i not in loose]
+    keep = _kept(err, objs, frequency, evanescent)
+
     def lower_modes(mesh=fine[4]):
         """The modes with elements of order p - 1 on the final mesh, for the error of field-based
         quantities."""
