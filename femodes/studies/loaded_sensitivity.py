@@ -37,9 +37,10 @@ S x = k0^2 T x of the TE-type (Nedelec) or TM-type (Lagrange) pencil,
 
     d (k0^2) = x^T (S' - k0^2 T') x / x^T T x,      d fc = c0 d (k0^2) / (4 pi k0),
 
-S', T' the derivatives of the assembled matrices under the node motion, by a central
-difference of the assembly alone (:mod:`femodes.solvers.vector.shape`; the covariant Nedelec
-functions move with the covariant Piola map).  Only V . n on the wall changes the exact
+S', T' the derivatives of the assembled matrices under the node motion, in closed form
+(:mod:`femodes.solvers.vector.shape`: the forms pulled back to the moving triangles, the
+covariant Nedelec functions moving with the covariant Piola map; checked against a central
+difference of the assembly).  Only V . n on the wall changes the exact
 derivative; the rest of V changes the discrete one by no more than the discretisation error.
 Degenerate groups: the branch derivatives (eigenvalues of the form on the group), each member
 given the branch overlapping its field most.  Error: the same derivative at order p - 1 on the

@@ -155,10 +155,12 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
     full-vector and the sensitivities are those of
     :mod:`femodes.studies.loaded_sensitivity`: to each region's ``region.NAME.eps_r`` and
     ``region.NAME.mu_r`` and the fill's ``eps_r``, ``mu_r`` by first-order perturbation, to the
-    shape's parameters by central differences of whole solves (``.method`` says which).
+    shape's parameters by the shape derivative on the nominal mesh with the regions held where
+    they are placed, or, where a region's edge lies on a wall that moves with the parameter (a
+    kink), by central differences of whole solves (``.method`` says which).
 
     ``only``: the names of the parameters to differentiate (default: all); a loaded guide's
-    shape parameters cost four solves each, so :func:`femodes.tolerance` asks for its own only.
+    shape parameter at a kink costs four solves, so :func:`femodes.tolerance` asks for its own only.
     A homogeneously filled guide gives the fill's ``eps_r`` and ``mu_r`` too when ``only`` names
     them (d fc / d eps_r = -fc / (2 eps_r), exact), so that a tolerance may be a material's.
 
