@@ -404,3 +404,25 @@ def test_loaded_study_inputs_are_checked_before_any_solve():
         fm.seek(fm.rectangle, base, {"region.slab.eps_r": (2, 3)}, {"fc1": 6e9}, order=4, regions=_regions())
     with pytest.raises(FemodesError, match="family= does not apply"):
         fm.sensitivity(fm.rectangle, base, family="TE", regions=_regions())
+
+
+def test_cutoff_shape_derivative_of_a_dilation_and_against_the_assembly_difference():
+    # scaling a loaded section (walls and regions) by s scales every cutoff by 1 / s (Maxwell's
+    # equations with fixed materials; common practice): under V = x, d (k0^2) = -2 k0^2 for every
+    # mode, on a curved P3 mesh with Nedelec elements and degenerate pairs; and the closed-form
+    # derivative of the forms equals the central difference of the assembly for any V
+    from femodes.geometry.mesh import mesh_section, triangle_regions
+    from femodes.solvers.vector import VectorProblem
+    from femodes.solvers.vector.shape import cutoff_shape_derivatives
+
+    s = fm.circle(5e-3).with_material(fm.circle(2e-3), eps_r=4)
+    skm = mesh_section(s, 1.5e-3, order=3).to_skfem(order=3)
+    problem = VectorProblem(skm, np.where(triangle_regions(s, skm.p, skm.t[:3]) == 1, 4.0, 1.0), 1.0, order=3)
+    cuts = problem.cutoffs(6)
+    groups = [[i] for i in range(len(cuts))]
+    got = cutoff_shape_derivatives(problem, cuts, groups, skm.doflocs.copy())
+    np.testing.assert_allclose([g[0][0] for g in got], [-2 * c.k0 ** 2 for c in cuts], rtol=1e-10)
+    V = np.random.default_rng(1).standard_normal(skm.doflocs.shape) + skm.doflocs * [[30], [-50]] / 5e-3
+    exact = cutoff_shape_derivatives(problem, cuts, groups, V)
+    diff = cutoff_shape_derivatives(problem, cuts, groups, V, exact=False)
+    np.testing.assert_allclose([g[0][0] for g in exact], [g[0][0] for g in diff], rtol=1e-7)
