@@ -118,16 +118,17 @@ def test_material_sensitivities_against_the_transverse_resonance_roots(slab_sens
     assert "region.slab.tan_delta" in s.skipped
 
 
-def test_shape_sensitivities_by_differences_of_solves(slab_sensitivity):
+def test_shape_sensitivities_by_shape_derivative_and_at_a_kink_by_differences(slab_sensitivity):
     s = slab_sensitivity
     e = 2.25
     # the width: the slab (wider than the guide) fills every width, so the reference is the
-    # layered guide of width a
+    # layered guide of width a; the slab's top meets the side walls and slides along itself:
+    # the shape derivative on the nominal mesh, no solve per parameter
     w = _ref_derivative(lambda a: _layers_cutoffs([(B90 / 2, e, 1.0), (B90 / 2, 1.0, 1.0)], a=a), A90)
     got, err = s.dfc["width"], s.dfc_error["width"]
     assert np.all(np.abs(got - w) <= err)
     assert np.all(err <= 1e-3 * s.fc / A90)
-    assert s.method["width"].startswith("central difference") and "kink" not in s.method["width"]
+    assert s.method["width"].startswith("shape derivative")
     print("width: true / reported", np.array2string(np.abs(got - w) / err, precision=2))
 
     # the height: the guide centred, the slab fixed on the old floor.  A taller guide leaves an
@@ -145,9 +146,102 @@ def test_shape_sensitivities_by_differences_of_solves(slab_sensitivity):
     up, down = (taller(B90 + step) - f0) / step, (f0 - lower(B90 - step)) / step
     got, err = s.dfc["height"], s.dfc_error["height"]
     assert np.all(np.abs(got - up) <= err) and np.all(np.abs(got - down) <= err)
-    assert "kink" in s.method["height"]
+    # the slab's own edge lies on the moving floor: the differences of whole solves are kept
+    assert s.method["height"].startswith("central difference") and "kink" in s.method["height"]
     print("height: true / reported (above, below)", np.array2string(np.abs(got - up) / err, precision=2),
           np.array2string(np.abs(got - down) / err, precision=2))
+
+
+def test_shape_derivative_of_a_floating_slab_against_the_roots_and_the_differences():
+    # a slab of eps_r 2.25, a third of the height, centred in the centred WR-90: the height
+    # moves floor and roof, the slab stays (reference: three layers, Collin ch. 6, tiny-step
+    # differences of the roots); the same derivative by differences of whole solves in the same
+    # run, both within their error bars of the reference, and the time of each
+    import time
+
+    from femodes.studies.loaded_sensitivity import loaded_sensitivities
+    e, d = 2.25, B90 / 3
+    regions = [{"name": "slab", "shape": fm.rectangle(2 * A90, d), "eps_r": e, "mu_r": 1.0, "tan_delta": 0.0}]
+
+    def fc(b):
+        g = (b - d) / 2
+        return _layers_cutoffs([(g, 1.0, 1.0), (d, e, 1.0), (g, 1.0, 1.0)], b=b)
+
+    want = _ref_derivative(fc, B90)
+    values = {"width": A90, "height": B90}
+    runs = {}
+    for diff in (False, True):
+        t = time.perf_counter()
+        r = loaded_sensitivities(fm.rectangle, values, ["width", "height"], regions, 3, 2.5e-6, {},
+                                 only={"height"}, differences=diff)
+        runs[diff] = (r, time.perf_counter() - t)
+    shape, fd = runs[False][0], runs[True][0]
+    assert shape["method"]["height"].startswith("shape derivative")
+    assert fd["method"]["height"].startswith("central difference")
+    np.testing.assert_allclose(shape["fc"], fc(B90), rtol=1e-5)
+    for r in (shape, fd):
+        got, err = r["dfc"]["height"], r["dfc_error"]["height"]
+        assert np.all(np.abs(got - want) <= err), (got, want, err)
+        assert np.all(err <= 1e-3 * r["fc"] / B90)
+    assert np.all(np.abs(shape["dfc"]["height"] - fd["dfc"]["height"])
+                  <= shape["dfc_error"]["height"] + fd["dfc_error"]["height"])
+    ratio = {k: _ratios(np.abs(r["dfc"]["height"] - want) / r["dfc_error"]["height"]) for k, r in (("shape", shape),
+                                                                                                 ("fd", fd))}
+    print(f"floating slab, d fc / d height: true / reported {ratio['shape']} (differences {ratio['fd']});"
+          f" {runs[False][1]:.2f} s vs {runs[True][1]:.2f} s with differences (nominal solve in both)")
+
+
+def _ratios(x):
+    return "[" + ", ".join(f"{v:.2g}" for v in x) + "]"
+
+
+def _rod_cutoffs(a, b, eps, count):
+    """The ``count`` lowest cutoffs (Hz, degenerate pairs twice) of a circular guide of radius b
+    with a concentric rod of radius a, eps_r ``eps``.  At beta = 0 the fields split: E_z
+    (TM-type) with -div grad E_z = k0^2 eps E_z, and H_z (TE-type) with
+    -div (eps^-1 grad H_z) = k0^2 H_z; per azimuthal order n, J_n(k1 r) in the rod (k1 = k0
+    sqrt(eps)) and J_n, Y_n outside with E_z = 0 / d H_z / dr = 0 on the wall, E_z and
+    d E_z / dr (H_z and eps^-1 d H_z / dr) continuous at r = a (separation of variables in
+    cylindrical coordinates, from memory; scipy.special for the Bessel functions)."""
+    from scipy import optimize, special
+
+    J, Y, Jp, Yp = special.jv, special.yv, special.jvp, special.yvp
+
+    def char(k0, n, fam):
+        k1 = k0 * math.sqrt(eps)
+        if fam == "TM":
+            f = J(n, k0 * a) * Y(n, k0 * b) - Y(n, k0 * a) * J(n, k0 * b)
+            df = k0 * (Jp(n, k0 * a) * Y(n, k0 * b) - Yp(n, k0 * a) * J(n, k0 * b))
+            return J(n, k1 * a) * df - k1 * Jp(n, k1 * a) * f
+        g = J(n, k0 * a) * Yp(n, k0 * b) - Y(n, k0 * a) * Jp(n, k0 * b)
+        dg = k0 * (Jp(n, k0 * a) * Yp(n, k0 * b) - Yp(n, k0 * a) * Jp(n, k0 * b))
+        return k1 / eps * Jp(n, k1 * a) * g - dg * J(n, k1 * a)
+
+    ks = np.linspace(0.05 / b, 6.0 / b, 1500)
+    out = []
+    for fam in ("TE", "TM"):
+        for n in range(4):
+            v = np.array([char(k, n, fam) for k in ks])
+            for i in np.flatnonzero(v[:-1] * v[1:] < 0):
+                k = optimize.brentq(char, ks[i], ks[i + 1], args=(n, fam), xtol=1e-14, rtol=1e-15)
+                out += [k * 299792458.0 / (2 * math.pi)] * (1 if n == 0 else 2)
+    return np.sort(out)[:count]
+
+
+def test_shape_derivative_on_a_curved_mesh_with_degenerate_pairs():
+    # a rod of radius 2 mm, eps_r 4, in a circle of radius 5 mm: d fc / d radius of the wall
+    # (the rod stays), curved isoparametric mesh, Nedelec elements, degenerate pairs (n >= 1)
+    a, b, e = 2e-3, 5e-3, 4.0
+    s = fm.sensitivity(fm.circle, {"radius": b}, modes=4, accuracy=4e-4,
+                       regions=[{"name": "rod", "shape": fm.circle(a), "eps_r": e}])
+    want = _ref_derivative(lambda r: _rod_cutoffs(a, r, e, 4), b, rel=1e-6)
+    np.testing.assert_allclose(s.fc, _rod_cutoffs(a, b, e, 4), rtol=1e-4)
+    got, err = s.dfc["radius"], s.dfc_error["radius"]
+    assert s.method["radius"].startswith("shape derivative")
+    assert np.all(np.abs(got - want) <= err), (got, want, err)
+    print("rod in a circle, d fc / d radius: true / reported", _ratios(np.abs(got - want) / err),
+          "reported / (fc / radius)", _ratios(err * b / s.fc))
+    assert np.all(err <= 2e-3 * s.fc / b)
 
 
 # ----------------------------------------------------------------------------- tolerance
@@ -310,3 +404,25 @@ def test_loaded_study_inputs_are_checked_before_any_solve():
         fm.seek(fm.rectangle, base, {"region.slab.eps_r": (2, 3)}, {"fc1": 6e9}, order=4, regions=_regions())
     with pytest.raises(FemodesError, match="family= does not apply"):
         fm.sensitivity(fm.rectangle, base, family="TE", regions=_regions())
+
+
+def test_cutoff_shape_derivative_of_a_dilation_and_against_the_assembly_difference():
+    # scaling a loaded section (walls and regions) by s scales every cutoff by 1 / s (Maxwell's
+    # equations with fixed materials; common practice): under V = x, d (k0^2) = -2 k0^2 for every
+    # mode, on a curved P3 mesh with Nedelec elements and degenerate pairs; and the closed-form
+    # derivative of the forms equals the central difference of the assembly for any V
+    from femodes.geometry.mesh import mesh_section, triangle_regions
+    from femodes.solvers.vector import VectorProblem
+    from femodes.solvers.vector.shape import cutoff_shape_derivatives
+
+    s = fm.circle(5e-3).with_material(fm.circle(2e-3), eps_r=4)
+    skm = mesh_section(s, 1.5e-3, order=3).to_skfem(order=3)
+    problem = VectorProblem(skm, np.where(triangle_regions(s, skm.p, skm.t[:3]) == 1, 4.0, 1.0), 1.0, order=3)
+    cuts = problem.cutoffs(6)
+    groups = [[i] for i in range(len(cuts))]
+    got = cutoff_shape_derivatives(problem, cuts, groups, skm.doflocs.copy())
+    np.testing.assert_allclose([g[0][0] for g in got], [-2 * c.k0 ** 2 for c in cuts], rtol=1e-10)
+    V = np.random.default_rng(1).standard_normal(skm.doflocs.shape) + skm.doflocs * [[30], [-50]] / 5e-3
+    exact = cutoff_shape_derivatives(problem, cuts, groups, V)
+    diff = cutoff_shape_derivatives(problem, cuts, groups, V, exact=False)
+    np.testing.assert_allclose([g[0][0] for g in exact], [g[0][0] for g in diff], rtol=1e-7)

@@ -27,41 +27,73 @@ in the per-triangle eps_r); its error is the discretisation error of the energy 
 estimate: the same derivative with elements one order lower on the same mesh, the difference
 times SAFETY, plus the part the cutoff's own error carries (|d fc / d p| fc_error / fc).
 
-Shape parameters: central differences of whole solves (no shape derivative across the material
-interfaces yet).  The guide is rebuilt at p +- h and p +- h / 2 (h = FD_STEP |p|; a region
+Shape parameters: the shape derivative of the discrete eigenvalue on the final mesh of the
+nominal solve, no re-solve.  The mesh nodes move with a velocity field V: wall nodes by their
+parametric position on their segment of the outline rebuilt at p +- delta, material interfaces
+held where the regions are placed (V = 0 there; a node where an interface meets a moving wall
+slides along the interface), the rest by harmonic extension with wall and interface nodes fixed
+(:func:`femodes.studies.velocity.loaded_velocity`).  Then, for each cutoff eigenpair
+S x = k0^2 T x of the TE-type (Nedelec) or TM-type (Lagrange) pencil,
+
+    d (k0^2) = x^T (S' - k0^2 T') x / x^T T x,      d fc = c0 d (k0^2) / (4 pi k0),
+
+S', T' the derivatives of the assembled matrices under the node motion, in closed form
+(:mod:`femodes.solvers.vector.shape`: the forms pulled back to the moving triangles, the
+covariant Nedelec functions moving with the covariant Piola map; checked against a central
+difference of the assembly).  Only V . n on the wall changes the exact
+derivative; the rest of V changes the discrete one by no more than the discretisation error.
+Degenerate groups: the branch derivatives (eigenvalues of the form on the group), each member
+given the branch overlapping its field most.  Error: the same derivative at order p - 1 on the
+same mesh (the same V), the difference times SAFETY, plus CUTOFF_FLOOR fc_error / |p| (the
+cutoff's own error moves with the geometry), as for homogeneous guides
+(:mod:`femodes.studies.sensitivity`).
+
+Where the derivative has a kink (a region whose own edge lies on a wall that moves with the
+parameter: the slab-loaded guide's height with the slab on the floor; an interface along a
+moving wall) and where the parameter changes the outline's pieces, the central differences of
+whole solves are kept: the guide is rebuilt at p +- h and p +- h / 2 (h = FD_STEP |p|; a region
 given as a placed Section stays where it is, one given as a function of the shape's parameters
-is rebuilt with them), each solved to the nominal accuracy; D(h) and D(h / 2) are the two
-central differences; |D(h) - D(h / 2)| is three times the truncation error of D(h / 2) on a
-smooth fc(p), and (e(p + h / 2) + e(p - h / 2)) / h is
-what the solves' own error bars e can do to the difference; then the Richardson value
-(4 D(h / 2) - D(h)) / 3 is reported (the h^2 term removed), with the error |D(h) - D(h / 2)|
-+ (4 n(h / 2) + n(h)) / 3, n the solves' part above.  A kink (a region meeting a wall that
-moves with the parameter: the slab-loaded guide's height with the slab on the floor) makes
-the one-sided slopes differ by about the same amount at h and h / 2 instead of by half as
-much; there D(h / 2), the mean of the two sides, is reported with their whole difference
-added to the error, and ``method`` names the modes.  Modes are matched across the solves by
-field type (TE / TM at cutoff) and nearest cutoff.  ``method`` says which a parameter got.
+is rebuilt with them: such moving regions always take this path), each solved to the nominal accuracy; D(h) and D(h / 2)
+are the two central differences; |D(h) - D(h / 2)| is three times the truncation error of
+D(h / 2) on a smooth fc(p), and (e(p + h / 2) + e(p - h / 2)) / h is what the solves' own
+error bars e can do to the difference; then the Richardson value (4 D(h / 2) - D(h)) / 3 is
+reported (the h^2 term removed), with the error |D(h) - D(h / 2)| + (4 n(h / 2) + n(h)) / 3, n
+the solves' part above.  At a kink the one-sided slopes differ by about the same amount at h
+and h / 2 instead of by half as much; there D(h / 2), the mean of the two sides, is reported
+with their whole difference added to the error, and ``method`` names the modes.  Modes are
+matched across the solves by field type (TE / TM at cutoff) and nearest cutoff.  ``method``
+says which a parameter got (and why the differences).
 """
 
 from __future__ import annotations
 
 import inspect
+import math
 
 import numpy as np
 
 from femodes.api import _check_count, _loaded_modes
+from femodes.constants import C0
 from femodes.errors import FemodesError, material_number
 from femodes.geometry.mesh import triangle_regions
 from femodes.geometry.section import Section
 from femodes.solvers.loaded import solve_loaded
 from femodes.solvers.vector import VectorProblem
+from femodes.solvers.vector.shape import cutoff_shape_derivatives
+from femodes.studies.velocity import _same_pieces, loaded_velocity
 
-__all__ = ["loaded_sensitivities", "FD_STEP", "PERTURBATION", "DIFFERENCE"]
+__all__ = ["loaded_sensitivities", "FD_STEP", "PERTURBATION", "DIFFERENCE", "SHAPE_DERIVATIVE"]
 
 #: relative step h of the shape parameters' central differences (the second one is h / 2)
 FD_STEP = 0.02
 #: reported error of a material derivative = SAFETY x |order p - order p - 1| + the cutoff's part
 SAFETY = 3.0
+#: shape derivative: reported error = SAFETY x |order p - order p - 1| + CUTOFF_FLOOR x fc_error / |p|
+CUTOFF_FLOOR = 2.0
+#: relative step of the geometric central difference that gives the wall velocity
+GEOMETRY_STEP = 1e-6
+SHAPE_DERIVATIVE = ("shape derivative on the nominal mesh (regions fixed, wall nodes moved, harmonic extension; "
+                    "order p - 1 for the error)")
 PERTURBATION = "first-order perturbation (energy share in the region, order p - 1 for the error)"
 DIFFERENCE = "central difference of whole solves (steps h and h/2, h = {:.3g}; error from both and the solves' error bars)"
 
@@ -140,15 +172,19 @@ def _nearest(cuts, fc, field):
     return min(same, key=lambda i: abs(cuts[i].frequency - fc)) if same else None
 
 
-def _material_derivatives(section, problem, nominal, materials):
+def _final_cutoffs(problem, nominal):
+    """(cutoffs of order p, the order p - 1 problem on the same mesh, its cutoffs)."""
+    count = len(nominal) + 2
+    high = problem.cutoffs(modes=count)
+    lower = VectorProblem(problem.mesh, problem.eps_r, problem.mu_r, order=problem.order - 1)
+    return high, lower, lower.cutoffs(modes=count + 2)
+
+
+def _material_derivatives(section, problem, nominal, materials, high, lower, low):
     """{name: (dfc array, error array)} of the material parameters, from the energy shares at
     order p and p - 1 on the final mesh."""
     n_reg = len(section.materials)
     index = triangle_regions(section, problem.mesh.p, problem.mesh.t[:3])
-    count = len(nominal) + 2
-    high = problem.cutoffs(modes=count)
-    lower = VectorProblem(problem.mesh, problem.eps_r, problem.mu_r, order=problem.order - 1)
-    low = lower.cutoffs(modes=count + 2)
     n = len(nominal)
     out = {name: (np.zeros(n), np.zeros(n)) for name in materials}
     for k, m in enumerate(nominal):
@@ -162,6 +198,80 @@ def _material_derivatives(section, problem, nominal, materials):
             d_low = -low[j].frequency * sl[col][reg] / (2 * value)
             out[name][0][k] = d_high
             out[name][1][k] = SAFETY * abs(d_high - d_low) + abs(d_high) * m.fc_error / m.fc
+    return out
+
+
+def _by_rank(nominal, cuts):
+    """Index into ``cuts`` of each nominal mode: the same rank among the cutoffs of its field
+    type (degenerate members stay apart), or the nearest where the rank's cutoff is not close."""
+    out, seen = [], {}
+    for m in nominal:
+        r = seen[m.field] = seen.get(m.field, -1) + 1
+        same = [i for i, c in enumerate(cuts) if c.field == m.field]
+        i = same[r] if r < len(same) else None
+        if i is None or abs(cuts[i].frequency - m.fc) > 10 * m.fc_error + 1e-9 * m.fc:
+            i = _nearest(cuts, m.fc, m.field)
+        out.append(i)
+    return out
+
+
+def _groups(cuts, wanted, rel):
+    """Degenerate groups (lists of indices into ``cuts``, one field type, cutoffs within the
+    error bars ``rel`` relative) that hold a wanted index."""
+    groups = []
+    for field in ("TE", "TM"):
+        for i in (i for i, c in enumerate(cuts) if c.field == field):
+            if groups and cuts[groups[-1][-1]].field == field and \
+                    cuts[i].k0 - cuts[groups[-1][-1]].k0 <= (4 * rel + 1e-10) * cuts[i].k0:
+                groups[-1].append(i)
+            else:
+                groups.append([i])
+    return [g for g in groups if any(i in wanted for i in g)]
+
+
+def _window(cuts, group, high):
+    """The cutoffs (indices into ``cuts``, same field type) nearest to the group of ``high``."""
+    field = high[group[0]].field
+    same = [i for i, c in enumerate(cuts) if c.field == field]
+    s = len(group)
+    if len(same) < s:
+        return None
+    starts = range(len(same) - s + 1)
+    cost = [sum(abs(cuts[same[a + k]].k0 - high[group[k]].k0) for k in range(s)) for a in starts]
+    a = int(np.argmin(cost))
+    return same[a:a + s]
+
+
+def _shape_derivatives(problem, lower, high, low, nominal, velocities, values):
+    """{name: (dfc, error)} of the shape parameters with a velocity field (module docstring)."""
+    n = len(nominal)
+    idx = _by_rank(nominal, high)
+    if any(i is None for i in idx):
+        raise RuntimeError("a nominal cutoff was not found again on the final mesh")
+    rel = max(m.fc_error / m.fc for m in nominal)
+    groups = _groups(high, set(idx), rel)
+    lgroups = [_window(low, g, high) for g in groups]
+    scale = C0 / (2 * math.pi)
+    out = {}
+    for name, V in velocities.items():
+        d, e = np.full(n, np.nan), np.full(n, np.inf)
+        rh = cutoff_shape_derivatives(problem, high, groups, V)
+        have = [k for k, lg in enumerate(lgroups) if lg is not None]
+        rl = dict(zip(have, cutoff_shape_derivatives(lower, low, [lgroups[k] for k in have], V)))
+        for k, g in enumerate(groups):
+            mu_h, branch = rh[k]
+            d_h = np.sort(scale * mu_h / (2 * np.mean([high[i].k0 for i in g])))
+            if k in rl:
+                d_l = np.sort(scale * rl[k][0] / (2 * np.mean([low[j].k0 for j in lgroups[k]])))
+                diff = float(np.max(np.abs(d_h - d_l)))
+            else:
+                diff = math.inf
+            for pos, i in enumerate(g):
+                for m_idx in (j for j, hi in enumerate(idx) if hi == i):
+                    m = nominal[m_idx]
+                    d[m_idx] = scale * mu_h[branch[pos]] / (2 * high[i].k0)
+                    e[m_idx] = SAFETY * diff + CUTOFF_FLOOR * m.fc_error / abs(values[name])
+        out[name] = (d, e)
     return out
 
 
@@ -183,12 +293,59 @@ class _Cut:
         self.frequency, self.error, self.field = float(frequency), float(error), field
 
 
-def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options, discrete=(), only=None):
+def _difference(shape, values, name, regions, nominal, section, accuracy, options):
+    """(d, error, modes at a kink, h) of one shape parameter by central differences of whole
+    solves (module docstring), or why it has none."""
+    v = values[name]
+    n = len(nominal)
+    h = FD_STEP * max(abs(v), 1e-3 * section.size)
+    try:
+        built = {s: _build(shape, {**values, name: v + s}, regions) for s in (h, -h, h / 2, -h / 2)}
+    except RegionCallError:
+        raise
+    except FemodesError as exc:
+        return f"the guide is not valid within +-{h:.3g} of {name} = {v!r}: {exc}"
+    got = {s: _raw_cutoffs(sec, n + 2, accuracy, options) for s, sec in built.items()}
+    d = np.full(n, np.nan)
+    e = np.full(n, np.inf)
+    kinks = []
+    for k, m in enumerate(nominal):
+        at = {}
+        for s, cuts in got.items():
+            j = _nearest(cuts, m.fc, m.field)
+            at[s] = cuts[j] if j is not None else None
+        if any(c is None for c in at.values()):
+            continue
+        f0, e0 = m.fc, m.fc_error
+        d1 = (at[h].frequency - at[-h].frequency) / (2 * h)
+        d2 = (at[h / 2].frequency - at[-h / 2].frequency) / h
+        n1 = (at[h].error + at[-h].error) / (2 * h)
+        n2 = (at[h / 2].error + at[-h / 2].error) / h
+        # one-sided slopes: their difference falls like h on a smooth fc(p), not at a kink
+        a1 = (at[h].frequency - 2 * f0 + at[-h].frequency) / h
+        a2 = (at[h / 2].frequency - 2 * f0 + at[-h / 2].frequency) / (h / 2)
+        na2 = (at[h / 2].error + 2 * e0 + at[-h / 2].error) / (h / 2)
+        if abs(a2) > 0.75 * abs(a1) and abs(a2) > 2 * na2:
+            kinks.append(m.label)
+            d[k] = d2
+            e[k] = abs(d1 - d2) + n2 + na2 + abs(a2)
+        else:
+            d[k] = (4 * d2 - d1) / 3  # Richardson: the h^2 term of the central difference removed
+            e[k] = abs(d1 - d2) + 4 * n2 / 3 + n1 / 3
+    return d, e, kinks, h
+
+
+def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options, discrete=(), only=None,
+                         interface_velocity=None, differences=False):
     """The parts of a :class:`femodes.studies.Sensitivity` of ``shape(**values)`` with
     ``regions``: dict(dfc, dfc_error, modes, labels, fc, fc_error, parameters, skipped, method,
     n_dofs, order).  ``names``: the shape's numeric parameters; ``options``: eps_r, mu_r, order of
     the solve (the fill's eps_r, mu_r); ``accuracy`` that of every solve; ``only`` a set of the
-    parameter names to differentiate (None: all)."""
+    parameter names to differentiate (None: all).  ``interface_velocity``: parameter name ->
+    a function of points (2, n) giving the velocity (2, n) of the interface nodes there (regions
+    that move with that parameter; default: the regions stay, V = 0 on every interface).
+    ``differences``: True takes central differences of whole solves for every shape parameter
+    (the path kept for kinks; for comparisons)."""
     if "family" in options:
         raise FemodesError("family= does not apply to a guide with regions: its modes are hybrid (leave family out)")
     unknown = sorted(set(options) - {"eps_r", "mu_r", "order"})
@@ -223,57 +380,56 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
         materials = {k: v for k, v in materials.items() if k in only}
         skipped = {k: v for k, v in skipped.items() if k in only}
         names = [k for k in names if k in only]
-    derivs = _material_derivatives(section, problem, nominal, materials) if materials else {}
+    wanted = [k for k in names if k not in discrete]
+    finals = _final_cutoffs(problem, nominal) if (materials or wanted) else None
+    derivs = _material_derivatives(section, problem, nominal, materials, *finals) if materials else {}
     method = {name: PERTURBATION for name in materials}
 
-    # shape parameters: central differences of whole solves at p +- h and p +- h / 2
     skipped.update({k: "an offset or other pair: not differentiated" for k, v in values.items()
                     if isinstance(v, (tuple, list, np.ndarray)) and (only is None or k in only)})
-    n = len(nominal)
+    # shape parameters: the shape derivative where the regions do not meet a moving wall
+    region = triangle_regions(section, problem.mesh.p, problem.mesh.t[:3]) if wanted else None
+    velocities, why_not = {}, {}
+    moving = any(callable(r.get("shape")) for r in regions)
     for name in names:
-        v = values[name]
         if name in discrete:
             skipped[name] = "a count, not a dimension"
             continue
-        h = FD_STEP * max(abs(v), 1e-3 * section.size)
+        v = values[name]
+        step = GEOMETRY_STEP * max(abs(v), 1e-3 * section.size)
         try:
-            built = {s: _build(shape, {**values, name: v + s}, regions) for s in (h, -h, h / 2, -h / 2)}
-        except RegionCallError:
-            raise
-        except FemodesError as exc:
-            skipped[name] = f"the guide is not valid within +-{h:.3g} of {name} = {v!r}: {exc}"
+            plus, minus = shape(**{**values, name: v + step}), shape(**{**values, name: v - step})
+        except FemodesError:
+            why_not[name] = "the shape is not valid on both sides"
             continue
-        got = {s: _raw_cutoffs(sec, n + 2, accuracy, options) for s, sec in built.items()}
-        d = np.full(n, np.nan)
-        e = np.full(n, np.inf)
-        kinks = []
-        for k, m in enumerate(nominal):
-            at = {}
-            for s, cuts in got.items():
-                j = _nearest(cuts, m.fc, m.field)
-                at[s] = cuts[j] if j is not None else None
-            if any(c is None for c in at.values()):
-                continue
-            f0, e0 = m.fc, m.fc_error
-            d1 = (at[h].frequency - at[-h].frequency) / (2 * h)
-            d2 = (at[h / 2].frequency - at[-h / 2].frequency) / h
-            n1 = (at[h].error + at[-h].error) / (2 * h)
-            n2 = (at[h / 2].error + at[-h / 2].error) / h
-            # one-sided slopes: their difference falls like h on a smooth fc(p), not at a kink
-            a1 = (at[h].frequency - 2 * f0 + at[-h].frequency) / h
-            a2 = (at[h / 2].frequency - 2 * f0 + at[-h / 2].frequency) / (h / 2)
-            na2 = (at[h / 2].error + 2 * e0 + at[-h / 2].error) / (h / 2)
-            if abs(a2) > 0.75 * abs(a1) and abs(a2) > 2 * na2:
-                kinks.append(m.label)
-                d[k] = d2
-                e[k] = abs(d1 - d2) + n2 + na2 + abs(a2)
-            else:
-                d[k] = (4 * d2 - d1) / 3  # Richardson: the h^2 term of the central difference removed
-                e[k] = abs(d1 - d2) + 4 * n2 / 3 + n1 / 3
+        why = _same_pieces(section, plus) or _same_pieces(section, minus)
+        V = None
+        if differences:
+            why = "asked for"
+        elif moving:
+            why = "the regions move with the shape's parameters"
+        elif not why:
+            V, why = loaded_velocity(section, problem.mesh, region, plus, minus, 2 * step,
+                                     (interface_velocity or {}).get(name))
+        if V is None:
+            why_not[name] = why
+        else:
+            velocities[name] = V
+    if velocities:
+        derivs.update(_shape_derivatives(problem, finals[1], finals[0], finals[2], nominal, velocities, values))
+        method.update({name: SHAPE_DERIVATIVE for name in velocities})
+
+    # the rest: central differences of whole solves at p +- h and p +- h / 2
+    for name, why in why_not.items():
+        got = _difference(shape, values, name, regions, nominal, section, accuracy, options)
+        if isinstance(got, str):
+            skipped[name] = got
+            continue
+        d, e, kinks, h = got
         derivs[name] = (d, e)
-        method[name] = DIFFERENCE.format(h) + (f"; {', '.join(kinks)}: the slopes on the two sides differ (a kink, "
-                                                "e.g. a region meeting the wall): their mean, with their whole "
-                                                "difference in the error" if kinks else "")
+        method[name] = (DIFFERENCE.format(h) + f" ({why})" +
+                        (f"; {', '.join(kinks)}: the slopes on the two sides differ (a kink, e.g. a region "
+                         "meeting the wall): their mean, with their whole difference in the error" if kinks else ""))
     return dict(dfc={k: v[0] for k, v in derivs.items()}, dfc_error={k: v[1] for k, v in derivs.items()},
                 modes=tuple(nominal), labels=tuple(m.label for m in nominal),
                 fc=np.array([m.fc for m in nominal]), fc_error=np.array([m.fc_error for m in nominal]),

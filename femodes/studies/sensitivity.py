@@ -68,7 +68,6 @@ from scipy.sparse.linalg import splu
 from femodes.api import solve
 from femodes.constants import C0
 from femodes.errors import FemodesError
-from femodes.geometry.loops import Arc, Line
 from femodes.geometry.section import Section
 from femodes.geometry.walls import magnetic_lines
 from femodes.modes.model import ModeSet
@@ -77,6 +76,7 @@ from femodes.solvers.eigen import lowest_eigenpairs, restrict, single_thread
 from femodes.solvers.scalar import _cut_dofs
 from femodes.studies.loaded_sensitivity import loaded_sensitivities
 from femodes.studies.sweeps import _regions
+from femodes.studies.velocity import _boundary_velocity, _locate_on_outline, _same_pieces
 
 __all__ = ["sensitivity", "Sensitivity", "DISCRETE_PARAMETERS"]
 
@@ -163,10 +163,12 @@ def sensitivity(shape, parameters, *, modes=6, accuracy=1e-6, regions=None, only
     "mu_r", "tan_delta"}): the guide is solved full-vector and the sensitivities are those of
     :mod:`femodes.studies.loaded_sensitivity`: to each region's ``region.NAME.eps_r`` and
     ``region.NAME.mu_r`` and the fill's ``eps_r``, ``mu_r`` by first-order perturbation, to the
-    shape's parameters by central differences of whole solves (``.method`` says which).
+    shape's parameters by the shape derivative on the nominal mesh with the regions held where
+    they are placed, or, where a region's edge lies on a wall that moves with the parameter (a
+    kink), by central differences of whole solves (``.method`` says which).
 
     ``only``: the names of the parameters to differentiate (default: all); a loaded guide's
-    shape parameters cost four solves each, so :func:`femodes.tolerance` asks for its own only.
+    shape parameter at a kink costs four solves, so :func:`femodes.tolerance` asks for its own only.
     A homogeneously filled guide gives the fill's ``eps_r`` and ``mu_r`` too when ``only`` names
     them (d fc / d eps_r = -fc / (2 eps_r), exact), so that a tolerance may be a material's.
 
@@ -328,66 +330,6 @@ def _check_inputs(shape, parameters):
             raise FemodesError(f"parameter {k!r} of {_name(shape)} must be a number in SI units (metres, radians), "
                                f"got {v!r}")
     return values, names
-
-
-def _same_pieces(a, b):
-    """'' if sections a and b have the same loops made of the same kinds of segments, else why not."""
-    if len(a.loops) != len(b.loops):
-        return "changes the number of walls"
-    for la, lb in zip(a.loops, b.loops):
-        if len(la.segments) != len(lb.segments) or any(type(x) is not type(y) for x, y in zip(la.segments, lb.segments)):
-            return "changes the pieces of the outline (e.g. a fillet appears)"
-    return ""
-
-
-def _locate_on_outline(section, pts):
-    """For boundary points (2, n): (loop index, segment index, parametric position s in [0, 1])
-    of the nearest outline segment, and the distance to it."""
-    n = pts.shape[1]
-    best = np.full(n, np.inf)
-    where = np.zeros((2, n), dtype=np.int64)
-    pos = np.zeros(n)
-    for li, loop in enumerate(section.loops):
-        for si, seg in enumerate(loop.segments):
-            s = _parameter_on(seg, pts)
-            d = np.linalg.norm(seg.point(s) - pts, axis=0)
-            better = d < best
-            best[better] = d[better]
-            where[0, better], where[1, better] = li, si
-            pos[better] = s[better]
-    return where, pos, best
-
-
-def _parameter_on(seg, pts):
-    """Parametric position s in [0, 1] of the point of segment ``seg`` nearest to each of pts."""
-    if isinstance(seg, Line):
-        a, b = np.asarray(seg.start)[:, None], np.asarray(seg.end)[:, None]
-        d = b - a
-        return np.clip(np.sum((pts - a) * d, axis=0) / float(np.sum(d * d)), 0.0, 1.0)
-    if not isinstance(seg, Arc):
-        raise TypeError(type(seg))
-    c, s = math.cos(seg.rotation), math.sin(seg.rotation)
-    dx, dy = pts[0] - seg.center[0], pts[1] - seg.center[1]
-    t = np.arctan2((-s * dx + c * dy) / seg.ry, (c * dx + s * dy) / seg.rx)
-    sweep = seg.t1 - seg.t0
-    dt = np.mod((t - seg.t0) * math.copysign(1.0, sweep), 2 * math.pi)
-    out = dt / abs(sweep)
-    beyond = out > 1.0
-    # past the end: the nearer end, measured round the ellipse's parameter
-    back = (2 * math.pi - dt) / abs(sweep)
-    out[beyond] = np.where(back[beyond] < out[beyond] - 1.0, 0.0, 1.0)
-    return out
-
-
-def _boundary_velocity(where, pos, plus, minus, step):
-    """V = (x+(s) - x-(s)) / step at the located boundary points (2, n)."""
-    V = np.zeros((2, pos.size))
-    for li, (lp, lm) in enumerate(zip(plus.loops, minus.loops)):
-        for si, (sp, sm) in enumerate(zip(lp.segments, lm.segments)):
-            sel = (where[0] == li) & (where[1] == si)
-            if np.any(sel):
-                V[:, sel] = (sp.point(pos[sel]) - sm.point(pos[sel])) / step
-    return V
 
 
 def _derivatives(ms, section, moved, q, given=None):
