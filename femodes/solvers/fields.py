@@ -136,17 +136,61 @@ def _locate(basis, pts):
     cells, ref, best = locate_straight(p, mesh.t, pts, 10, cache["tree"])
     cells[best < -0.25] = -1
     if type(mesh).__name__ != "MeshTri1":
+        # only curved cells need the isoparametric inverse: on a cell whose map is affine the
+        # straight-sided coordinates are exact (most cells of a curved mesh: only those along arcs bend)
+        if "curved" not in cache:
+            cache["curved"] = _curved_cells(basis.mapping, p, mesh.t)
         ok = np.flatnonzero(cells >= 0)
+        ok = ok[cache["curved"][cells[ok]]]
         if ok.size:
-            try:
-                ref[:, ok] = basis.mapping.invF(pts[:, ok][:, :, None], tind=cells[ok])[:, :, 0]
-            except Exception:  # Newton did not converge somewhere: keep straight-sided coordinates
-                pass
+            ref[:, ok] = _inverse_map(basis.mapping, pts[:, ok], cells[ok], ref[:, ok])
     inside = best >= -1e-9
     # accept sliver points only if the curved map brings them inside the reference triangle
     in_ref = (ref[0] >= -1e-9) & (ref[1] >= -1e-9) & (ref[0] + ref[1] <= 1 + 1e-9)
     cells[~(inside | in_ref)] = -1
     return cells, ref
+
+
+def _inverse_map(mapping, x, tind, start, iterations=12, tol=1e-12):
+    """Reference coordinates of the points ``x`` (2, n) in the cells ``tind`` of an isoparametric
+    mapping: Newton's method from the straight-sided coordinates ``start`` (close: the cells bend
+    only slightly), with the map's Jacobian uncached (scikit-fem's ``invF`` caches every iterate's
+    Jacobian and starts from the centroid).  A point whose iteration does not settle keeps its
+    straight-sided coordinates."""
+    X = np.array(start, dtype=float)[:, :, None]
+    xx = x[:, :, None]
+    done = False
+    for _ in range(iterations):
+        F = np.array([mapping.Fmap(i, X, tind) for i in range(2)])
+        J = [[mapping._J(i, j, X, tind) for j in range(2)] for i in range(2)]
+        det = J[0][0] * J[1][1] - J[0][1] * J[1][0]
+        r = xx - F
+        with np.errstate(divide="ignore", invalid="ignore"):
+            d0 = (J[1][1] * r[0] - J[0][1] * r[1]) / det
+            d1 = (-J[1][0] * r[0] + J[0][0] * r[1]) / det
+        X[0] += d0
+        X[1] += d1
+        step = np.abs(d0[:, 0]) + np.abs(d1[:, 0])
+        if np.all(step < tol):
+            done = True
+            break
+    out = X[:, :, 0]
+    if not done:
+        bad = ~(step < 1e-9) | ~np.all(np.isfinite(out), axis=0)
+        out[:, bad] = np.asarray(start)[:, bad]
+    return out
+
+
+def _curved_cells(mapping, p, t):
+    """Mask of the cells whose isoparametric map is not affine: the map sampled at the 15 nodes of
+    the quartic lattice (unisolvent for the polynomials of degree <= 4, the highest geometry order)
+    against the affine map of the cell's vertices; equal at all of them means equal everywhere."""
+    k = np.array([(i, j) for i in range(5) for j in range(5 - i)], dtype=float).T / 4.0  # (2, 15)
+    xy = np.asarray(mapping.F(k))  # (2, nt, 15)
+    v = p[:, t]  # (2, 3, nt)
+    aff = v[:, 0, :, None] + (v[:, 1] - v[:, 0])[:, :, None] * k[0] + (v[:, 2] - v[:, 0])[:, :, None] * k[1]
+    scale = float(np.max(np.ptp(p, axis=1))) if p.size else 1.0
+    return np.max(np.abs(xy - aff), axis=(0, 2)) > 1e-12 * scale
 
 
 def _transverse(family, kc, field, gx, gy):
