@@ -74,10 +74,14 @@ class ModeField:
         return val, gx, gy
 
 
-def interpolation_matrices(basis, points):
+def interpolation_matrices(basis, points, gradients=True):
     """Sparse matrices giving psi, d psi/dx, d psi/dy at points (2, n) from a coefficient vector,
-    and a mask of the points found inside the mesh (rows of the others are zero)."""
+    and a mask of the points found inside the mesh (rows of the others are zero).  With
+    ``gradients=False`` the two gradient matrices are None: the values of a Lagrange (H1) basis
+    function at a point are those of the reference function at its reference coordinates, so the
+    geometry map is not evaluated at all."""
     from scipy.sparse import coo_matrix
+    from skfem.element import ElementH1
 
     pts = np.asarray(points, dtype=float).reshape(2, -1)
     cells, ref = _locate(basis, pts)
@@ -86,6 +90,15 @@ def interpolation_matrices(basis, points):
     c_ok = cells[ok]
     r = ref[:, ok][:, :, None]
     rows, cols, vals, dxs, dys = [], [], [], [], []
+    shape = (pts.shape[1], basis.N)
+    if not gradients and isinstance(basis.elem, ElementH1):
+        r2 = ref[:, ok]
+        for k in range(basis.Nbfun):
+            rows.append(idx)
+            cols.append(basis.element_dofs[k, c_ok])
+            vals.append(np.asarray(basis.elem.lbasis(r2, k)[0]))
+        P = coo_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=shape).tocsr()
+        return P, None, None, ok
     for k in range(basis.Nbfun):
         phi = basis.elem.gbasis(basis.mapping, r, k, tind=c_ok)[0]
         rows.append(idx)
@@ -94,7 +107,6 @@ def interpolation_matrices(basis, points):
         dxs.append(phi.grad[0][:, 0])
         dys.append(phi.grad[1][:, 0])
     rows, cols = np.concatenate(rows), np.concatenate(cols)
-    shape = (pts.shape[1], basis.N)
     mats = [coo_matrix((np.concatenate(v), (rows, cols)), shape=shape).tocsr() for v in (vals, dxs, dys)]
     return mats[0], mats[1], mats[2], ok
 
@@ -160,9 +172,17 @@ def _inverse_map(mapping, x, tind, start, iterations=12, tol=1e-12):
     X = np.array(start, dtype=float)[:, :, None]
     xx = x[:, :, None]
     done = False
+    p = mapping.mesh.doflocs
+    t = mapping.mesh.dofs.element_dofs[:, tind]
     for _ in range(iterations):
-        F = np.array([mapping.Fmap(i, X, tind) for i in range(2)])
-        J = [[mapping._J(i, j, X, tind) for j in range(2)] for i in range(2)]
+        # the map and its Jacobian in one pass over the geometry's basis functions
+        F = np.zeros((2,) + X.shape[1:])
+        J = np.zeros((2, 2) + X.shape[1:])
+        for k in range(t.shape[0]):
+            phi, dphi = mapping.elem.lbasis(X, k)
+            node = p[:, t[k]][:, :, None]
+            F += node * phi
+            J += node[:, None] * np.asarray(dphi)[None]
         det = J[0][0] * J[1][1] - J[0][1] * J[1][0]
         r = xx - F
         with np.errstate(divide="ignore", invalid="ignore"):

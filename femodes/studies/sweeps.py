@@ -43,6 +43,7 @@ from femodes.atomic import replacing
 from femodes.errors import FemodesError
 from femodes.modes.display import _param_text, _param_unit, fixed_text, html_block, html_table, sweep_columns
 from femodes.quantities import DRY_AIR_BREAKDOWN
+from femodes.solvers.scalar import DEFAULT_ORDER
 from femodes.studies.pointwise import POINT_QUANTITIES, UNITS, homogeneous_partner, quantities_at
 from femodes.studies.store import SweepStore
 from femodes.studies.tracking import class_signature, follow
@@ -468,13 +469,41 @@ def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
     return out
 
 
+#: a point's estimated error the next point's first mesh pair aims at, as a fraction of the accuracy
+#: (the loop refines once more when a point misses the accuracy: a step costs more than the margin)
+SIZE_TARGET = 0.5
+#: the most the element size may grow from one point to the next
+SIZE_GROWTH = 1.5
+
+
+def next_size(result, accuracy, order=None):
+    """The element size the next point's accuracy loop starts from: the final size ``h`` of this
+    point scaled so that its estimated error (the largest fc_error / fc) would come out at
+    SIZE_TARGET x ``accuracy``.  The relative error falls like h^q with q <= 2p (order p), so
+    growing h by (target / estimate)^(1 / 2p) cannot overshoot the target if the next point
+    behaves like this one; shrinking uses q = p (slower than any rate the meshes show here, so
+    the shrink is ample).  The point's own accuracy loop and error estimate decide the rest: this
+    only chooses where that loop starts.  None without a size (loaded guides, invalid points)."""
+    h = result.get("mesh_size")
+    if not h:
+        return None
+    rel = [e / f for f, e in zip(result["fc"], result["fc_error"]) if f > 0 and math.isfinite(e)]
+    worst = max(rel, default=0.0)
+    if not worst > 0:
+        return float(h)
+    p = DEFAULT_ORDER if order is None else int(order)
+    ratio = SIZE_TARGET * accuracy / worst
+    g = min(SIZE_GROWTH, ratio ** (1.0 / (2 * p))) if ratio >= 1 else max(0.5, ratio ** (1.0 / p))
+    return float(h) * g
+
+
 def solve_points(shape, fixed, points, modes, accuracy, options):
     """Solve neighbouring points in order (in one worker), each starting its accuracy loop from
-    the element size that met the accuracy at the previous one.  Returns the result dicts."""
+    the element size the previous one suggests (:func:`next_size`).  Returns the result dicts."""
     out, size = [], None
     for point in points:
         r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
-        size = r["mesh_size"] or size
+        size = next_size(r, accuracy, options.get("order")) or size
         out.append(r)
     return out
 
@@ -609,7 +638,7 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
         size = None
         for p, point in zip(todo, kwargs(todo)):
             r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
-            size = r["mesh_size"] or size
+            size = next_size(r, accuracy, options.get("order")) or size
             yield p, r
         return
     # separate processes started afresh (spawn): gmsh and the BLAS pools are per process; one run of
