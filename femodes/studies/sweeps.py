@@ -82,6 +82,13 @@ class SweepResult:
     computed: int
     frequency: float | None = None
 
+    @property
+    def modes_shown(self):
+        """Modes per point in the tables and the Dataset: the count asked, or more where a point
+        returned more (a solve completes a degenerate group the count cuts: a circle's pairs, a
+        rectangle's TE_mn / TM_mn); a point with fewer leaves NaN / empty."""
+        return max([self.modes] + [len(r["fc"]) for r in self.points.values()])
+
     # -- display -----------------------------------------------------------------------------------
     def __repr__(self):
         bad = sum(1 for r in self.points.values() if r["status"] != "ok")
@@ -106,7 +113,7 @@ class SweepResult:
 
     def to_xarray(self):
         """An xarray Dataset on the dimensions (the varied names in the order given, then
-        ``mode``, numbered 1.. in cutoff order at each point): ``fc`` and ``fc_error`` (Hz),
+        ``mode``, numbered 1.. in cutoff order at each point, :attr:`modes_shown` of them): ``fc`` and ``fc_error`` (Hz),
         ``label`` and ``family`` of each mode, ``curve`` (the followed mode identity, 1..; 0 where
         a point has no such mode; followed along the first varied parameter, see
         :mod:`femodes.studies.tracking`) and ``ambiguous`` (the assignment not decided within the
@@ -117,7 +124,7 @@ class SweepResult:
         import xarray as xr
 
         shape = tuple(len(v) for v in self.values)
-        n = self.modes
+        n = self.modes_shown
         fc = np.full(shape + (n,), np.nan)
         err = np.full(shape + (n,), np.nan)
         label = np.full(shape + (n,), "", dtype=object)
@@ -166,7 +173,7 @@ class SweepResult:
         """The quantities at the analysis frequency (see :class:`SweepResult`), where computed."""
         if not any("at_frequency" in r for r in self.points.values()):
             return
-        n = self.modes
+        n = self.modes_shown
         dims = self.names + ("mode",)
         arrays = {q: np.full(shape + (n,), np.nan) for q in POINT_QUANTITIES + tuple(q + "_error" for q in POINT_QUANTITIES)}
         at_label = np.full(shape + (n,), "", dtype=object)
@@ -228,8 +235,8 @@ class SweepResult:
         with the followed ``curve`` of each mode and whether its assignment is ``ambiguous``."""
         out = []
         ds = self.to_xarray()
-        curve = ds.curve.values.reshape(-1, self.modes)
-        amb = ds.ambiguous.values.reshape(-1, self.modes)
+        curve = ds.curve.values.reshape(-1, self.modes_shown)
+        amb = ds.ambiguous.values.reshape(-1, self.modes_shown)
         for j, p in enumerate(itertools.product(*self.values)):
             r = self.points[tuple(float(v) for v in p)]
             band = r["band"] or [math.nan, math.nan]
