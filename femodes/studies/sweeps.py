@@ -8,9 +8,17 @@ point's parameters, so its numbers carry the same error estimates as a single so
 
 * Points run in parallel: on the local cores by default (separate processes: gmsh is not thread
   safe), or on a dask.distributed cluster when ``scheduler`` names one (an address or a Client),
-  in runs of neighbouring points: each point starts its accuracy loop from the element size that
-  met the accuracy at its neighbour (``femodes.solve(start_size=...)``), which saves most of the
-  refinement steps; its estimate and stopping rule are those of an independent solve.
+  in runs of neighbouring points: each point starts its accuracy loop from an element size its
+  neighbour suggests (``femodes.solve(start_size=...)``, :func:`next_size`: the neighbour's final
+  size scaled so that its error estimate would come out at half the accuracy), which saves the
+  refinement steps and the overshoot of an independent solve's last step; its three meshes, its
+  estimate and its stopping rule are those of an independent solve.  Measured
+  (``benchmarks/bench_sweep.py``, 21-point gap sweep of the double ridge, 6 modes at 1e-6, busy
+  2-core machine): a sweep point costs 0.3-0.4 of an independent solve (it was 0.74 when each
+  point started at its neighbour's final size: the close pair (1.35 h, h) there estimated 5-16x
+  below the accuracy); independent solve 2.1 s (5 meshes, the last up to 137k unknowns) against
+  0.8 s (3 meshes of 4-12k unknowns: mesh 0.15 s, assembly 0.05, eigen 0.36, labels 0.18).  With
+  an analysis frequency the size is passed on unchanged (see :func:`next_size`).
 * With ``store`` (a file name) each finished point is written to disk at once
   (:class:`femodes.studies.store.SweepStore`): an interrupted sweep loses at most the points in
   flight, and the same sweep run again computes only the missing points (``reused`` and
@@ -511,10 +519,11 @@ def next_size(result, accuracy, order=None):
     return float(h) * g
 
 
-def solve_points(shape, fixed, points, modes, accuracy, options):
+def solve_points(shape, fixed, points, modes, accuracy, options, start_size=None):
     """Solve neighbouring points in order (in one worker), each starting its accuracy loop from
-    the element size the previous one suggests (:func:`next_size`).  Returns the result dicts."""
-    out, size = [], None
+    the element size the previous one suggests (:func:`next_size`; the first from ``start_size``
+    where given).  Returns the result dicts."""
+    out, size = [], start_size
     for point in points:
         r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
         size = next_size(r, accuracy, options.get("order")) or size
@@ -658,9 +667,12 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
     # separate processes started afresh (spawn): gmsh and the BLAS pools are per process; one run of
     # neighbouring points per worker (more runs cost a cold start each: measured 1.27x against
     # 1.4x on two workers for the 21-point benchmark)
-    blocks = _blocks(todo, n)
     with ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("spawn")) as pool:
-        futures = {pool.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options): b for b in blocks}
+        for _ in range(n):  # the workers start and import femodes while the first point is solved here
+            pool.submit(_ready)
+        runs, first = yield from _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n)
+        futures = {pool.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, first): b
+                   for b in runs}
         try:
             for fut in as_completed(futures):
                 yield from zip(futures[fut], fut.result())
@@ -668,6 +680,24 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
             for fut in futures:
                 fut.cancel()
             raise
+
+
+def _ready():
+    """Nothing: a first task that makes a worker start (and import femodes) early."""
+    return os.getpid()
+
+
+def _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n):
+    """Solve here the point where the second run of ``todo`` begins (a cold start: the full
+    accuracy loop of an independent solve) and yield it; returns (runs, start size): the points
+    before it backwards (they start next to it), the points after it in ``n - 1`` runs, and the
+    element size every run starts from (:func:`next_size`).  Without it each worker paid a cold
+    start of its own (2.6x a warm point in the 21-point benchmark)."""
+    k = min(len(_blocks(todo, n)[0]), len(todo) - 1) if n > 1 else 0
+    r = solve_point(shape, fixed, kwargs([todo[k]])[0], modes, accuracy, options)
+    yield todo[k], r
+    runs = ([todo[:k][::-1]] if k else []) + (_blocks(todo[k + 1:], max(1, n - 1)) if k + 1 < len(todo) else [])
+    return runs, next_size(r, accuracy, options.get("order"))
 
 
 def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
@@ -681,9 +711,9 @@ def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
     client = Client(scheduler) if own else scheduler
     try:
         n = max(1, len(client.scheduler_info().get("workers", {})))
-        blocks = _blocks(todo, n)
-        futures = {client.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, pure=False): b
-                   for b in blocks}
+        runs, first = yield from _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n)
+        futures = {client.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, first, pure=False): b
+                   for b in runs}
         for fut in dask_completed(list(futures)):
             yield from zip(futures[fut], fut.result())
     finally:
