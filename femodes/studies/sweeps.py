@@ -14,14 +14,15 @@ point's parameters, so its numbers carry the same error estimates as a single so
   refinement steps and the overshoot of an independent solve's last step; its three meshes, its
   estimate and its stopping rule are those of an independent solve.  Measured
   (``benchmarks/bench_sweep.py``, 21-point gap sweep of the double ridge, 6 modes at 1e-6, busy
-  2-core machine): a sweep point costs 0.37-0.42 of an independent solve (it was 0.74 when each
+  2-core machine): a sweep point costs 0.37-0.44 of an independent solve (it was 0.74 when each
   point started at its neighbour's final size: the close pair (1.35 h, h) there estimated 5-16x
   below the accuracy); independent solve 2.1 s (5 meshes, the last up to 137k unknowns) against
   0.8 s (3 meshes of 4-12k unknowns: mesh 0.15 s, assembly 0.05, eigen 0.36, labels 0.18).  With
   an analysis frequency the size is passed on unchanged (see :func:`next_size`).  On several
   workers the point where the second run begins is solved first, here, while the workers start;
-  the run before it goes backwards from it and every run starts from its suggestion (one cold
-  start in all instead of one per worker).  What is not shared, by measurement: the third,
+  the run before it goes backwards from it (in this process), the others forward in n - 1
+  spawned workers, and every run starts from its suggestion (one cold start in all instead of
+  one per worker; two workers 1.48-1.72x one worker).  What is not shared, by measurement: the third,
   coarsest mesh (about a tenth of a point; it gives the point its own observed rates and the
   guard against two meshes agreeing by chance, which a neighbour's history could only imitate),
   moved meshes instead of gmsh (meshing is under a fifth of a point).
