@@ -235,3 +235,52 @@ def test_sweep_command_without_a_sweep_table(tmp_path, capsys):
     case.write_text(SWEEP_CASE.split("[sweep]")[0], encoding="utf-8")
     code, out, err = _run(capsys, "sweep", str(case))
     assert code == 2 and "no [sweep] table" in err
+
+
+def _rect_te_tm(a, b, count):
+    """TE_mn (m + n > 0) and TM_mn (m, n >= 1) cutoffs of an a x b rectangle, both families
+    (Pozar sec. 3.3)."""
+    fcs = [C0 / 2 * math.hypot(m / a, n / b) * k for m in range(6) for n in range(6)
+           for k in ((1, 1) if m and n else (1,) if m + n else ())]
+    return np.array(sorted(fcs)[:count])
+
+
+def _circle_fc(r, count):
+    """Cutoffs of a circular guide of radius r: TE_nm at j'_nm c / (2 pi r), TM_nm at
+    j_nm c / (2 pi r), each n >= 1 twice (cos / sin) (Pozar sec. 3.4; zeros from scipy.special)."""
+    from scipy.special import jn_zeros, jnp_zeros
+
+    fcs = []
+    for n in range(8):
+        for x in list(jnp_zeros(n, 4)) + list(jn_zeros(n, 4)):
+            fcs += [C0 * x / (2 * math.pi * r)] * (1 if n == 0 else 2)
+    return np.array(sorted(fcs)[:count])
+
+
+@pytest.mark.parametrize("shape, fixed, name, values, exact", [
+    # rectangle width (Pozar sec. 3.3), straight meshes: the rate is certain
+    (fm.rectangle, {"height": 10e-3}, "width", [21e-3, 21.5e-3, 22e-3, 22.5e-3, 23e-3],
+     lambda a, k: _rect_te_tm(a, 10e-3, k)),
+    # circle radius (Pozar sec. 3.4), curved meshes: the error estimate uses the observed rates
+    (fm.circle, {}, "radius", [5e-3, 5.2e-3, 5.4e-3, 5.6e-3], lambda r, k: _circle_fc(r, k)),
+])
+def test_every_sweep_point_bounds_its_error(shape, fixed, name, values, exact):
+    """Sweep points start from the size their neighbour suggests (studies.sweeps.next_size):
+    every point's fc_error must still bound the true error and meet the asked accuracy, and a
+    sweep point agree with an independent solve of the same guide within the two error bars."""
+    acc = 1e-6
+    r = fm.sweep(shape, fixed, {name: values}, modes=6, accuracy=acc, workers=1, progress=False)
+    ds = r.to_xarray()
+    for i, v in enumerate(values):
+        # a point returns more than the count where that completes a degenerate group
+        got, err = ds.fc.values[i], ds.fc_error.values[i]
+        got, err = got[np.isfinite(got)], err[np.isfinite(got)]
+        assert len(got) >= 6
+        want = exact(v, len(got))
+        assert np.all(np.abs(got - want) <= err), (v, np.abs(got - want) / err)
+        assert np.all(err <= acc * want) and np.all(np.abs(got - want) <= acc * want)
+    # the last point started from its neighbour's suggestion: against an independent solve
+    ms = fm.solve(shape(**fixed, **{name: values[-1]}), modes=6, accuracy=acc)
+    ind, ind_err = np.array([m.fc for m in ms]), np.array([m.fc_error for m in ms])
+    k = min(len(ind), np.count_nonzero(np.isfinite(ds.fc.values[-1])))
+    assert np.all(np.abs(ds.fc.values[-1][:k] - ind[:k]) <= ds.fc_error.values[-1][:k] + ind_err[:k])

@@ -327,17 +327,18 @@ def sweep_columns(result, labels=None, length=MM):
     shown in, (name, metres per unit)."""
     labels = labels or {}
     head = [f"{labels.get(n, n)} [{_param_unit(n, length)}]" for n in result.names]
-    head += [f"fc{k + 1} [GHz]" for k in range(result.modes)] + ["single-mode band [GHz]", "ratio"]
+    width = getattr(result, "modes_shown", result.modes)  # a point may return a degenerate group whole
+    head += [f"fc{k + 1} [GHz]" for k in range(width)] + ["single-mode band [GHz]", "ratio"]
     rows, notes = [], []
     for key in sorted(result.points):
         r = result.points[key]
         row = [_param_text(n, v, length) for n, v in zip(result.names, key)]
         if r["status"] != "ok":
-            row += ["-"] * result.modes + ["invalid", "-"]
+            row += ["-"] * width + ["invalid", "-"]
             notes.append(f"{', '.join(row[:len(result.names)])}: {r['message']}")
         else:
             fcs = [format_ghz(f, e) for f, e in zip(r["fc"], r["fc_error"])]
-            row += fcs + ["-"] * (result.modes - len(fcs))
+            row += fcs + ["-"] * (width - len(fcs))
             band = r["band"]
             if band is None:
                 row += ["-", "-"]

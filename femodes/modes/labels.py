@@ -121,7 +121,7 @@ class _Analyser:
                 loc = np.array([-loc[0], loc[1]])
             else:
                 loc = np.array([loc[0], -loc[1]])
-            Pm, _, _, ok = interpolation_matrices(self.basis, self._to_global(loc))
+            Pm, _, _, ok = interpolation_matrices(self.basis, self._to_global(loc), gradients=False)
             self._mirror[axis] = (Pm, ok)
         Pm, ok = self._mirror[axis]
         w = self._w * ok
@@ -155,7 +155,7 @@ class _Analyser:
             if op.kind == "turn" and op.angle == 0.0:
                 self._moved[k] = (P, np.ones(P.shape[0], dtype=bool))
             else:
-                Pm, _, _, ok = interpolation_matrices(self.basis, self.group.apply(op, self._xy))
+                Pm, _, _, ok = interpolation_matrices(self.basis, self.group.apply(op, self._xy), gradients=False)
                 self._moved[k] = (Pm, ok)
         Pm, ok = self._moved[k]
         PX = P @ X
@@ -228,7 +228,7 @@ class _Analyser:
         phis = np.linspace(0, 2 * np.pi, nphi, endpoint=False)
         radii = np.linspace(r_lo, r_hi, 5)
         pts = np.array([[center[0] + r * np.cos(p), center[1] + r * np.sin(p)] for r in radii for p in phis]).T
-        P, _, _, ok = interpolation_matrices(self.basis, pts)
+        P, _, _, ok = interpolation_matrices(self.basis, pts, gradients=False)
         v = (P @ x).reshape(len(radii), nphi)
         spec = np.sum(np.abs(np.fft.rfft(v, axis=1)) ** 2, axis=0)
         return int(np.argmax(spec))
@@ -250,7 +250,7 @@ class _Analyser:
             gx = lo[0] + (np.arange(nx) + 0.5) * span[0] / nx
             gy = lo[1] + (np.arange(ny) + 0.5) * span[1] / ny
             X, Y = np.meshgrid(gx, gy, indexing="ij")
-            P, _, _, ok = interpolation_matrices(self.basis, np.array([X.ravel(), Y.ravel()]))
+            P, _, _, ok = interpolation_matrices(self.basis, np.array([X.ravel(), Y.ravel()]), gradients=False)
             self._grid = (P, ok.reshape(nx, ny))
         P, inside = self._grid
         v = (P @ x).reshape(inside.shape)

@@ -12,7 +12,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from femodes.geometry.locate import locate_straight
-from femodes.solvers.discretise import _affine
 
 
 @dataclass(frozen=True, eq=False)
@@ -75,10 +74,14 @@ class ModeField:
         return val, gx, gy
 
 
-def interpolation_matrices(basis, points):
+def interpolation_matrices(basis, points, gradients=True):
     """Sparse matrices giving psi, d psi/dx, d psi/dy at points (2, n) from a coefficient vector,
-    and a mask of the points found inside the mesh (rows of the others are zero)."""
+    and a mask of the points found inside the mesh (rows of the others are zero).  With
+    ``gradients=False`` the two gradient matrices are None: the values of a Lagrange (H1) basis
+    function at a point are those of the reference function at its reference coordinates, so the
+    geometry map is not evaluated at all."""
     from scipy.sparse import coo_matrix
+    from skfem.element import ElementH1
 
     pts = np.asarray(points, dtype=float).reshape(2, -1)
     cells, ref = _locate(basis, pts)
@@ -87,6 +90,15 @@ def interpolation_matrices(basis, points):
     c_ok = cells[ok]
     r = ref[:, ok][:, :, None]
     rows, cols, vals, dxs, dys = [], [], [], [], []
+    shape = (pts.shape[1], basis.N)
+    if not gradients and isinstance(basis.elem, ElementH1):
+        r2 = ref[:, ok]
+        for k in range(basis.Nbfun):
+            rows.append(idx)
+            cols.append(basis.element_dofs[k, c_ok])
+            vals.append(np.asarray(basis.elem.lbasis(r2, k)[0]))
+        P = coo_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=shape).tocsr()
+        return P, None, None, ok
     # straight cells through the affine map of their vertices (exact there, and far cheaper than
     # the isoparametric map's Jacobian from the P3 / P4 geometry basis), curved ones isoparametric
     groups = [(np.arange(idx.size), basis.mapping)]
@@ -98,7 +110,7 @@ def interpolation_matrices(basis, points):
             mesh = basis.mesh
             cache["affine"] = MeshTri1(np.ascontiguousarray(mesh.doflocs[:, : mesh.t.max() + 1]),
                                        np.ascontiguousarray(mesh.t)).mapping()
-        st = cache["straight"][c_ok]
+        st = ~cache["curved"][c_ok]
         groups = [(np.flatnonzero(st), cache["affine"]), (np.flatnonzero(~st), basis.mapping)]
     for sel, mapping in groups:
         if not sel.size:
@@ -111,7 +123,6 @@ def interpolation_matrices(basis, points):
             dxs.append(phi.grad[0][:, 0])
             dys.append(phi.grad[1][:, 0])
     rows, cols = np.concatenate(rows), np.concatenate(cols)
-    shape = (pts.shape[1], basis.N)
     mats = [coo_matrix((np.concatenate(v), (rows, cols)), shape=shape).tocsr() for v in (vals, dxs, dys)]
     return mats[0], mats[1], mats[2], ok
 
@@ -152,24 +163,70 @@ def _locate(basis, pts):
         cache["tree"] = cKDTree(np.mean(p[:, mesh.t], axis=1).T)
     cells, ref, best = locate_straight(p, mesh.t, pts, 10, cache["tree"])
     cells[best < -0.25] = -1
-    if type(mesh).__name__ != "MeshTri1" and "straight" not in cache:
-        cache["straight"] = _affine(mesh)[1]
     if type(mesh).__name__ != "MeshTri1":
-        # the isoparametric inverse map only on cells with a curved edge: on the others (nearly
-        # all) the straight-sided coordinates are exact (Newton on every cell of a P4 mesh was
-        # 5.5 s of the example's 20 s, most of it in the nodal-region count)
+        # only curved cells need the isoparametric inverse: on a cell whose map is affine the
+        # straight-sided coordinates are exact (most cells of a curved mesh: only those along arcs bend)
+        if "curved" not in cache:
+            cache["curved"] = _curved_cells(basis.mapping, p, mesh.t)
         ok = np.flatnonzero(cells >= 0)
-        ok = ok[~cache["straight"][cells[ok]]]
+        ok = ok[cache["curved"][cells[ok]]]
         if ok.size:
-            try:
-                ref[:, ok] = basis.mapping.invF(pts[:, ok][:, :, None], tind=cells[ok])[:, :, 0]
-            except Exception:  # Newton did not converge somewhere: keep straight-sided coordinates
-                pass
+            ref[:, ok] = _inverse_map(basis.mapping, pts[:, ok], cells[ok], ref[:, ok])
     inside = best >= -1e-9
     # accept sliver points only if the curved map brings them inside the reference triangle
     in_ref = (ref[0] >= -1e-9) & (ref[1] >= -1e-9) & (ref[0] + ref[1] <= 1 + 1e-9)
     cells[~(inside | in_ref)] = -1
     return cells, ref
+
+
+def _inverse_map(mapping, x, tind, start, iterations=12, tol=1e-12):
+    """Reference coordinates of the points ``x`` (2, n) in the cells ``tind`` of an isoparametric
+    mapping: Newton's method from the straight-sided coordinates ``start`` (close: the cells bend
+    only slightly), with the map's Jacobian uncached (scikit-fem's ``invF`` caches every iterate's
+    Jacobian and starts from the centroid).  A point whose iteration does not settle keeps its
+    straight-sided coordinates."""
+    X = np.array(start, dtype=float)[:, :, None]
+    xx = x[:, :, None]
+    done = False
+    p = mapping.mesh.doflocs
+    t = mapping.mesh.dofs.element_dofs[:, tind]
+    for _ in range(iterations):
+        # the map and its Jacobian in one pass over the geometry's basis functions
+        F = np.zeros((2,) + X.shape[1:])
+        J = np.zeros((2, 2) + X.shape[1:])
+        for k in range(t.shape[0]):
+            phi, dphi = mapping.elem.lbasis(X, k)
+            node = p[:, t[k]][:, :, None]
+            F += node * phi
+            J += node[:, None] * np.asarray(dphi)[None]
+        det = J[0][0] * J[1][1] - J[0][1] * J[1][0]
+        r = xx - F
+        with np.errstate(divide="ignore", invalid="ignore"):
+            d0 = (J[1][1] * r[0] - J[0][1] * r[1]) / det
+            d1 = (-J[1][0] * r[0] + J[0][0] * r[1]) / det
+        X[0] += d0
+        X[1] += d1
+        step = np.abs(d0[:, 0]) + np.abs(d1[:, 0])
+        if np.all(step < tol):
+            done = True
+            break
+    out = X[:, :, 0]
+    if not done:
+        bad = ~(step < 1e-9) | ~np.all(np.isfinite(out), axis=0)
+        out[:, bad] = np.asarray(start)[:, bad]
+    return out
+
+
+def _curved_cells(mapping, p, t):
+    """Mask of the cells whose isoparametric map is not affine: the map sampled at the 15 nodes of
+    the quartic lattice (unisolvent for the polynomials of degree <= 4, the highest geometry order)
+    against the affine map of the cell's vertices; equal at all of them means equal everywhere."""
+    k = np.array([(i, j) for i in range(5) for j in range(5 - i)], dtype=float).T / 4.0  # (2, 15)
+    xy = np.asarray(mapping.F(k))  # (2, nt, 15)
+    v = p[:, t]  # (2, 3, nt)
+    aff = v[:, 0, :, None] + (v[:, 1] - v[:, 0])[:, :, None] * k[0] + (v[:, 2] - v[:, 0])[:, :, None] * k[1]
+    scale = float(np.max(np.ptp(p, axis=1))) if p.size else 1.0
+    return np.max(np.abs(xy - aff), axis=(0, 2)) > 1e-12 * scale
 
 
 def _transverse(family, kc, field, gx, gy):

@@ -8,9 +8,24 @@ point's parameters, so its numbers carry the same error estimates as a single so
 
 * Points run in parallel: on the local cores by default (separate processes: gmsh is not thread
   safe), or on a dask.distributed cluster when ``scheduler`` names one (an address or a Client),
-  in runs of neighbouring points: each point starts its accuracy loop from the element size that
-  met the accuracy at its neighbour (``femodes.solve(start_size=...)``), which saves most of the
-  refinement steps; its estimate and stopping rule are those of an independent solve.
+  in runs of neighbouring points: each point starts its accuracy loop from an element size its
+  neighbour suggests (``femodes.solve(start_size=...)``, :func:`next_size`: the neighbour's final
+  size scaled so that its error estimate would come out at half the accuracy), which saves the
+  refinement steps and the overshoot of an independent solve's last step; its three meshes, its
+  estimate and its stopping rule are those of an independent solve.  Measured
+  (``benchmarks/bench_sweep.py``, 21-point gap sweep of the double ridge, 6 modes at 1e-6, busy
+  2-core machine): a sweep point costs 0.37-0.44 of an independent solve (it was 0.74 when each
+  point started at its neighbour's final size: the close pair (1.35 h, h) there estimated 5-16x
+  below the accuracy); independent solve 2.1 s (5 meshes, the last up to 137k unknowns) against
+  0.8 s (3 meshes of 4-12k unknowns: mesh 0.15 s, assembly 0.05, eigen 0.36, labels 0.18).  With
+  an analysis frequency the size is passed on unchanged (see :func:`next_size`).  On several
+  workers the point where the second run begins is solved first, here, while the workers start;
+  the run before it goes backwards from it (in this process), the others forward in n - 1
+  spawned workers, and every run starts from its suggestion (one cold start in all instead of
+  one per worker; two workers 1.48-1.72x one worker).  What is not shared, by measurement: the third,
+  coarsest mesh (about a tenth of a point; it gives the point its own observed rates and the
+  guard against two meshes agreeing by chance, which a neighbour's history could only imitate),
+  moved meshes instead of gmsh (meshing is under a fifth of a point).
 * With ``store`` (a file name) each finished point is written to disk at once
   (:class:`femodes.studies.store.SweepStore`): an interrupted sweep loses at most the points in
   flight, and the same sweep run again computes only the missing points (``reused`` and
@@ -45,6 +60,7 @@ from femodes.errors import FemodesError
 from femodes.geometry.section import Section
 from femodes.modes.display import _param_text, _param_unit, fixed_text, html_block, html_table, sweep_columns
 from femodes.quantities import DRY_AIR_BREAKDOWN
+from femodes.solvers.scalar import DEFAULT_ORDER
 from femodes.studies.loaded_sensitivity import RegionCallError, _build
 from femodes.studies.pointwise import POINT_QUANTITIES, UNITS, homogeneous_partner, quantities_at
 from femodes.studies.store import SweepStore
@@ -84,6 +100,13 @@ class SweepResult:
     computed: int
     frequency: float | None = None
 
+    @property
+    def modes_shown(self):
+        """Modes per point in the tables and the Dataset: the count asked, or more where a point
+        returned more (a solve completes a degenerate group the count cuts: a circle's pairs, a
+        rectangle's TE_mn / TM_mn); a point with fewer leaves NaN / empty."""
+        return max([self.modes] + [len(r["fc"]) for r in self.points.values()])
+
     # -- display -----------------------------------------------------------------------------------
     def __repr__(self):
         bad = sum(1 for r in self.points.values() if r["status"] != "ok")
@@ -108,7 +131,7 @@ class SweepResult:
 
     def to_xarray(self):
         """An xarray Dataset on the dimensions (the varied names in the order given, then
-        ``mode``, numbered 1.. in cutoff order at each point): ``fc`` and ``fc_error`` (Hz),
+        ``mode``, numbered 1.. in cutoff order at each point, :attr:`modes_shown` of them): ``fc`` and ``fc_error`` (Hz),
         ``label`` and ``family`` of each mode, ``curve`` (the followed mode identity, 1..; 0 where
         a point has no such mode; followed along the first varied parameter, see
         :mod:`femodes.studies.tracking`) and ``ambiguous`` (the assignment not decided within the
@@ -119,7 +142,7 @@ class SweepResult:
         import xarray as xr
 
         shape = tuple(len(v) for v in self.values)
-        n = self.modes
+        n = self.modes_shown
         fc = np.full(shape + (n,), np.nan)
         err = np.full(shape + (n,), np.nan)
         label = np.full(shape + (n,), "", dtype=object)
@@ -168,7 +191,7 @@ class SweepResult:
         """The quantities at the analysis frequency (see :class:`SweepResult`), where computed."""
         if not any("at_frequency" in r for r in self.points.values()):
             return
-        n = self.modes
+        n = self.modes_shown
         dims = self.names + ("mode",)
         arrays = {q: np.full(shape + (n,), np.nan) for q in POINT_QUANTITIES + tuple(q + "_error" for q in POINT_QUANTITIES)}
         at_label = np.full(shape + (n,), "", dtype=object)
@@ -230,8 +253,8 @@ class SweepResult:
         with the followed ``curve`` of each mode and whether its assignment is ``ambiguous``."""
         out = []
         ds = self.to_xarray()
-        curve = ds.curve.values.reshape(-1, self.modes)
-        amb = ds.ambiguous.values.reshape(-1, self.modes)
+        curve = ds.curve.values.reshape(-1, self.modes_shown)
+        amb = ds.ambiguous.values.reshape(-1, self.modes_shown)
         for j, p in enumerate(itertools.product(*self.values)):
             r = self.points[tuple(float(v) for v in p)]
             band = r["band"] or [math.nan, math.nan]
@@ -478,13 +501,49 @@ def solve_point(shape, fixed, point, modes, accuracy, options, start_size=None):
     return out
 
 
-def solve_points(shape, fixed, points, modes, accuracy, options):
+#: a point's estimated error the next point's first mesh pair aims at, as a fraction of the accuracy
+#: (the loop refines once more when a point misses the accuracy: a step costs more than the margin)
+SIZE_TARGET = 0.5
+#: the most the element size may grow from one point to the next
+SIZE_GROWTH = 1.5
+
+
+def next_size(result, accuracy, order=None):
+    """The element size the next point's accuracy loop starts from: the final size ``h`` of this
+    point scaled so that its estimated error (the largest fc_error / fc) would come out at
+    SIZE_TARGET x ``accuracy``.  The relative error falls like h^q with q <= 2p (order p), so
+    growing h by (target / estimate)^(1 / 2p) cannot overshoot the target if the next point
+    behaves like this one; shrinking uses q = p (slower than any rate the meshes show here, so
+    the shrink is ample).  The point's own accuracy loop and error estimate decide the rest: this
+    only chooses where that loop starts.  None without a size (loaded guides, invalid points).
+
+    With quantities at an analysis frequency the size is passed on unchanged: their field-based
+    errors (Z_PV, alpha_c, breakdown power: :mod:`femodes.studies.pointwise`) come from the final
+    mesh and its half, not from the accuracy loop, and a coarser final mesh let the breakdown
+    power's error outgrow its bar (WR-90 at 10 GHz, accuracy 1e-5: 4.5 W off against a 4.1 W bar)."""
+    h = result.get("mesh_size")
+    if not h:
+        return None
+    if "at_frequency" in result:
+        return float(h)
+    rel = [e / f for f, e in zip(result["fc"], result["fc_error"]) if f > 0 and math.isfinite(e)]
+    worst = max(rel, default=0.0)
+    if not worst > 0:
+        return float(h)
+    p = DEFAULT_ORDER if order is None else int(order)
+    ratio = SIZE_TARGET * accuracy / worst
+    g = min(SIZE_GROWTH, ratio ** (1.0 / (2 * p))) if ratio >= 1 else max(0.5, ratio ** (1.0 / p))
+    return float(h) * g
+
+
+def solve_points(shape, fixed, points, modes, accuracy, options, start_size=None):
     """Solve neighbouring points in order (in one worker), each starting its accuracy loop from
-    the element size that met the accuracy at the previous one.  Returns the result dicts."""
-    out, size = [], None
+    the element size the previous one suggests (:func:`next_size`; the first from ``start_size``
+    where given).  Returns the result dicts."""
+    out, size = [], start_size
     for point in points:
         r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
-        size = r["mesh_size"] or size
+        size = next_size(r, accuracy, options.get("order")) or size
         out.append(r)
     return out
 
@@ -646,23 +705,52 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
         size = None
         for p, point in zip(todo, kwargs(todo)):
             r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
-            size = r["mesh_size"] or size
+            size = next_size(r, accuracy, options.get("order")) or size
             yield p, r
         return
     # separate processes started afresh (spawn): gmsh and the BLAS pools are per process; one run of
     # neighbouring points per worker (more runs cost a cold start each: measured 1.27x against
-    # 1.4x on two workers for the 21-point benchmark)
+    # 1.4x on two workers for the 21-point benchmark).  This process is one of the n: it solves
+    # the first point and then the run before it while n - 1 spawned workers take the others (with
+    # n spawned workers three processes shared two cores while the first point was solved: 1.45x)
     _picklable(options)
-    blocks = _blocks(todo, n)
-    with ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("spawn")) as pool:
-        futures = {pool.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options): b for b in blocks}
+    with ProcessPoolExecutor(max_workers=n - 1, mp_context=multiprocessing.get_context("spawn")) as pool:
+        for _ in range(n - 1):  # the workers start and import femodes while the first point is solved here
+            pool.submit(_ready)
+        runs, first = yield from _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n)
+        own = runs[0] if len(runs) == n else []
+        futures = {pool.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, first): b
+                   for b in runs[1 if own else 0:]}
         try:
+            size = first
+            for p, point in zip(own, kwargs(own)):
+                r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
+                size = next_size(r, accuracy, options.get("order")) or size
+                yield p, r
             for fut in as_completed(futures):
                 yield from zip(futures[fut], fut.result())
         except BaseException:
             for fut in futures:
                 fut.cancel()
             raise
+
+
+def _ready():
+    """Nothing: a first task that makes a worker start (and import femodes) early."""
+    return os.getpid()
+
+
+def _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n):
+    """Solve here the point where the second run of ``todo`` begins (a cold start: the full
+    accuracy loop of an independent solve) and yield it; returns (runs, start size): the points
+    before it backwards (they start next to it), the points after it in ``n - 1`` runs, and the
+    element size every run starts from (:func:`next_size`).  Without it each worker paid a cold
+    start of its own (2.6x a warm point in the 21-point benchmark)."""
+    k = min(len(_blocks(todo, n)[0]), len(todo) - 1) if n > 1 else 0
+    r = solve_point(shape, fixed, kwargs([todo[k]])[0], modes, accuracy, options)
+    yield todo[k], r
+    runs = ([todo[:k][::-1]] if k else []) + (_blocks(todo[k + 1:], max(1, n - 1)) if k + 1 < len(todo) else [])
+    return runs, next_size(r, accuracy, options.get("order"))
 
 
 def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
@@ -676,9 +764,9 @@ def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
     client = Client(scheduler) if own else scheduler
     try:
         n = max(1, len(client.scheduler_info().get("workers", {})))
-        blocks = _blocks(todo, n)
-        futures = {client.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, pure=False): b
-                   for b in blocks}
+        runs, first = yield from _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n)
+        futures = {client.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, first, pure=False): b
+                   for b in runs}
         for fut in dask_completed(list(futures)):
             yield from zip(futures[fut], fut.result())
     finally:
