@@ -66,20 +66,27 @@ def _basis(problem, mesh, field):
     return Basis(mesh, elem_t if field == "TE" else elem_z, intorder=q)
 
 
-def _forms(problem, b, field, X):
-    """(Q_S, Q_T): the matrices X^T S X and X^T T X of the cutoff pencil of ``field`` ('TE' or
-    'TM') assembled with basis ``b`` (the problem's materials per triangle), X full-size columns."""
-    eps, mu = problem.eps_r[:, None], problem.mu_r[:, None]
+def _fields_at_quadrature(b, field, X):
+    """(values, stiffness parts) of the columns of X at the quadrature points of basis ``b``:
+    (m, 2, ne, nq) E_t and (m, 1, ne, nq) curl E_t for 'TE'; (m, 1, ne, nq) E_z and
+    (m, 2, ne, nq) grad E_z for 'TM'."""
     vals, stiff = [], []
     for j in range(X.shape[1]):
         f = b.interpolate(X[:, j])
         if field == "TE":
-            vals.append(np.asarray(f.value))           # (2, ne, nq)
-            stiff.append(np.asarray(f.curl)[None])     # (1, ne, nq)
+            vals.append(np.asarray(f.value))
+            stiff.append(np.asarray(f.curl)[None])
         else:
             vals.append(np.asarray(f.value)[None])
             stiff.append(np.asarray(f.grad))
-    vals, stiff = np.array(vals), np.array(stiff)
+    return np.array(vals), np.array(stiff)
+
+
+def _forms(problem, b, field, X):
+    """(Q_S, Q_T): the matrices X^T S X and X^T T X of the cutoff pencil of ``field`` ('TE' or
+    'TM') assembled with basis ``b`` (the problem's materials per triangle), X full-size columns."""
+    eps, mu = problem.eps_r[:, None], problem.mu_r[:, None]
+    vals, stiff = _fields_at_quadrature(b, field, X)
     QT = np.einsum("ikeq,jkeq,eq->ij", vals, vals, b.dx * eps, optimize=True)
     QS = np.einsum("ikeq,jkeq,eq->ij", stiff, stiff, b.dx / mu, optimize=True)
     return 0.5 * (QS + QS.T), 0.5 * (QT + QT.T)
@@ -107,16 +114,7 @@ def _derivative_forms(problem, field, X, DV):
     b = problem.basis_t if field == "TE" else problem.basis_z
     eps, mu = problem.eps_r[:, None], problem.mu_r[:, None]
     div = DV[0, 0] + DV[1, 1]
-    vals, stiff = [], []
-    for j in range(X.shape[1]):
-        f = b.interpolate(X[:, j])
-        if field == "TE":
-            vals.append(np.asarray(f.value))           # (2, ne, nq)
-            stiff.append(np.asarray(f.curl)[None])     # (1, ne, nq)
-        else:
-            vals.append(np.asarray(f.value)[None])
-            stiff.append(np.asarray(f.grad))
-    vals, stiff = np.array(vals), np.array(stiff)
+    vals, stiff = _fields_at_quadrature(b, field, X)
     ein = lambda sub, *a: np.einsum(sub, *a, optimize=True)
     QT = ein("ikeq,jkeq,eq->ij", vals, vals, b.dx * eps)
     sym = DV + DV.transpose(1, 0, 2, 3)
