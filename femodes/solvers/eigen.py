@@ -129,6 +129,7 @@ def _shift_invert(K, M, k, sigma, tol, ncv=None, maxiter=None, pivoting=False):
         lu = factorize(A, spd=True)
     rng = np.random.default_rng(12345)  # deterministic start vector
     v0 = rng.standard_normal(n)
+    ncv = ncv or min(n - 1, max(2 * k + 2, k + 8))
     halves = None if pivoting else getattr(lu, "halves", None)
     if halves is not None:
         # the standard form: with F (K - sigma M) F^T = I, K x = lam M x is C y = nu y for the
@@ -137,14 +138,14 @@ def _shift_invert(K, M, k, sigma, tol, ncv=None, maxiter=None, pivoting=False):
         # which at 1.1e6 P4 unknowns were 7 s of 16 (each product reads the whole M from memory)
         fwd, bwd = halves
         op = LinearOperator((n, n), matvec=lambda y: fwd(M @ bwd(y)), dtype=float)
-        nu, Y = eigsh(op, k=k, which="LM", tol=tol, v0=v0, ncv=ncv or min(n - 1, max(2 * k + 2, k + 8)),
+        nu, Y = eigsh(op, k=k, which="LM", tol=tol, v0=v0, ncv=ncv,
                       maxiter=maxiter)
         lam, X = sigma + 1.0 / nu, np.asarray(bwd(Y))
         order = np.argsort(lam)
         return _normalised(K, M, lam[order], X[:, order])
     op = LinearOperator((n, n), matvec=_refined(A, lu) if pivoting else lu.solve, dtype=float)
     lam, X = eigsh(K, k=k, M=M, sigma=sigma, which="LM", OPinv=op, tol=tol, v0=v0,
-                   ncv=ncv or min(n - 1, max(2 * k + 2, k + 8)), maxiter=maxiter)
+                   ncv=ncv, maxiter=maxiter)
     order = np.argsort(lam)
     return _normalised(K, M, lam[order], X[:, order])
 
