@@ -42,6 +42,7 @@ from femodes.report import (
 )
 from femodes.report.selfcheck import selfcheck_document, selfcheck_table
 from femodes.report.sweeps import seek_table, sensitivity_table, study_document, sweep_document, sweep_table, tolerance_table
+from femodes.studies.store import stored_points
 from femodes.studies.verify import case_names, selfcheck
 
 __all__ = ["main"]
@@ -193,7 +194,17 @@ def _sweep(args):
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         with _named(case):
-            result = run_sweep(case, store=args.store, workers=workers, scheduler=args.scheduler)
+            try:
+                result = run_sweep(case, store=args.store, workers=workers, scheduler=args.scheduler)
+            except KeyboardInterrupt:
+                if args.store:
+                    kept = stored_points(args.store)
+                    print(f"femodes: interrupted; {kept} finished points are kept in {args.store}: the same command "
+                          "again computes only the rest", file=sys.stderr)
+                else:
+                    print("femodes: interrupted; nothing was kept (give --store FILE to keep finished points)",
+                          file=sys.stderr)
+                return 130
     _print_warnings(caught)
     seconds = time.perf_counter() - t0
     labels = case.sweep.labels

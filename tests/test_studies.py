@@ -45,14 +45,34 @@ def test_followed_curves_stay_on_te20_and_te01_across_their_crossing():
     away = np.abs(te01 - te20) > 10 * err          # the near-degenerate point apart
     assert np.all(np.abs(curves[away, c01 - 1] - te01[away]) <= err[away])
     assert np.all(np.abs(curves[away, c20 - 1] - te20[away]) <= err[away])
-    # at the crossing the two cutoffs cannot be told apart: flagged there and nowhere else
-    amb = ds.ambiguous.values
-    assert amb[2, 1] and amb[2, 2] and not amb[[0, 1, 3, 4, 5]].any()
+    # at the crossing the two cutoffs agree within the error bars, but the modes' mirror classes
+    # tell them apart (TE01's H_z = cos(pi y / b) is odd about the centre line y = b / 2, TE20's
+    # cos(2 pi x / a) even in both): nothing is flagged, and each curve keeps its class everywhere
+    assert not ds.ambiguous.values.any()
+    for i, a in enumerate(WIDTHS):
+        sym = r.points[(a,)]["symmetry"]
+        k01 = list(ds.curve.values[i]).index(c01)
+        k20 = list(ds.curve.values[i]).index(c20)
+        assert sym[k01] == "x:even,y:odd" and sym[k20] == "x:even,y:even"
     # without the symmetry classes the extrapolated cutoffs alone follow the same curves
     pts = [dict(r.points[(a,)], symmetry=None, degenerate=None) for a in WIDTHS]
     t = follow(pts, WIDTHS)
     assert [list(t.curve[i]) for i in (0, 1, 3, 4, 5)] == [list(ds.curve.values[i]) for i in (0, 1, 3, 4, 5)]
     assert list(t.ambiguous[2][1:]) == [True, True] and not any(t.ambiguous[3])
+
+
+def test_a_degenerate_pair_is_flagged_only_where_its_members_may_share_a_class():
+    """Logic of the follower on two made-up points (no physics asserted): two modes equal within
+    their error bars and marked degenerate are told apart by different known classes, and
+    flagged where their classes are the same or unknown."""
+    pts = [{"fc": [1.0e9, 2.0e9, 2.0e9], "fc_error": [1e3, 1e3, 1e3], "family": ["TE"] * 3,
+            "degenerate": [False, True, True], "symmetry": ["x:odd", sym1, sym2]}
+           for sym1, sym2 in (("x:odd", "x:even"), ("x:odd", "x:even"))]
+    assert not any(follow(pts).ambiguous[1])
+    same = [dict(p, symmetry=["x:odd", "x:even", "x:even"]) for p in pts]
+    assert list(follow(same).ambiguous[1]) == [False, True, True]
+    unknown = [dict(p, symmetry=None) for p in pts]
+    assert list(follow(unknown).ambiguous[1]) == [False, True, True]
 
 
 MU0 = 1.25663706212e-6  # CODATA 2018 (the value femodes uses)

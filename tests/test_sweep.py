@@ -119,6 +119,24 @@ def test_local_processes_and_a_dask_cluster_give_the_same_numbers():
     assert list(far.label.values[:, 0]) == ["TE10"] * 3
 
 
+def test_a_script_without_a_main_guard_is_told_what_to_fix(tmp_path):
+    """Worker processes are spawned and import the calling script (Python's multiprocessing,
+    common practice): a script that sweeps on two workers at its top level gets one message saying
+    to guard it or give workers=1, not a broken-pool traceback."""
+    import subprocess
+    import sys
+
+    script = tmp_path / "unguarded.py"
+    script.write_text("import femodes as fm\n"
+                      "fm.sweep(fm.rectangle, {'height': 10e-3}, {'width': [20e-3, 21e-3, 22e-3]}, modes=1,\n"
+                      "         accuracy=1e-4, workers=2, progress=False)\n")
+    run = subprocess.run([sys.executable, str(script)], capture_output=True, text=True, timeout=120)
+    assert run.returncode != 0
+    last = run.stderr.strip().splitlines()[-1]
+    assert last.startswith("femodes.errors.FemodesError") and 'if __name__ == "__main__":' in last
+    assert "workers=1" in last
+
+
 @pytest.mark.parametrize("args, words", [
     (({}, {"wdth": [1e-2]}), ["no parameter 'wdth'", "width"]),
     (({"height": 1e-2}, {"width": []}), ["empty"]),

@@ -15,7 +15,7 @@ from pathlib import Path
 
 from femodes.errors import FemodesError
 
-__all__ = ["SweepStore", "STORE_KIND"]
+__all__ = ["SweepStore", "STORE_KIND", "stored_points"]
 
 #: written into every store, so that another SQLite file is not taken for one
 STORE_KIND = "femodes sweep store, version 1"
@@ -73,3 +73,16 @@ class SweepStore:
 
     def __exit__(self, *exc):
         self.close()
+
+
+def stored_points(path):
+    """How many finished points the store at ``path`` holds (read only; '?' where it cannot be
+    read): what an interrupted sweep kept."""
+    try:
+        db = sqlite3.connect(f"file:{Path(path).resolve()}?mode=ro", uri=True)
+        try:
+            return db.execute("SELECT COUNT(*) FROM points").fetchone()[0]
+        finally:
+            db.close()
+    except sqlite3.Error:
+        return "?"

@@ -21,9 +21,13 @@ point's parameters, so its numbers carry the same error estimates as a single so
   an analysis frequency the size is passed on unchanged (see :func:`next_size`).  On several
   workers the point where the second run begins is solved first, here, while the workers start;
   the run before it goes backwards from it (in this process), the others forward in n - 1
-  spawned workers, and every run starts from its suggestion (one cold start in all instead of
-  one per worker; two workers 1.48-1.72x one worker).  What is not shared, by measurement: the third,
-  coarsest mesh (about a tenth of a point; it gives the point its own observed rates and the
+  spawned workers, every run starting from its suggestion (one cold start in all instead of one
+  per worker); each point is a task of its own (it reaches the store as soon as it is done), and
+  a process out of work takes the far end of another's run (two workers 1.62-1.72x one worker on
+  a quiet machine, where two independent one-worker sweeps side by side each ran 5-10 % slower
+  than alone).  Workers import the calling script: a script must keep its top level under
+  ``if __name__ == "__main__":`` (said in one line when it does not).  What is not shared, by
+  measurement: the third, coarsest mesh (about a tenth of a point; it gives the point its own observed rates and the
   guard against two meshes agreeing by chance, which a neighbour's history could only imitate),
   moved meshes instead of gmsh (meshing is under a fifth of a point).
 * With ``store`` (a file name) each finished point is written to disk at once
@@ -48,7 +52,7 @@ import os
 import pickle
 import sys
 import time
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -536,18 +540,6 @@ def next_size(result, accuracy, order=None):
     return float(h) * g
 
 
-def solve_points(shape, fixed, points, modes, accuracy, options, start_size=None):
-    """Solve neighbouring points in order (in one worker), each starting its accuracy loop from
-    the element size the previous one suggests (:func:`next_size`; the first from ``start_size``
-    where given).  Returns the result dicts."""
-    out, size = [], start_size
-    for point in points:
-        r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
-        size = next_size(r, accuracy, options.get("order")) or size
-        out.append(r)
-    return out
-
-
 def _progress(total, enabled):
     if enabled is None:
         enabled = sys.stderr.isatty()
@@ -708,36 +700,136 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
             size = next_size(r, accuracy, options.get("order")) or size
             yield p, r
         return
-    # separate processes started afresh (spawn): gmsh and the BLAS pools are per process; one run of
-    # neighbouring points per worker (more runs cost a cold start each: measured 1.27x against
-    # 1.4x on two workers for the 21-point benchmark).  This process is one of the n: it solves
-    # the first point and then the run before it while n - 1 spawned workers take the others (with
-    # n spawned workers three processes shared two cores while the first point was solved: 1.45x)
     _picklable(options)
-    with ProcessPoolExecutor(max_workers=n - 1, mp_context=multiprocessing.get_context("spawn")) as pool:
-        for _ in range(n - 1):  # the workers start and import femodes while the first point is solved here
-            pool.submit(_ready)
-        runs, first = yield from _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n)
-        own = runs[0] if len(runs) == n else []
-        futures = {pool.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, first): b
-                   for b in runs[1 if own else 0:]}
-        try:
-            size = first
-            for p, point in zip(own, kwargs(own)):
-                r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
-                size = next_size(r, accuracy, options.get("order")) or size
-                yield p, r
-            for fut in as_completed(futures):
-                yield from zip(futures[fut], fut.result())
-        except BaseException:
-            for fut in futures:
-                fut.cancel()
-            raise
+    yield from _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n)
+
+
+def _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n):
+    """The points on this process and ``n - 1`` local worker processes, balanced as they go.
+
+    Workers are separate processes started afresh (spawn: gmsh and the BLAS pools are per
+    process), one executor of one process each so that a worker's points stay a run of
+    neighbours, every point a task of its own (a finished point reaches the store at once).  This
+    process solves the cold first point (:func:`_first_point`) while the workers start, then walks
+    its own run; the workers walk theirs, each point starting from the size its predecessor in the
+    same process suggests (:func:`_chained`).  Balance: a process out of work takes the far end of
+    the longest queue still waiting: this process by cancelling a worker's not yet started points
+    and solving them here, an idle worker by being given the far half of this process's run.  A
+    fixed split left one process idle for up to a second of a 7 s sweep, longer where one run's
+    points were the dearer or the other core was busy."""
+    import uuid
+    from concurrent.futures import FIRST_COMPLETED, wait
+    from concurrent.futures.process import BrokenProcessPool
+
+    order = {p: i for i, p in enumerate(todo)}
+    token = uuid.uuid4().hex
+    done = {}  # position in todo -> result, for the size a point away from its run starts from
+
+    def start_size(p):
+        """The size suggested by the nearest solved point (in grid order)."""
+        if not done:
+            return None
+        i = order[p]
+        j = min(done, key=lambda k: (abs(k - i), k))
+        return next_size(done[j], accuracy, options.get("order"))
+
+    def give(w, block):
+        for m, p in enumerate(block):
+            fut = workers[w].submit(_chained, shape, fixed, kwargs([p])[0], modes, accuracy, options,
+                                    start_size(p) if m == 0 else None, token, m > 0)
+            queues[w].append((p, fut))
+
+    ctx = multiprocessing.get_context("spawn")
+    workers = [ProcessPoolExecutor(max_workers=1, mp_context=ctx, initializer=_end_with_parent) for _ in range(n - 1)]
+    queues = [[] for _ in workers]
+    try:
+        for ex in workers:  # the workers start and import femodes while the first point is solved here
+            ex.submit(_ready)
+        k, runs = _runs(todo, n)
+        r = solve_point(shape, fixed, kwargs([todo[k]])[0], modes, accuracy, options)  # a cold start
+        done[k] = r
+        yield todo[k], r
+        own = list(runs[0]) if len(runs) == n else []
+        for w, block in enumerate(runs[1 if own else 0:]):  # every run starts from its suggestion
+            give(w, block)
+        last, size = None, None  # the point this process solved last, and the size it suggests
+        while own or any(queues):
+            for w, q in enumerate(queues):  # collect what the workers finished
+                for p, fut in [x for x in q if x[1].done()]:
+                    q.remove((p, fut))
+                    r = fut.result()
+                    done[order[p]] = r
+                    yield p, r
+            if len(own) >= 2:  # a worker out of work gets the far half of this process's run
+                for w, q in enumerate(queues):
+                    if not q and len(own) >= 2:
+                        half, own = own[(len(own) + 1) // 2:], own[:(len(own) + 1) // 2]
+                        give(w, half)
+            if not own:  # out of work here: take a worker's points that have not started, far end first
+                w = max(range(len(queues)), key=lambda k: len(queues[k]))
+                q = queues[w]
+                if len(q) >= 2 and q[-1][1].cancel():
+                    own.append(q.pop()[0])
+                elif q:
+                    wait([fut for qq in queues for _, fut in qq], return_when=FIRST_COMPLETED)
+                    continue
+                else:
+                    continue
+            p = own.pop(0)
+            if last is None or abs(order[last] - order[p]) != 1:
+                size = start_size(p)
+            r = solve_point(shape, fixed, kwargs([p])[0], modes, accuracy, options, start_size=size)
+            size = next_size(r, accuracy, options.get("order")) or size
+            last = p
+            done[order[p]] = r
+            yield p, r
+    except BrokenProcessPool:
+        raise FemodesError(
+            "the sweep's worker processes stopped: a script that runs a sweep on several workers must "
+            "keep its top level under `if __name__ == \"__main__\":` (the workers import the script), "
+            "or give workers=1") from None
+    finally:
+        for ex in workers:
+            ex.shutdown(wait=True, cancel_futures=True)
+
+
+#: the last element size suggested in this process, and the sweep it belongs to (:func:`_chained`)
+_CHAIN = {}
+
+
+def _chained(shape, fixed, point, modes, accuracy, options, start_size, token, chain):
+    """Solve one point in a worker: from the size the previous point of this process suggested
+    when ``chain`` (and it was of the same sweep, ``token``), else from ``start_size``."""
+    if chain and _CHAIN.get("token") == token:
+        start_size = _CHAIN["size"]
+    r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=start_size)
+    _CHAIN.update(token=token, size=next_size(r, accuracy, options.get("order")) or start_size)
+    return r
+
+
+def _end_with_parent():
+    """In a worker: end this process when the sweep's process ends, even by SIGKILL (the pool's
+    own shutdown never runs then, and a worker waiting for work would stay forever)."""
+    import threading
+    from multiprocessing.connection import wait
+
+    parent = multiprocessing.parent_process()
+    if parent is not None:
+        threading.Thread(target=lambda: (wait([parent.sentinel]), os._exit(1)), daemon=True).start()
 
 
 def _ready():
     """Nothing: a first task that makes a worker start (and import femodes) early."""
     return os.getpid()
+
+
+def _runs(todo, n):
+    """(k, runs): the point of ``todo`` where the second of ``n`` runs begins (solved first), and
+    the runs: the points before it backwards (they start next to it), the points after it in
+    ``n - 1`` runs."""
+    k = min(len(_blocks(todo, n)[0]), len(todo) - 1) if n > 1 else 0
+    runs = ([todo[:k][::-1]] if k else []) + (_blocks(todo[k + 1:], max(1, n - 1)) if k + 1 < len(todo) else [])
+    return k, runs
 
 
 def _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n):
@@ -746,15 +838,21 @@ def _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n):
     before it backwards (they start next to it), the points after it in ``n - 1`` runs, and the
     element size every run starts from (:func:`next_size`).  Without it each worker paid a cold
     start of its own (2.6x a warm point in the 21-point benchmark)."""
-    k = min(len(_blocks(todo, n)[0]), len(todo) - 1) if n > 1 else 0
+    k, runs = _runs(todo, n)
     r = solve_point(shape, fixed, kwargs([todo[k]])[0], modes, accuracy, options)
     yield todo[k], r
-    runs = ([todo[:k][::-1]] if k else []) + (_blocks(todo[k + 1:], max(1, n - 1)) if k + 1 < len(todo) else [])
     return runs, next_size(r, accuracy, options.get("order"))
 
 
 def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
-    """The runs of points on a dask.distributed cluster (``scheduler``: an address or a Client)."""
+    """The points on a dask.distributed cluster (``scheduler``: an address or a Client): the cold
+    first point here, then every other point a task of its own (it reaches the store as soon as
+    it is done; a lost worker loses only its point in flight), submitted run by run so that the
+    scheduler's first-come order keeps a worker's consecutive points close; each starts from the
+    size its worker's previous point suggested (:func:`_chained`), the first from the first
+    point's."""
+    import uuid
+
     try:
         from distributed import Client
         from distributed import as_completed as dask_completed
@@ -765,10 +863,11 @@ def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
     try:
         n = max(1, len(client.scheduler_info().get("workers", {})))
         runs, first = yield from _first_point(shape, fixed, todo, kwargs, modes, accuracy, options, n)
-        futures = {client.submit(solve_points, shape, fixed, kwargs(b), modes, accuracy, options, first, pure=False): b
-                   for b in runs}
+        token = uuid.uuid4().hex
+        futures = {client.submit(_chained, shape, fixed, kwargs([p])[0], modes, accuracy, options, first, token, True,
+                                 pure=False): p for p in itertools.chain(*runs)}
         for fut in dask_completed(list(futures)):
-            yield from zip(futures[fut], fut.result())
+            yield futures[fut], fut.result()
     finally:
         if own:
             client.close()

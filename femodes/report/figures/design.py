@@ -69,9 +69,16 @@ def design_curves(result, path=None, *, spec_band=None, target=None, dpi=200):
     lo, hi = np.asarray(ds.f_low.values) / 1e9, np.asarray(ds.f_high.values) / 1e9
     top.fill_between(x, lo, hi, color=st["band"], alpha=0.6, lw=0, label="single-mode band", zorder=1)
     span = np.nanmax(fc) - np.nanmin(fc) if np.any(np.isfinite(fc)) else 1.0
+    near = 3e-3 * (span or 1.0)  # closer than about a line width at the figure's size
     for k in range(fc.shape[1]):
         y, e = fc[:, k], err[:, k]
-        line, = top.plot(x, y, lw=1.6, marker="o", ms=3, zorder=3, label=names_k[k])
+        # a curve that lies on one drawn before it (two modes of different classes equal within
+        # the line width, e.g. a double ridge's two side-trough modes) is dashed with open
+        # markers on top, so that both stay visible
+        hidden = any(np.all(np.isnan(y) | np.isnan(fc[:, j]) | (np.abs(y - fc[:, j]) < near))
+                     and np.any(np.isfinite(y) & np.isfinite(fc[:, j])) for j in range(k))
+        line, = top.plot(x, y, lw=1.6, marker="o", ms=4 if hidden else 3, zorder=3.5 if hidden else 3,
+                         ls=(0, (3, 3)) if hidden else "-", mfc="none" if hidden else None, label=names_k[k])
         if np.any(amb[:, k]):
             top.plot(x[amb[:, k]], y[amb[:, k]], ls="none", marker="o", ms=9, mfc="none", mec=st["text"], zorder=4,
                      label="not decided" if not any(amb[:, :k].ravel()) else None)
