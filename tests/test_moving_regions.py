@@ -70,6 +70,15 @@ def test_seek_and_sensitivity_with_a_slab_that_follows_the_height():
     for k in range(2):
         assert abs(sens.dfc["height"][k] - d_ref[k]) <= sens.dfc_error["height"][k], (k, sens.dfc["height"][k], d_ref[k])
     assert "kink" not in sens.method["height"]
+    assert sens.method["height"].startswith("shape derivative") and "interfaces moved" in sens.method["height"]
+    # the width: the slab's sides ride on the side walls; d fc / d a against the reference's difference
+    sens = fm.sensitivity(fm.rectangle, {"width": A90, "height": B90}, modes=2, accuracy=1e-5, only=["width"],
+                          regions=_regions())
+    h = 1e-5 * A90
+    d_ref = [(p - m) / (2 * h) for p, m in zip(_cutoffs(B90, a=A90 + h), _cutoffs(B90, a=A90 - h))]
+    for k in range(2):
+        assert abs(sens.dfc["width"][k] - d_ref[k]) <= sens.dfc_error["width"][k], (k, sens.dfc["width"][k], d_ref[k])
+    assert sens.method["width"].startswith("shape derivative")
 
 
 def test_region_callables_are_checked():

@@ -31,7 +31,11 @@ Shape parameters: the shape derivative of the discrete eigenvalue on the final m
 nominal solve, no re-solve.  The mesh nodes move with a velocity field V: wall nodes by their
 parametric position on their segment of the outline rebuilt at p +- delta, material interfaces
 held where the regions are placed (V = 0 there; a node where an interface meets a moving wall
-slides along the interface), the rest by harmonic extension with wall and interface nodes fixed
+slides along the interface), or, for a region given as a function of the shape's parameters,
+moved as its outline moves (rebuilt at p +- delta, each interface node by its parametric
+position on the region's outline: :func:`femodes.studies.velocity.region_motion`; a region edge
+on a wall that moves with it, a slab on the floor that follows the height, is no kink), the rest
+by harmonic extension with wall and interface nodes fixed
 (:func:`femodes.studies.velocity.loaded_velocity`).  Then, for each cutoff eigenpair
 S x = k0^2 T x of the TE-type (Nedelec) or TM-type (Lagrange) pencil,
 
@@ -53,7 +57,7 @@ parameter: the slab-loaded guide's height with the slab on the floor; an interfa
 moving wall) and where the parameter changes the outline's pieces, the central differences of
 whole solves are kept: the guide is rebuilt at p +- h and p +- h / 2 (h = FD_STEP |p|; a region
 given as a placed Section stays where it is, one given as a function of the shape's parameters
-is rebuilt with them: such moving regions always take this path), each solved to the nominal accuracy; D(h) and D(h / 2)
+is rebuilt with them), each solved to the nominal accuracy; D(h) and D(h / 2)
 are the two central differences; |D(h) - D(h / 2)| is three times the truncation error of
 D(h / 2) on a smooth fc(p), and (e(p + h / 2) + e(p - h / 2)) / h is what the solves' own
 error bars e can do to the difference; then the Richardson value (4 D(h / 2) - D(h)) / 3 is
@@ -80,7 +84,7 @@ from femodes.geometry.section import Section
 from femodes.solvers.loaded import solve_loaded
 from femodes.solvers.vector import VectorProblem
 from femodes.solvers.vector.shape import cutoff_shape_derivatives
-from femodes.studies.velocity import _same_pieces, loaded_velocity
+from femodes.studies.velocity import _same_pieces, loaded_velocity, region_motion
 
 __all__ = ["loaded_sensitivities", "FD_STEP", "PERTURBATION", "DIFFERENCE", "SHAPE_DERIVATIVE"]
 
@@ -94,6 +98,8 @@ CUTOFF_FLOOR = 2.0
 GEOMETRY_STEP = 1e-6
 SHAPE_DERIVATIVE = ("shape derivative on the nominal mesh (regions fixed, wall nodes moved, harmonic extension; "
                     "order p - 1 for the error)")
+SHAPE_DERIVATIVE_MOVING = ("shape derivative on the nominal mesh (interfaces moved with their regions, wall nodes "
+                           "moved, harmonic extension; order p - 1 for the error)")
 PERTURBATION = "first-order perturbation (energy share in the region, order p - 1 for the error)"
 DIFFERENCE = "central difference of whole solves (steps h and h/2, h = {:.3g}; error from both and the solves' error bars)"
 
@@ -335,6 +341,19 @@ def _difference(shape, values, name, regions, nominal, section, accuracy, option
     return d, e, kinks, h
 
 
+def _region_motion(shape, values, regions, name, step, section):
+    """(velocity, why) of the interfaces when parameter ``name`` moves by +- step / 2: the regions
+    given as functions rebuilt at both sides (:func:`femodes.studies.velocity.region_motion`);
+    fixed regions stay."""
+    moving = [r for r in regions if callable(r.get("shape"))]
+    v = values[name]
+    try:
+        sides = [[region_shape(r, shape, {**values, name: v + s}) for r in moving] for s in (0.0, step, -step)]
+    except FemodesError:
+        return None, "a region is not valid on both sides"
+    return region_motion(*sides, 2 * step, section.size)
+
+
 def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options, discrete=(), only=None,
                          interface_velocity=None, differences=False):
     """The parts of a :class:`femodes.studies.Sensitivity` of ``shape(**values)`` with
@@ -406,18 +425,19 @@ def loaded_sensitivities(shape, values, names, regions, modes, accuracy, options
         V = None
         if differences:
             why = "asked for"
-        elif moving:
-            why = "the regions move with the shape's parameters"
         elif not why:
-            V, why = loaded_velocity(section, problem.mesh, region, plus, minus, 2 * step,
-                                     (interface_velocity or {}).get(name))
+            follow = (interface_velocity or {}).get(name)
+            if follow is None and moving:
+                follow, why = _region_motion(shape, values, regions, name, step, section)
+            if not why:
+                V, why = loaded_velocity(section, problem.mesh, region, plus, minus, 2 * step, follow)
         if V is None:
             why_not[name] = why
         else:
             velocities[name] = V
     if velocities:
         derivs.update(_shape_derivatives(problem, finals[1], finals[0], finals[2], nominal, velocities, values))
-        method.update({name: SHAPE_DERIVATIVE for name in velocities})
+        method.update({name: SHAPE_DERIVATIVE_MOVING if moving else SHAPE_DERIVATIVE for name in velocities})
 
     # the rest: central differences of whole solves at p +- h and p +- h / 2
     for name, why in why_not.items():

@@ -29,7 +29,7 @@ from scipy.sparse.linalg import splu
 from femodes.geometry.loops import Arc, Line
 from femodes.solvers.eigen import restrict
 
-__all__ = ["loaded_velocity"]
+__all__ = ["loaded_velocity", "region_motion"]
 
 
 def _same_pieces(a, b):
@@ -93,6 +93,33 @@ def _boundary_velocity(where, pos, plus, minus, step):
 
 
 
+def region_motion(nominal, plus, minus, step, size):
+    """(velocity, why) of regions that follow a parameter: ``nominal``, ``plus``, ``minus`` the
+    placed Sections of each moving region at p and p +- step / 2.  ``velocity`` maps points (2, n)
+    to (2, n): at a point on a moving region's outline, the motion of its parametric position
+    there (as for the walls), where it lies on none (a fixed region's interface) 0; None with
+    ``why`` where a region's outline changes its pieces between p - step / 2 and p + step / 2."""
+    for nom, p, m in zip(nominal, plus, minus):
+        why = _same_pieces(nom, p) or _same_pieces(nom, m)
+        if why:
+            return None, f"a region's outline {why.replace('outline', 'region')}"
+    tol = 1e-6 * size
+
+    def velocity(pts):
+        pts = np.asarray(pts, dtype=float).reshape(2, -1)
+        V = np.zeros_like(pts)
+        best = np.full(pts.shape[1], np.inf)
+        for nom, p, m in zip(nominal, plus, minus):
+            where, pos, dist = _locate_on_outline(nom, pts)
+            on = (dist <= tol) & (dist < best)
+            if np.any(on):
+                V[:, on] = _boundary_velocity(where[:, on], pos[on], p, m, step)
+                best[on] = dist[on]
+        return V
+
+    return velocity, ""
+
+
 def _region_at(section, x, y):
     """Region index (0 the fill, i the i-th material; a later one wins) at points x, y."""
     out = np.zeros(np.size(x), dtype=np.int64)
@@ -144,6 +171,15 @@ def loaded_velocity(section, skm, region, plus, minus, step, interface_velocity=
     out_pt = 0.5 * (a + b) + 0.1 * length * n
     r_in, r_out = region[f2t[0, bfac]], _region_at(section, out_pt[0], out_pt[1])
     bad = moving & (r_in != r_out)
+    if np.any(bad) and interface_velocity is not None:
+        # a region that moves with the wall there (a slab on the floor that follows the height)
+        # keeps its edge on it: no layer opens, no kink
+        ends = np.concatenate([facets[0, bfac[bad]], facets[1, bfac[bad]]])
+        U = np.asarray(interface_velocity(p[:, ends]), dtype=float).reshape(2, -1)
+        nn = np.concatenate([n[:, bad], n[:, bad]], axis=1)
+        off = np.abs(np.sum((U - V[:, ends]) * nn, axis=0)) > tol
+        follows = ~(off[:bad.sum()] | off[bad.sum():])
+        bad[np.flatnonzero(bad)[follows]] = False
     if np.any(bad):
         k = int(np.flatnonzero(bad)[0])
         r = r_in[k] if r_in[k] else r_out[k]
