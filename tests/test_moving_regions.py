@@ -160,3 +160,23 @@ def test_seek_the_fill_permittivity_of_a_case_for_a_target_cutoff():
     with pytest.raises(FemodesError, match="must be positive"):
         fm.seek(fm.rectangle, {"width": A90, "height": B90}, {"eps_r": (-1.0, 3.0)}, {"fc1": 5e9})
     assert math.isfinite(r.achieved["fc1"])
+
+
+def rod(radius, **_):
+    """A concentric rod of 0.4 of the guide's radius (module level: picklable)."""
+    return fm.circle(0.4 * radius)
+
+
+def test_a_curved_region_that_scales_with_the_guide():
+    """A circular guide of radius R with a concentric eps_r = 4 rod of radius 0.4 R: the whole
+    section scales with R, so every cutoff goes as 1 / R and d fc / d R = -fc / R exactly (Maxwell's
+    equations are scale invariant with fixed materials: common practice).  The rod's arc outline
+    moves with R (curved interface, shape derivative)."""
+    R = 10e-3
+    s = fm.sensitivity(fm.circle, {"radius": R}, modes=3, accuracy=1e-6, only=["radius"],
+                       regions=[{"name": "rod", "shape": rod, "eps_r": 4.0}])
+    assert s.method["radius"].startswith("shape derivative") and "interfaces moved" in s.method["radius"]
+    for k in range(3):
+        want = -s.fc[k] / R
+        bar = s.dfc_error["radius"][k] + s.fc_error[k] / R
+        assert abs(s.dfc["radius"][k] - want) <= bar, (k, s.dfc["radius"][k], want, bar)
