@@ -5,6 +5,8 @@ numbers as one process; bad input gets one clear message."""
 
 import json
 import math
+import subprocess
+import sys
 
 import numpy as np
 import pytest
@@ -123,9 +125,6 @@ def test_a_script_without_a_main_guard_is_told_what_to_fix(tmp_path):
     """Worker processes are spawned and import the calling script (Python's multiprocessing,
     common practice): a script that sweeps on two workers at its top level gets one message saying
     to guard it or give workers=1, not a broken-pool traceback."""
-    import subprocess
-    import sys
-
     script = tmp_path / "unguarded.py"
     script.write_text("import femodes as fm\n"
                       "fm.sweep(fm.rectangle, {'height': 10e-3}, {'width': [20e-3, 21e-3, 22e-3]}, modes=1,\n"

@@ -51,9 +51,13 @@ import multiprocessing
 import os
 import pickle
 import sys
+import threading
 import time
-from concurrent.futures import ProcessPoolExecutor
+import uuid
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
+from multiprocessing.connection import wait as wait_for
 
 import numpy as np
 
@@ -717,9 +721,6 @@ def _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n):
     and solving them here, an idle worker by being given the far half of this process's run.  A
     fixed split left one process idle for up to a second of a 7 s sweep, longer where one run's
     points were the dearer or the other core was busy."""
-    import uuid
-    from concurrent.futures import FIRST_COMPLETED, wait
-    from concurrent.futures.process import BrokenProcessPool
 
     order = {p: i for i, p in enumerate(todo)}
     token = uuid.uuid4().hex
@@ -810,12 +811,10 @@ def _chained(shape, fixed, point, modes, accuracy, options, start_size, token, c
 def _end_with_parent():
     """In a worker: end this process when the sweep's process ends, even by SIGKILL (the pool's
     own shutdown never runs then, and a worker waiting for work would stay forever)."""
-    import threading
-    from multiprocessing.connection import wait
 
     parent = multiprocessing.parent_process()
     if parent is not None:
-        threading.Thread(target=lambda: (wait([parent.sentinel]), os._exit(1)), daemon=True).start()
+        threading.Thread(target=lambda: (wait_for([parent.sentinel]), os._exit(1)), daemon=True).start()
 
 
 def _ready():
@@ -851,7 +850,6 @@ def _run_dask(scheduler, shape, fixed, kwargs, todo, modes, accuracy, options):
     scheduler's first-come order keeps a worker's consecutive points close; each starts from the
     size its worker's previous point suggested (:func:`_chained`), the first from the first
     point's."""
-    import uuid
 
     try:
         from distributed import Client
