@@ -698,11 +698,9 @@ def _run(shape, fixed, names, todo, modes, accuracy, options, scheduler, workers
     if n < 1:
         raise FemodesError(f"workers must be a whole number >= 1, got {workers!r}")
     if n == 1:
-        size = None
+        token = uuid.uuid4().hex
         for p, point in zip(todo, kwargs(todo)):
-            r = solve_point(shape, fixed, point, modes, accuracy, options, start_size=size)
-            size = next_size(r, accuracy, options.get("order")) or size
-            yield p, r
+            yield p, _chained(shape, fixed, point, modes, accuracy, options, None, token, True)
         return
     _picklable(options)
     yield from _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n)
@@ -718,9 +716,10 @@ def _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n):
     its own run; the workers walk theirs, each point starting from the size its predecessor in the
     same process suggests (:func:`_chained`).  Balance: a process out of work takes the far end of
     the longest queue still waiting: this process by cancelling a worker's not yet started points
-    and solving them here, an idle worker by being given the far half of this process's run.  A
-    fixed split left one process idle for up to a second of a 7 s sweep, longer where one run's
-    points were the dearer or the other core was busy."""
+    and solving them here, an idle worker by being given the far half of this process's run.  On
+    the 21-point benchmark the two processes finished within a point (0.15-0.5 s) of each other
+    with the fixed split too, so the balance gains nothing there; it is for runs whose points
+    cost unevenly."""
 
     order = {p: i for i, p in enumerate(todo)}
     token = uuid.uuid4().hex
@@ -753,7 +752,7 @@ def _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n):
         own = list(runs[0]) if len(runs) == n else []
         for w, block in enumerate(runs[1 if own else 0:]):  # every run starts from its suggestion
             give(w, block)
-        last, size = None, None  # the point this process solved last, and the size it suggests
+        last = None  # the point this process solved last
         while own or any(queues):
             for w, q in enumerate(queues):  # collect what the workers finished
                 for p, fut in [x for x in q if x[1].done()]:
@@ -777,10 +776,9 @@ def _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n):
                 else:
                     continue
             p = own.pop(0)
-            if last is None or abs(order[last] - order[p]) != 1:
-                size = start_size(p)
-            r = solve_point(shape, fixed, kwargs([p])[0], modes, accuracy, options, start_size=size)
-            size = next_size(r, accuracy, options.get("order")) or size
+            after = last is not None and abs(order[last] - order[p]) == 1  # next to the point solved last
+            r = _chained(shape, fixed, kwargs([p])[0], modes, accuracy, options, None if after else start_size(p),
+                         token, after)
             last = p
             done[order[p]] = r
             yield p, r
@@ -794,12 +792,12 @@ def _run_local(shape, fixed, todo, kwargs, modes, accuracy, options, n):
             ex.shutdown(wait=True, cancel_futures=True)
 
 
-#: the last element size suggested in this process, and the sweep it belongs to (:func:`_chained`)
+#: the last element size suggested in this process (main or worker), and the sweep it belongs to
 _CHAIN = {}
 
 
 def _chained(shape, fixed, point, modes, accuracy, options, start_size, token, chain):
-    """Solve one point in a worker: from the size the previous point of this process suggested
+    """Solve one point (here or in a worker): from the size the previous point of this process suggested
     when ``chain`` (and it was of the same sweep, ``token``), else from ``start_size``."""
     if chain and _CHAIN.get("token") == token:
         start_size = _CHAIN["size"]
